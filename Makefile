@@ -1,0 +1,52 @@
+# covey — the two set-up commands (`make demo`, `make test`) plus `make bench`.
+# Each installs the Debian packages that are missing (apt-get update only when needed),
+# configures a Release build in build/, builds, and runs.
+
+DEBIAN_PACKAGES := cmake g++ make pkg-config libeigen3-dev libboost-random-dev libtbb-dev \
+  libhdf5-dev hdf5-tools libcli11-dev nlohmann-json3-dev libgtest-dev libbenchmark-dev \
+  python3 python3-numpy python3-scipy python3-h5py r-base-core r-cran-posterior \
+  libcairo2-dev graphviz libgraphviz-dev
+JOBS ?= $(shell nproc 2>/dev/null || echo 2)
+SUDO := $(shell [ "$$(id -u)" -eq 0 ] || echo sudo)
+CMAKE_FLAGS ?=
+
+.PHONY: deps build build-asan test unit-test asan-test demo bench format clean
+
+deps:
+	@missing=$$(for p in $(DEBIAN_PACKAGES); do \
+	  dpkg-query -W -f='$${Status}' $$p 2>/dev/null | grep -q 'install ok installed' || echo $$p; \
+	done); \
+	if [ -n "$$missing" ]; then \
+	  echo "installing missing Debian packages:" $$missing; \
+	  $(SUDO) apt-get update -qq && \
+	  DEBIAN_FRONTEND=noninteractive $(SUDO) apt-get install -y -qq --no-install-recommends $$missing; \
+	fi
+
+build: deps
+	cmake -S . -B build -DCMAKE_BUILD_TYPE=Release $(CMAKE_FLAGS) >/dev/null
+	cmake --build build -j $(JOBS)
+
+build-asan: deps
+	cmake -S . -B build-asan -DCMAKE_BUILD_TYPE=RelWithDebInfo -DCOVEY_SANITIZE=ON $(CMAKE_FLAGS) >/dev/null
+	cmake --build build-asan -j $(JOBS) --target covey covey_tests
+
+unit-test: build
+	cd build && ctest --output-on-failure -j $(JOBS)
+
+asan-test: build-asan
+	cd build-asan && ASAN_OPTIONS=detect_leaks=1 UBSAN_OPTIONS=print_stacktrace=1 \
+	  ctest --output-on-failure -j $(JOBS) -LE slow
+
+test: unit-test asan-test
+
+demo: build
+	bash examples/run_demo.sh
+
+bench: build
+	build/bench/covey_bench --benchmark_counters_tabular=true
+
+format:
+	clang-format -i $$(git ls-files '*.cpp' '*.hpp')
+
+clean:
+	rm -rf build build-asan

@@ -1,0 +1,32 @@
+#pragma once
+// Outputs are never half-written: write to a temporary file beside the target, then rename it
+// over the target on commit(). An uncommitted output (error, exception) is removed, and an
+// existing file at the target is left untouched.
+#include <string>
+
+namespace covey {
+
+class AtomicOutput {
+ public:
+  explicit AtomicOutput(std::string target);
+  ~AtomicOutput();
+  AtomicOutput(const AtomicOutput&) = delete;
+  AtomicOutput& operator=(const AtomicOutput&) = delete;
+
+  const std::string& temp_path() const { return temp_; }
+  const std::string& target_path() const { return target_; }
+  void commit();  // fsync + rename; throws Error on failure
+
+ private:
+  std::string target_;
+  std::string temp_;
+  bool committed_ = false;
+};
+
+// Writes `text` to `path` atomically.
+void write_text_file_atomically(const std::string& path, const std::string& text);
+
+// Throws InputError when the file cannot be opened for reading (names the path).
+void require_readable(const std::string& path);
+
+}  // namespace covey

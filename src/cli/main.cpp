@@ -1,0 +1,45 @@
+// covey: Bayesian posterior inference over Bayesian-network structures.
+#include <CLI/CLI.hpp>
+#include <exception>
+#include <iostream>
+#include <new>
+
+#include "command.hpp"
+#include "common.hpp"
+#include "covey/error.hpp"
+#include "covey/version.hpp"
+
+int main(int argc, char** argv) {
+  covey::cli::set_command_line(argc, argv);
+  CLI::App app{
+      "covey: the posterior distribution over Bayesian-network structures (DAGs) from data.\n"
+      "Score data, compute exact results on cover-bounded DAGs, run hybrid MCMC, check "
+      "convergence, compare and report."};
+  app.set_version_flag("--version", std::string("covey ") + covey::kVersion);
+  app.require_subcommand(1);
+  app.fallthrough(false);
+  covey::cli::setup_all_commands(app);
+  try {
+    app.parse(argc, argv);
+  } catch (const CLI::CallForHelp& e) {
+    return app.exit(e);
+  } catch (const CLI::CallForAllHelp& e) {
+    return app.exit(e);
+  } catch (const CLI::CallForVersion& e) {
+    return app.exit(e);
+  } catch (const CLI::ParseError& e) {
+    std::cerr << "covey: error: " << e.what() << " (see --help)\n";
+    return 2;
+  } catch (const std::bad_alloc&) {
+    std::cerr << "covey: error: out of memory (reduce the problem size or see --help for the "
+                 "options that shrink it)\n";
+    return 3;
+  } catch (const covey::ResourceError& e) {
+    std::cerr << "covey: error: " << e.what() << "\n";
+    return 3;
+  } catch (const std::exception& e) {
+    std::cerr << "covey: error: " << e.what() << "\n";
+    return 1;
+  }
+  return 0;
+}

@@ -1,0 +1,31 @@
+#include "covey/random.hpp"
+
+#include <sstream>
+
+#include "covey/error.hpp"
+
+namespace covey {
+
+Rng make_stream(std::uint64_t seed, std::uint64_t stream_id) {
+  // seed_seq mixes all words, so nearby (seed, id) pairs give unrelated streams.
+  boost::random::seed_seq seq{static_cast<std::uint32_t>(seed), static_cast<std::uint32_t>(seed >> 32),
+                              static_cast<std::uint32_t>(stream_id),
+                              static_cast<std::uint32_t>(stream_id >> 32), 0x636f7665u};
+  return Rng(seq);
+}
+
+std::string save_stream(const Rng& rng) {
+  std::ostringstream out;
+  out << rng;
+  return out.str();
+}
+
+Rng load_stream(const std::string& state) {
+  std::istringstream in(state);
+  Rng rng;
+  in >> rng;
+  if (!in) throw InputError("corrupt random-stream state in checkpoint");
+  return rng;
+}
+
+}  // namespace covey
