@@ -1,0 +1,30 @@
+#pragma once
+// The cover-bounded class D_k (DESIGN.md section 3): DAGs whose moral graph has a vertex cover
+// of size <= k. Moral graph, minimum vertex cover by bounded search tree, membership, splits.
+#include <cstdint>
+#include <optional>
+#include <vector>
+
+#include "covey/dag.hpp"
+
+namespace covey {
+
+// Undirected adjacency masks of the moral graph: the skeleton plus an edge between every two
+// parents of a common child.
+std::vector<std::uint64_t> moral_graph(const Dag& dag);
+
+// A vertex cover of the undirected graph `adjacency` with at most k vertices, if one exists
+// (bounded search tree, O(2^k * edges)); the returned cover has minimum size.
+std::optional<std::uint64_t> vertex_cover_at_most(const std::vector<std::uint64_t>& adjacency, int k);
+
+// Size of a minimum vertex cover of the moral graph.
+int moral_cover_number(const Dag& dag);
+
+// Membership in D_k.
+bool in_cover_class(const Dag& dag, int k);
+
+// All splits of G for bound k: covers C of M(G) with |C| <= k containing no sink of G (as masks,
+// ascending). Empty when G is not in D_k.
+std::vector<std::uint64_t> splits(const Dag& dag, int k);
+
+}  // namespace covey
