@@ -149,6 +149,29 @@ std::vector<int> ScoreTable::parents_of(int v, ParentMask local) const {
   return out;
 }
 
+std::uint64_t ScoreTable::fingerprint() const {
+  // FNV-1a over 64-bit words; stable across platforms with IEEE doubles.
+  std::uint64_t h = 0xcbf29ce484222325ULL;
+  auto mix = [&h](std::uint64_t word) {
+    for (int i = 0; i < 8; ++i) {
+      h ^= (word >> (8 * i)) & 0xff;
+      h *= 0x100000001b3ULL;
+    }
+  };
+  mix(static_cast<std::uint64_t>(n_));
+  for (int v = 0; v < n_; ++v) {
+    for (char c : variables_[v].name) mix(static_cast<unsigned char>(c));
+    mix(nodes_[v].candidates.size());
+    for (int c : nodes_[v].candidates) mix(static_cast<std::uint64_t>(c));
+    mix(nodes_[v].masks.size());
+    for (std::size_t i = 0; i < nodes_[v].masks.size(); ++i) {
+      mix(nodes_[v].masks[i]);
+      mix(std::bit_cast<std::uint64_t>(nodes_[v].log_scores[i]));
+    }
+  }
+  return h;
+}
+
 std::size_t ScoreTable::memory_bytes() const {
   std::size_t bytes = position_.size() * sizeof(std::int16_t);
   for (const Node& node : nodes_)

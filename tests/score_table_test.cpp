@@ -49,6 +49,8 @@ TEST(ScoreIo, Hdf5RoundTrip) {
   write_scores_hdf5(t, path);
   const ScoreTable back = read_scores_hdf5(path);
   ASSERT_EQ(back.num_variables(), 6);
+  EXPECT_EQ(back.fingerprint(), t.fingerprint());
+  EXPECT_NE(testing_util::random_full_table(6, 2, 8).fingerprint(), t.fingerprint());
   EXPECT_EQ(back.metadata().score, "bdeu");
   EXPECT_EQ(back.metadata().parameters["equivalent_sample_size"], 1.0);
   for (int v = 0; v < 6; ++v) {

@@ -81,6 +81,10 @@ class ScoreTable {
   // Parent variable indices of a local mask, ascending.
   std::vector<int> parents_of(int v, ParentMask local) const;
 
+  // A 64-bit digest of the variables, candidates, parent sets and exact score bits: files derived
+  // from a table (samplers, traces) store it to detect being used with a different table.
+  std::uint64_t fingerprint() const;
+
   // Bytes held by the table, and the estimate for a table with these counts (checked before
   // building large tables).
   std::size_t memory_bytes() const;
