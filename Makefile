@@ -10,7 +10,7 @@ JOBS ?= $(shell nproc 2>/dev/null || echo 2)
 SUDO := $(shell [ "$$(id -u)" -eq 0 ] || echo sudo)
 CMAKE_FLAGS ?=
 
-.PHONY: deps build build-asan test unit-test asan-test demo bench format clean
+.PHONY: deps build build-asan test unit-test asan-test demo bench format cli-docs clean
 
 deps:
 	@missing=$$(for p in $(DEBIAN_PACKAGES); do \
@@ -45,6 +45,9 @@ demo: build
 
 bench: build
 	build/bench/covey_bench --benchmark_counters_tabular=true
+
+cli-docs: build
+	docs/generate_cli_reference.sh build/covey > docs/cli.md
 
 format:
 	clang-format -i $$(git ls-files '*.cpp' '*.hpp')
