@@ -25,6 +25,33 @@ inline double log_gamma(double x) {
   return lgamma_r(x, &sign);
 }
 
+// Adds one to counts[code(i)] for every row i, where codes lie in [0, space). Uses four
+// interleaved copies of the counts when they fit in `capacity`: consecutive rows that hit the same
+// counter would otherwise wait on each other's stores. The copies are merged into the first.
+template <class Code>
+inline void count_rows(std::uint32_t* counts, std::size_t rows, std::uint64_t space,
+                       std::uint64_t capacity, Code code) {
+  if (4 * space > capacity || rows < 256) {
+    for (std::size_t i = 0; i < rows; ++i) ++counts[code(i)];
+    return;
+  }
+  std::uint32_t* c1 = counts + space;
+  std::uint32_t* c2 = c1 + space;
+  std::uint32_t* c3 = c2 + space;
+  std::size_t i = 0;
+  for (; i + 4 <= rows; i += 4) {
+    ++counts[code(i)];
+    ++c1[code(i + 1)];
+    ++c2[code(i + 2)];
+    ++c3[code(i + 3)];
+  }
+  for (; i < rows; ++i) ++counts[code(i)];
+  for (std::uint64_t k = 0; k < space; ++k) {
+    counts[k] += c1[k] + c2[k] + c3[k];
+    c1[k] = c2[k] = c3[k] = 0;
+  }
+}
+
 struct Workspace {
   std::vector<std::vector<std::uint32_t>> levels;  // codes per depth of the walk
   std::vector<std::uint32_t> counts;               // all zero between uses
@@ -49,7 +76,8 @@ class Bdeu final : public LocalScore {
   int num_variables() const override { return data_.num_variables(); }
 
   double log_marginal(int v, std::span<const int> parents) const override {
-    return score_general(v, parents, workspace());
+    Workspace& ws = workspace();
+    return fits_dense(v, parents) ? score_dense(v, parents, ws) : score_general(v, parents, ws);
   }
 
   void score_family(const Family& f,
@@ -69,6 +97,14 @@ class Bdeu final : public LocalScore {
 
   // Score from counts at k * q + j (q configurations, r states), clearing them.
   double score_counts(std::uint32_t* counts, std::uint64_t q, int r) const;
+  bool fits_dense(int v, std::span<const int> parents) const {
+    std::uint64_t space = static_cast<std::uint64_t>(levels_[v]);
+    for (int u : parents)
+      if ((space *= static_cast<std::uint64_t>(levels_[u])) > dense_limit_) return false;
+    return true;
+  }
+  // One set by the packed codes of the walk (parents taken in the given order).
+  double score_dense(int v, std::span<const int> parents, Workspace& ws) const;
   double score_general(int v, std::span<const int> parents, Workspace& ws) const;
   // The depth-first walk below a set whose joint codes are `code` (space r_v * q).
   void walk(const Family& f, Workspace& ws, const std::uint32_t* code, std::uint64_t q,
@@ -106,6 +142,36 @@ double Bdeu::score_counts(std::uint32_t* counts, std::uint64_t q, int r) const {
   }
   std::memset(counts, 0, sizeof(std::uint32_t) * q * r);
   return sum;
+}
+
+double Bdeu::score_dense(int v, std::span<const int> parents, Workspace& ws) const {
+  std::uint32_t* counts = ws.counts.data();
+  const std::uint16_t* x_v = columns_[v];
+  const std::size_t l = parents.size();
+  if (l == 0) {
+    count_rows(counts, rows_, levels_[v], dense_limit_, [&](std::size_t i) { return x_v[i]; });
+    return score_counts(counts, 1, levels_[v]);
+  }
+  // Codes of (v, all parents but the last), then the last parent fused with the counting.
+  std::uint64_t q = 1;
+  const std::uint16_t* x_last = columns_[parents[l - 1]];
+  const std::uint32_t r_last = static_cast<std::uint32_t>(levels_[parents[l - 1]]);
+  if (l == 1) {
+    count_rows(counts, rows_, std::uint64_t(r_last) * levels_[v], dense_limit_,
+               [&](std::size_t i) { return std::uint32_t(x_v[i]) * r_last + x_last[i]; });
+  } else {
+    std::uint32_t* code = level(ws, 0).data();
+    for (std::size_t i = 0; i < rows_; ++i) code[i] = x_v[i];
+    for (std::size_t p = 0; p + 1 < l; ++p) {
+      const std::uint16_t* x = columns_[parents[p]];
+      const std::uint32_t r = static_cast<std::uint32_t>(levels_[parents[p]]);
+      q *= r;
+      for (std::size_t i = 0; i < rows_; ++i) code[i] = code[i] * r + x[i];
+    }
+    count_rows(counts, rows_, q * r_last * levels_[v], dense_limit_,
+               [&](std::size_t i) { return code[i] * r_last + x_last[i]; });
+  }
+  return score_counts(counts, q * r_last, levels_[v]);
 }
 
 double Bdeu::score_general(int v, std::span<const int> parents, Workspace& ws) const {
@@ -210,15 +276,16 @@ void Bdeu::walk(const Family& f, Workspace& ws, const std::uint32_t* code, std::
     const bool extend = used + 1 < f.max_optional && j + 1 < m;
     if (extend) {
       std::uint32_t* next = level(ws, used + 1).data();
-      for (std::size_t i = 0; i < rows_; ++i) {
+      count_rows(counts, rows_, q_u * r_v, dense_limit_, [&](std::size_t i) {
         const std::uint32_t c = code[i] * r_u + x[i];
         next[i] = c;
-        ++counts[c];
-      }
+        return c;
+      });
       out.emplace_back(with, score_counts(counts, q_u, r_v));
       walk(f, ws, next, q_u, with, j + 1, m, used + 1, parents, out);
     } else {
-      for (std::size_t i = 0; i < rows_; ++i) ++counts[code[i] * r_u + x[i]];
+      count_rows(counts, rows_, q_u * r_v, dense_limit_,
+                 [&](std::size_t i) { return code[i] * r_u + x[i]; });
       out.emplace_back(with, score_counts(counts, q_u, r_v));
     }
     parents.pop_back();
@@ -258,7 +325,7 @@ void Bdeu::score_family(const Family& f, std::vector<std::pair<ParentMask, doubl
   }
   if (f.first_optional < 0) {
     std::uint32_t* counts = ws.counts.data();
-    for (std::size_t i = 0; i < rows_; ++i) ++counts[root[i]];
+    count_rows(counts, rows_, q * r_v, dense_limit_, [&](std::size_t i) { return root[i]; });
     out.emplace_back(0, score_counts(counts, q, r_v));
     return;
   }

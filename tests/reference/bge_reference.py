@@ -2,9 +2,9 @@
 """Independent BGe marginal likelihoods by the Normal-Wishart predictive chain rule.
 
 Usage: bge_reference.py DATA.csv QUERIES.json
-QUERIES.json: {"alpha_mu": a, "alpha_w": w or null (n + 2), "standardize": bool,
-               "subsets": [[names], ...]}
-Prints a JSON list with log p(D_Y) for every subset Y.
+QUERIES.json: a list of {"alpha_mu": a, "alpha_w": w or null (n + 2), "standardize": bool,
+                         "subsets": [[names], ...]}
+Prints a JSON list with, per query, the list of log p(D_Y) for its subsets Y.
 
 Model (Geiger & Heckerman 2002; parametrization of Kuipers, Moffa & Heckerman 2014): over all n
 variables, W ~ Wishart(alpha_w, T^-1), mu | W ~ N(nu, (alpha_mu W)^-1), nu = the sample mean,
@@ -52,18 +52,22 @@ def main():
     header = rows[0]
     data = np.array([[float(v) for v in row] for row in rows[1:]])
     with open(sys.argv[2]) as f:
-        query = json.load(f)
+        queries = json.load(f)
     n = len(header)
-    alpha_mu = float(query["alpha_mu"])
-    alpha_w = float(query["alpha_w"]) if query.get("alpha_w") is not None else n + 2.0
-    if query.get("standardize"):
-        data = (data - data.mean(axis=0)) / data.std(axis=0, ddof=1)
-    t = alpha_mu * (alpha_w - n - 1) / (alpha_mu + 1)
     out = []
-    for subset in query["subsets"]:
-        idx = [header.index(name) for name in subset]
-        x = data[:, idx]
-        out.append(log_marginal(x, alpha_mu, alpha_w - n + len(idx), t, x.mean(axis=0)))
+    for query in queries:
+        alpha_mu = float(query["alpha_mu"])
+        alpha_w = float(query["alpha_w"]) if query.get("alpha_w") is not None else n + 2.0
+        x_all = data
+        if query.get("standardize"):
+            x_all = (data - data.mean(axis=0)) / data.std(axis=0, ddof=1)
+        t = alpha_mu * (alpha_w - n - 1) / (alpha_mu + 1)
+        values = []
+        for subset in query["subsets"]:
+            idx = [header.index(name) for name in subset]
+            x = x_all[:, idx]
+            values.append(log_marginal(x, alpha_mu, alpha_w - n + len(idx), t, x.mean(axis=0)))
+        out.append(values)
     print(json.dumps(out))
 
 
