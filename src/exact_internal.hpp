@@ -40,6 +40,10 @@ void max_zeta_subsets(std::span<double> a, int bits);
 // Superset version: a[y] <- log sum_{z superset of y} exp(a[z]).
 void log_zeta_supersets(std::span<double> a, int bits);
 
+// prod[k] = product of b[j] over the bits j of k, for k < 2^c, built block by block (the upper
+// half of each doubling is the lower half times one factor: contiguous, vectorizable).
+void subset_products(const double* b, std::size_t c, std::vector<double>& prod);
+
 // Subset tables of the local scores, over global masks of n <= 30 variables. For node v and
 // Y subset of V\{v}:
 //   hmax(v, Y) = max_{Q subset of Y, Q allowed} s_v(Q)            (-inf when none)

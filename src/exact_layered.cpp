@@ -4,6 +4,7 @@
 // weights F(P, L), giving Z(U) for every U. Each pass touches 4^n (state, next layer) pairs.
 #include <tbb/parallel_for.h>
 
+#include <algorithm>
 #include <cmath>
 
 #include "covey/logmath.hpp"
@@ -71,12 +72,37 @@ class LayerFactors {
   std::vector<std::uint64_t> layer_mask_;
 };
 
-// prod[k] = product of b[j] over the bits j of k, for k < 2^c.
-void subset_products(const double* b, std::size_t c, std::vector<long double>& prod) {
-  const std::size_t size = std::size_t{1} << c;
-  prod.resize(size);
-  prod[0] = 1.0L;
-  for (std::size_t k = 1; k < size; ++k) prod[k] = prod[k & (k - 1)] * b[std::countr_zero(k)];
+}  // namespace
+
+void subset_products(const double* b, std::size_t c, std::vector<double>& prod) {
+  prod.resize(std::size_t{1} << c);
+  prod[0] = 1.0;
+  for (std::size_t j = 0; j < c; ++j) {
+    const std::size_t half = std::size_t{1} << j;
+    const double bj = b[j];
+    double* out = prod.data() + half;
+    for (std::size_t t = 0; t < half; ++t) out[t] = prod[t] * bj;
+  }
+}
+
+namespace {
+
+// sum over k < 2^c of prod_{j in k} b[j] * h[k], by folding one bit at a time from the top:
+// h'[t] = h[t] + b[j] h[t + 2^j]. Positive terms summed as a tree: relative error about c ulp.
+double fold_products(const double* h, const double* b, std::size_t c,
+                     std::vector<double>& scratch) {
+  if (c == 0) return h[0];
+  std::size_t half = std::size_t{1} << (c - 1);
+  scratch.resize(half);
+  double* w = scratch.data();
+  const double top = b[c - 1];
+  for (std::size_t t = 0; t < half; ++t) w[t] = h[t] + top * h[t + half];
+  for (std::size_t j = c - 1; j-- > 0;) {
+    half = std::size_t{1} << j;
+    const double bj = b[j];
+    for (std::size_t t = 0; t < half; ++t) w[t] += bj * w[t + half];
+  }
+  return w[0];
 }
 
 // Factors of the start state: the sources take the empty parent set (relative to its score).
@@ -120,13 +146,11 @@ LayerTable layered_completion_pass(const SubsetScores& s, SubsetWeights& out) {
     LayerFactors lf(s, x_set);
     const std::size_t c = lf.complement().size();
     const double* next_x = t.next.data() + t.offset[x_set];
-    std::vector<long double> prod;
-    auto completion = [&](const double* b) {
+    std::vector<double> scratch;
+    // G(X, L) relative to exp(beta(X)); H_X(empty) is 0, so the fold sums nonempty layers only.
+    auto completion = [&](const double* b) -> long double {
       if (c == 0) return 1.0L;
-      subset_products(b, c, prod);
-      long double g = 0.0L;
-      for (std::size_t k = 1; k < prod.size(); ++k) g += prod[k] * next_x[k];
-      return g;
+      return fold_products(next_x, b, c, scratch);
     };
     if (x_set == 0) {
       const long double g = completion(source_factors(s).data());
@@ -143,7 +167,7 @@ LayerTable layered_completion_pass(const SubsetScores& s, SubsetWeights& out) {
       if (g > 0 && t.beta[placed] != kNegInf) {
         double e = t.beta[x_set] - t.beta[placed];
         for (std::uint64_t m = layer; m; m &= m - 1) e += s.hmax(std::countr_zero(m), placed);
-        value = static_cast<double>(g * std::exp(static_cast<long double>(e)));
+        value = static_cast<double>(g * std::exp(e));
       }
       t.next[t.offset[placed] + extract_bits(layer, full & ~placed)] = value;
       if ((layer & (layer - 1)) == 0) {
@@ -175,13 +199,24 @@ std::vector<double> layered_forward_pass(const SubsetScores& s) {
     const auto& cs = lf.complement();
     const std::size_t c = cs.size();
     const std::size_t size = std::size_t{1} << c;
-    std::vector<long double> acc(size, 0.0L), prod;
-    auto push = [&](long double f, const double* b) {
+    // acc(L') = sum over last layers L of F(P, L) prod_{v in L'} b(v, P, L): summed in double
+    // blocks of kBlock layers, flushed into long double.
+    constexpr int kBlock = 32;
+    std::vector<long double> acc(size, 0.0L);
+    std::vector<double> block(size, 0.0), prod;
+    int pending = 0;
+    auto flush = [&] {
+      for (std::size_t k = 1; k < size; ++k) acc[k] += block[k];
+      std::fill(block.begin(), block.end(), 0.0);
+      pending = 0;
+    };
+    auto push = [&](double f, const double* b) {
       subset_products(b, c, prod);
-      for (std::size_t k = 1; k < size; ++k) acc[k] += f * prod[k];
+      for (std::size_t k = 0; k < size; ++k) block[k] += f * prod[k];
+      if (++pending == kBlock) flush();
     };
     if (p == 0) {
-      push(1.0L, source_factors(s).data());
+      push(1.0, source_factors(s).data());
     } else {
       for (std::size_t i = 1; i < lf.num_layers(); ++i) {
         lf.compute(i);
@@ -189,6 +224,7 @@ std::vector<double> layered_forward_pass(const SubsetScores& s) {
         if (f > 0) push(f, lf.factors(i));
       }
     }
+    flush();
     // F(P + L', L') = acc(L') * exp(alpha(P) + sum_{v in L'} hmax(v, P) - alpha(P + L')).
     std::vector<double> hsum(size, 0.0);
     std::vector<std::uint64_t> next(size, 0);
@@ -200,7 +236,7 @@ std::vector<double> layered_forward_pass(const SubsetScores& s) {
       double value = 0;
       if (acc[k] > 0 && alpha[x] != kNegInf) {
         const double e = alpha[p] + hsum[k] - alpha[x];
-        value = static_cast<double>(acc[k] * std::exp(static_cast<long double>(e)));
+        value = static_cast<double>(acc[k] * std::exp(e));
       }
       forward[offset[x] + extract_bits(next[k], x)] = value;
     }

@@ -186,7 +186,7 @@ ExactPosterior assemble(const SubsetScores& s, const SubsetWeights& w) {
       const std::uint64_t x = expand(k);
       const double h = r[k] + s.log_a(v, x) - w.log_z;
       if (h == kNegInf) continue;
-      const long double e = std::exp(static_cast<long double>(h));
+      const long double e = std::exp(h);
       anc_total += e;
       for (std::uint64_t m = s.full() & ~x & ~(std::uint64_t{1} << v); m; m &= m - 1)
         anc[std::countr_zero(m)] += e;
@@ -199,7 +199,7 @@ ExactPosterior assemble(const SubsetScores& s, const SubsetWeights& w) {
     for (std::size_t i = 0; i < sets.size(); ++i) {
       const double lp = scores[i] + r[drop_bit(sets[i], v)] - w.log_z;
       if (lp == kNegInf) continue;
-      const long double p = std::exp(static_cast<long double>(lp));
+      const long double p = std::exp(lp);
       set_total += p;
       for (std::uint64_t m = sets[i]; m; m &= m - 1) edge[std::countr_zero(m)] += p;
     }
@@ -221,9 +221,18 @@ ExactPosterior assemble(const SubsetScores& s, const SubsetWeights& w) {
 }
 
 struct DrawWorkspace {
-  std::vector<long double> prod;
-  std::vector<double> terms, factors;
+  std::vector<double> prod, weight, terms, factors;
 };
+
+// Sum of positive doubles with four partial sums (vectorizable; relative error ~ size ulp / 4).
+double sum_of(const double* x, std::size_t size) {
+  double a[4] = {0, 0, 0, 0};
+  std::size_t k = 0;
+  for (; k + 4 <= size; k += 4)
+    for (int r = 0; r < 4; ++r) a[r] += x[k + r];
+  for (; k < size; ++k) a[0] += x[k];
+  return (a[0] + a[1]) + (a[2] + a[3]);
+}
 
 std::vector<int> members(std::uint64_t m) {
   std::vector<int> out;
@@ -292,24 +301,21 @@ struct ExactEngine::Impl {
         }
         ws.factors[j] = sum;
       }
+      // Step to layer L' with weight prod_{v in L'} b(v, P, L) * H_P(L').
       const double* next = layers.next.data() + layers.offset[placed];
       const std::size_t size = std::size_t{1} << c;
-      ws.prod.resize(size);
-      ws.prod[0] = 1.0L;
-      long double weight_total = 0;
-      for (std::size_t k = 1; k < size; ++k) {
-        ws.prod[k] = ws.prod[k & (k - 1)] * ws.factors[std::countr_zero(k)];
-        weight_total += ws.prod[k] * next[k];
-      }
+      exact_internal::subset_products(ws.factors.data(), c, ws.prod);
+      ws.weight.resize(size);
+      for (std::size_t k = 0; k < size; ++k) ws.weight[k] = ws.prod[k] * next[k];
+      const double weight_total = sum_of(ws.weight.data(), size);
       if (!(weight_total > 0)) throw Error("exact sampler reached a state of zero weight");
-      const long double u = static_cast<long double>(uniform01(rng)) * weight_total;
-      long double acc = 0;
+      const double u = uniform01(rng) * weight_total;
+      double acc = 0;
       std::size_t chosen = 0;
       for (std::size_t k = 1; k < size; ++k) {
-        const long double wk = ws.prod[k] * next[k];
-        if (wk <= 0) continue;
+        if (ws.weight[k] <= 0) continue;
         chosen = k;
-        acc += wk;
+        acc += ws.weight[k];
         if (acc > u) break;
       }
       const std::uint64_t next_layer = deposit_bits(chosen, rest);

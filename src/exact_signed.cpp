@@ -58,8 +58,7 @@ std::vector<long double> completion_sums(const SubsetScores& s, const std::vecto
         tm[k] = tm[k & (k - 1)] | (std::uint64_t{1} << cs[j]);
         const long double next = b[y | tm[k]];
         if (next == 0 || lp[k] == kNegInf) continue;
-        const long double term =
-            next * std::exp(static_cast<long double>(lp[k] + beta[y | tm[k]] - beta[y]));
+        const long double term = next * std::exp(lp[k] + beta[y | tm[k]] - beta[y]);
         sum += (std::popcount(k) & 1) ? term : -term;
       }
       if (sum < 0) ++clamps;
@@ -97,8 +96,7 @@ std::vector<double> signed_log_z(const SubsetScores& s, long long& clamped) {
     auto push = [&](std::size_t k) {
       if (lp[k] == kNegInf) return;
       const std::uint64_t u = y | tm[k];
-      const long double term =
-          z[y] * std::exp(static_cast<long double>(alpha[y] + lp[k] - alpha[u]));
+      const long double term = z[y] * std::exp(alpha[y] + lp[k] - alpha[u]);
       z[u] += (std::popcount(k) & 1) ? term : -term;
     };
     if (size >= 4096) {
@@ -142,8 +140,7 @@ std::vector<double> signed_log_d(const SubsetScores& s, long long& clamped, doub
       tm[k] = tm[k & (k - 1)] | (std::uint64_t{1} << ws[j]);
       const long double next = b[xu | tm[k]];
       if (next == 0 || lp[k] == kNegInf) continue;
-      const long double term =
-          next * std::exp(static_cast<long double>(lp[k] + beta[xu | tm[k]] - beta[xu]));
+      const long double term = next * std::exp(lp[k] + beta[xu | tm[k]] - beta[xu]);
       sum += (std::popcount(k) & 1) ? -term : term;
     }
     long long c = 0;
