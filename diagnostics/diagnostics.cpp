@@ -6,8 +6,10 @@
 #include <cfloat>
 #include <cmath>
 #include <complex>
+#include <functional>
 #include <limits>
 #include <numeric>
+#include <optional>
 #include <string>
 #include <unsupported/Eigen/FFT>
 
@@ -29,22 +31,36 @@ bool should_return_na(std::span<const double> values) {
   return !(std::abs(hi - lo) >= DBL_EPSILON);  // an empty input is constant too
 }
 
+namespace {
+
+// Sum with four partial sums (instruction-level parallelism; the order is fixed, so results
+// are reproducible).
+template <class Term>
+double sum_of(std::span<const double> values, Term term) {
+  double s[4] = {0, 0, 0, 0};
+  const std::size_t n = values.size(), blocks = n / 4 * 4;
+  for (std::size_t i = 0; i < blocks; i += 4)
+    for (int k = 0; k < 4; ++k) s[k] += term(values[i + k]);
+  for (std::size_t i = blocks; i < n; ++i) s[0] += term(values[i]);
+  return (s[0] + s[1]) + (s[2] + s[3]);
+}
+
+}  // namespace
+
+bool all_equal(std::span<const double> values) {
+  return std::adjacent_find(values.begin(), values.end(), std::not_equal_to<>()) == values.end();
+}
+
 double r_mean(std::span<const double> values) {
-  const auto n = static_cast<long double>(values.size());
-  long double sum = 0;
-  for (double v : values) sum += v;
-  long double m = sum / n;
-  if (std::isfinite(static_cast<double>(m))) {
-    long double residual = 0;
-    for (double v : values) residual += v - m;
-    m += residual / n;
-  }
-  return static_cast<double>(m);
+  if (all_equal(values)) return values.empty() ? NAN : values[0];
+  const auto n = static_cast<double>(values.size());
+  double m = sum_of(values, [](double v) { return v; }) / n;
+  if (std::isfinite(m)) m += sum_of(values, [m](double v) { return v - m; }) / n;
+  return m;
 }
 
 double r_variance(std::span<const double> values, double mean) {
-  double sum = 0;
-  for (double v : values) sum += (v - mean) * (v - mean);
+  const double sum = sum_of(values, [mean](double v) { return (v - mean) * (v - mean); });
   return sum / static_cast<double>(values.size() - 1);
 }
 
@@ -89,19 +105,38 @@ int good_fft_size(int minimum) {
   }
 }
 
-// Per-thread FFT plans and buffers, reused across calls (plans are cached per size by Eigen).
-struct FftWorkspace {
-  Eigen::FFT<double> fft;
+// Per-thread FFT plans and buffers, reused across calls. Eigen caches a plan per size; a few
+// sizes are kept (chain lengths change as a run grows), then the cache starts afresh.
+class FftWorkspace {
+ public:
   std::vector<double> padded;
   std::vector<std::complex<double>> spectrum;
-  std::vector<double> chain_acov;
-  std::vector<double> acov_sum;
+  std::vector<double> power;
+  std::vector<double> acov;
   std::vector<double> rho;
 
-  FftWorkspace() {
-    fft.SetFlag(Eigen::FFT<double>::HalfSpectrum);
-    fft.SetFlag(Eigen::FFT<double>::Unscaled);
+  FftWorkspace() { reset(); }
+
+  Eigen::FFT<double>& fft_of_size(int nfft) {
+    if (std::find(sizes_.begin(), sizes_.end(), nfft) == sizes_.end()) {
+      if (sizes_.size() >= kMaxPlans) reset();
+      sizes_.push_back(nfft);
+    }
+    return fft_;
   }
+
+ private:
+  static constexpr std::size_t kMaxPlans = 8;
+
+  void reset() {
+    fft_ = Eigen::FFT<double>();
+    fft_.SetFlag(Eigen::FFT<double>::HalfSpectrum);
+    fft_.SetFlag(Eigen::FFT<double>::Unscaled);
+    sizes_.clear();
+  }
+
+  Eigen::FFT<double> fft_;
+  std::vector<int> sizes_;
 };
 
 FftWorkspace& workspace() {
@@ -109,40 +144,43 @@ FftWorkspace& workspace() {
   return ws;
 }
 
-// posterior's autocovariance(): lags 0..N-1 of one chain, by FFT of the zero-padded centred
-// chain, normalized as var(x) * (N - 1) / N at lag 0. A constant chain gives zeros.
-void autocovariance(std::span<const double> x, FftWorkspace& ws, std::vector<double>& out) {
-  const std::size_t n = x.size();
-  out.assign(n, 0.0);
-  const double m = r_mean(x);
-  const double var = r_variance(x, m);
-  if (var == 0) return;
-  const int nfft = good_fft_size(static_cast<int>(2 * n));
+// The mean over chains of posterior's autocovariance() of each chain, lags 0..nfft-N exact
+// (with zero padding to nfft, lag k is free of wrap-around while k <= nfft - N).
+// posterior computes each chain's lags by FFT of the centred chain and scales them to
+// var(x) (N - 1) / N at lag 0, which is the raw lag sum over N; the inverse transform is
+// linear, so the chains' power spectra are summed first and transformed back once. A constant
+// chain contributes zeros, as in posterior.
+void mean_autocovariance(DrawsView draws, const std::vector<double>& chain_means, int nfft,
+                         FftWorkspace& ws) {
+  const std::size_t n = draws.iterations;
+  Eigen::FFT<double>& fft = ws.fft_of_size(nfft);
   ws.padded.assign(nfft, 0.0);
-  for (std::size_t t = 0; t < n; ++t) ws.padded[t] = x[t] - m;
   ws.spectrum.resize(nfft / 2 + 1);
-  ws.fft.fwd(ws.spectrum.data(), ws.padded.data(), nfft);
-  for (auto& c : ws.spectrum) c = std::norm(c);
-  ws.fft.inv(ws.padded.data(), ws.spectrum.data(), nfft);
-  const double scale = var * static_cast<double>(n - 1) / static_cast<double>(n) / ws.padded[0];
-  for (std::size_t t = 0; t < n; ++t) out[t] = ws.padded[t] * scale;
-}
-
-// R's var() of the chain means.
-double variance_of_chain_means(DrawsView draws) {
-  std::vector<double> means(draws.chains);
-  for (int c = 0; c < draws.chains; ++c) means[c] = r_mean(draws.chain(c));
-  return r_variance(means, r_mean(means));
+  ws.power.assign(nfft / 2 + 1, 0.0);
+  for (int c = 0; c < draws.chains; ++c) {
+    const auto x = draws.chain(c);
+    if (all_equal(x)) continue;
+    for (std::size_t t = 0; t < n; ++t) ws.padded[t] = x[t] - chain_means[c];
+    fft.fwd(ws.spectrum.data(), ws.padded.data(), nfft);
+    for (std::size_t k = 0; k < ws.power.size(); ++k) ws.power[k] += std::norm(ws.spectrum[k]);
+  }
+  ws.spectrum.assign(ws.power.begin(), ws.power.end());
+  fft.inv(ws.padded.data(), ws.spectrum.data(), nfft);
+  const double scale = 1 / (static_cast<double>(nfft) * static_cast<double>(n) * draws.chains);
+  ws.acov.resize(n);
+  for (std::size_t t = 0; t < n; ++t) ws.acov[t] = ws.padded[t] * scale;
 }
 
 // posterior's .ess after the autocovariances: Geyer's initial positive sequence made
 // monotone, the truncated sum tau, the cap tau >= 1 / log10(S). Indices are R's minus one.
-double ess_from_autocovariance(const std::vector<double>& acov, int chains, double var_plus_extra,
-                               std::vector<double>& rho) {
+// Only lags below `exact_lags` are known; returns nothing when the sequence reaches beyond.
+std::optional<double> ess_from_autocovariance(const std::vector<double>& acov, long exact_lags,
+                                              int chains, double var_chain_means,
+                                              std::vector<double>& rho) {
   const long n = static_cast<long>(acov.size());
   const double mean_var = acov[0] * static_cast<double>(n) / static_cast<double>(n - 1);
-  const double var_plus =
-      mean_var * static_cast<double>(n - 1) / static_cast<double>(n) + var_plus_extra;
+  double var_plus = mean_var * static_cast<double>(n - 1) / static_cast<double>(n);
+  if (chains > 1) var_plus += var_chain_means;
   rho.assign(n, 0.0);
   long t = 0;
   double rho_even = 1;
@@ -151,6 +189,7 @@ double ess_from_autocovariance(const std::vector<double>& acov, int chains, doub
   rho[1] = rho_odd;
   while (t < n - 5 && !std::isnan(rho_even + rho_odd) && rho_even + rho_odd > 0) {
     t += 2;
+    if (t + 1 >= exact_lags) return std::nullopt;
     rho_even = 1 - (mean_var - acov[t]) / var_plus;
     rho_odd = 1 - (mean_var - acov[t + 1]) / var_plus;
     if (rho_even + rho_odd >= 0) {
@@ -223,31 +262,51 @@ std::vector<double> rank_normalize(std::span<const double> values) {
   return z;
 }
 
+namespace diagnostics_detail {
+
+ChainMoments chain_moments(DrawsView draws) {
+  ChainMoments m{std::vector<double>(draws.chains), std::vector<double>(draws.chains)};
+  for (int c = 0; c < draws.chains; ++c) {
+    m.mean[c] = r_mean(draws.chain(c));
+    m.var[c] = r_variance(draws.chain(c), m.mean[c]);
+  }
+  return m;
+}
+
+double rhat_from_moments(const ChainMoments& m, int iterations) {
+  if (m.mean.size() < 2) return kNaN;  // R's var() of a single chain mean is NA
+  const auto n = static_cast<double>(iterations);
+  const double var_between = n * r_variance(m.mean, r_mean(m.mean));
+  const double var_within = r_mean(m.var);
+  return std::sqrt((var_between / var_within + n - 1) / n);
+}
+
+double ess_given_means(DrawsView draws, const std::vector<double>& chain_means) {
+  FftWorkspace& ws = workspace();
+  const double var_chain_means =
+      draws.chains > 1 ? r_variance(chain_means, r_mean(chain_means)) : 0.0;
+  // Geyer's sequence usually stops long before lag N/8, so a first pass pads only that far
+  // (a shorter FFT); when it does not stop there, all lags are computed.
+  const int n = draws.iterations;
+  const int short_fft = good_fft_size(n + n / 8 + 8);
+  mean_autocovariance(draws, chain_means, short_fft, ws);
+  if (const auto ess = ess_from_autocovariance(ws.acov, short_fft - n + 1, draws.chains,
+                                               var_chain_means, ws.rho))
+    return *ess;
+  mean_autocovariance(draws, chain_means, good_fft_size(2 * n), ws);
+  return *ess_from_autocovariance(ws.acov, n, draws.chains, var_chain_means, ws.rho);
+}
+
+}  // namespace diagnostics_detail
+
 double rhat_unsplit(DrawsView draws) {
   if (should_return_na(draws.values)) return kNaN;
-  const auto n = static_cast<double>(draws.iterations);
-  std::vector<double> chain_mean(draws.chains), chain_var(draws.chains);
-  for (int c = 0; c < draws.chains; ++c) {
-    chain_mean[c] = r_mean(draws.chain(c));
-    chain_var[c] = r_variance(draws.chain(c), chain_mean[c]);
-  }
-  if (draws.chains < 2) return kNaN;  // R's var() of a single chain mean is NA
-  const double var_between = n * r_variance(chain_mean, r_mean(chain_mean));
-  const double var_within = r_mean(chain_var);
-  return std::sqrt((var_between / var_within + n - 1) / n);
+  return rhat_from_moments(chain_moments(draws), draws.iterations);
 }
 
 double ess_unsplit(DrawsView draws) {
   if (draws.iterations < 3 || should_return_na(draws.values)) return kNaN;
-  FftWorkspace& ws = workspace();
-  ws.acov_sum.assign(draws.iterations, 0.0);
-  for (int c = 0; c < draws.chains; ++c) {
-    autocovariance(draws.chain(c), ws, ws.chain_acov);
-    for (int t = 0; t < draws.iterations; ++t) ws.acov_sum[t] += ws.chain_acov[t];
-  }
-  for (double& a : ws.acov_sum) a /= draws.chains;
-  const double between = draws.chains > 1 ? variance_of_chain_means(draws) : 0.0;
-  return ess_from_autocovariance(ws.acov_sum, draws.chains, between, ws.rho);
+  return ess_given_means(draws, chain_moments(draws).mean);
 }
 
 namespace diagnostics_detail {

@@ -15,8 +15,12 @@ inline constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 // posterior's should_return_NA: a non-finite value, or max - min below the double epsilon.
 bool should_return_na(std::span<const double> values);
 
-// R's mean(): a long double sum divided by n, then refined by the mean residual. A constant
-// sequence gets exactly its value, so its deviations are exactly zero.
+// True when all values are equal (exactly; posterior's zero-variance chains).
+bool all_equal(std::span<const double> values);
+
+// R's mean(): the sum divided by n, refined by the mean residual (R sums in long double; the
+// difference is rounding). A constant sequence gets exactly its value, so its deviations are
+// exactly zero.
 double r_mean(std::span<const double> values);
 
 // R's var() given the mean: sum of squared deviations over n - 1.
@@ -53,6 +57,18 @@ double r_median(std::size_t n, SortedAt sorted) {
 // Order statistics of arbitrary values by partial sorting; `values` is reordered.
 double r_quantile7(std::vector<double>& values, double prob);
 double r_median(std::vector<double>& values);
+
+// Per-chain means and variances (R's mean() and var()).
+struct ChainMoments {
+  std::vector<double> mean;
+  std::vector<double> var;
+};
+ChainMoments chain_moments(DrawsView draws);
+
+// The two halves of rhat_unsplit and ess_unsplit after their checks for undefined input:
+// R-hat from the chain moments, and the ESS given the chain means (iterations >= 3).
+double rhat_from_moments(const ChainMoments& moments, int iterations);
+double ess_given_means(DrawsView draws, const std::vector<double>& chain_means);
 
 // Steps of posterior's rhat, ess_quantile and ess_tail, shared by the single diagnostics and
 // summarize().

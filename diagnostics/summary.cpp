@@ -24,40 +24,58 @@ struct TwoValues {
   double lo = 0;
   double hi = 0;
   std::size_t n_lo = 0;
+  std::size_t n_hi = 0;
 };
 
 std::optional<TwoValues> as_two_valued(std::span<const double> values) {
-  TwoValues two{values[0], values[0], 0};
-  bool found_second = false;
+  const double first = values[0];
+  double second = first;
+  std::size_t n_first = 0, n_second = 0;
   for (double v : values) {
-    if (v == two.lo || v == two.hi) continue;
-    if (found_second) return std::nullopt;
-    found_second = true;
-    two.lo = std::min(two.lo, v);
-    two.hi = std::max(two.hi, v);
+    if (v == first) {
+      ++n_first;
+    } else if (n_second > 0 && v == second) {
+      ++n_second;
+    } else if (n_second == 0) {
+      second = v;
+      n_second = 1;
+    } else {
+      return std::nullopt;
+    }
   }
-  if (!found_second) return std::nullopt;
-  two.n_lo = static_cast<std::size_t>(std::count(values.begin(), values.end(), two.lo));
-  return two;
-}
-
-double standard_deviation(std::span<const double> values) {
-  return std::sqrt(r_variance(values, r_mean(values)));
+  if (n_second == 0) return std::nullopt;
+  if (first < second) return TwoValues{first, second, n_first, n_second};
+  return TwoValues{second, first, n_second, n_first};
 }
 
 // Every series posterior transforms a two-valued feature into is an affine image of the split
 // indicator b = I(x = hi), or constant: the rank-normalized draws take one normal score per
 // value; |x - median| is b or 1 - b up to scale, or constant when the median falls between
 // the values; I(x <= q) is 1 - b, or constant when q >= hi. R-hat and ESS are invariant under
-// affine maps with nonzero slope, so one R-hat and one ESS of b give them all. Returns nothing
-// when the split chains are constant (only the dropped middle draws differ), which the general
-// path handles.
+// affine maps with nonzero slope, so one R-hat and one ESS of b give them all. Means and
+// variances come from counts. Returns nothing when the split chains are constant (only the
+// dropped middle draws differ), which the general path handles.
 std::optional<FeatureSummary> summarize_two_valued(DrawsView draws, const TwoValues& two) {
-  Draws b = split_chains(draws);
-  for (double& v : b.values) v = v == two.hi;
-  if (should_return_na(b.values)) return std::nullopt;
-  const double rhat_b = rhat_unsplit(b.view());
-  const double ess_b = ess_unsplit(b.view());
+  const int chains = draws.chains, half = draws.iterations / 2;
+  Draws b{std::vector<double>(static_cast<std::size_t>(2 * chains) * half), 2 * chains, half};
+  ChainMoments moments{std::vector<double>(2 * chains), std::vector<double>(2 * chains)};
+  std::size_t ones = 0;
+  for (int j = 0; j < 2 * chains; ++j) {  // split chain j: a first half, then second halves
+    const auto chain = draws.chain(j % chains);
+    const std::size_t start = j < chains ? 0 : chain.size() - half;
+    double* out = &b.values[static_cast<std::size_t>(j) * half];
+    std::size_t k = 0;
+    for (int t = 0; t < half; ++t) k += (out[t] = chain[start + t] == two.hi) != 0;
+    const double p = static_cast<double>(k) / half;
+    moments.mean[j] = p;
+    moments.var[j] =
+        (static_cast<double>(k) * (1 - p) * (1 - p) + static_cast<double>(half - k) * p * p) /
+        (half - 1);
+    ones += k;
+  }
+  if (ones == 0 || ones == b.values.size()) return std::nullopt;
+  const double rhat_b = rhat_from_moments(moments, half);
+  const double ess_b = ess_given_means(b.view(), moments.mean);
 
   const std::size_t n = draws.values.size();
   const auto sorted = [&](std::size_t k) { return k <= two.n_lo ? two.lo : two.hi; };
@@ -67,15 +85,21 @@ std::optional<FeatureSummary> summarize_two_valued(DrawsView draws, const TwoVal
   const auto quantile_ess = [&](double prob) {
     return r_quantile7(n, prob, sorted) >= two.hi ? kNaN : ess_b;
   };
-
+  const double n_lo = static_cast<double>(two.n_lo), n_hi = static_cast<double>(two.n_hi);
+  const double sd = (two.hi - two.lo) *
+                    std::sqrt(n_lo * n_hi / (static_cast<double>(n) * static_cast<double>(n - 1)));
   FeatureSummary s;
-  s.mean = r_mean(draws.values);
+  s.mean = (n_lo * two.lo + n_hi * two.hi) / static_cast<double>(n);
   s.rhat = folded_constant ? kNaN : rhat_b;
   s.ess_bulk = ess_b;
   s.ess_tail = min_or_nan(quantile_ess(0.05), quantile_ess(0.95));
   s.ess_mean = ess_b;
-  s.mcse = standard_deviation(draws.values) / std::sqrt(ess_b);
+  s.mcse = sd / std::sqrt(ess_b);
   return s;
+}
+
+double standard_deviation(std::span<const double> values) {
+  return std::sqrt(r_variance(values, r_mean(values)));
 }
 
 FeatureSummary summarize_general(DrawsView draws) {

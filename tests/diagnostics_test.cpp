@@ -184,8 +184,8 @@ struct Scenarios {
 };
 
 const Scenarios& scenario_files() {
-  static const Scenarios* s = new Scenarios;
-  return *s;
+  static const Scenarios s;  // destroyed at exit, removing its folder
+  return s;
 }
 
 const std::vector<Quantity>& scenario(const std::string& name) {
