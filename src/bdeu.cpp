@@ -70,7 +70,7 @@ class Bdeu final : public LocalScore {
       levels_.push_back(data.num_levels(v));
       columns_.push_back(data.codes(v).data());
     }
-    dense_limit_ = std::clamp<std::uint64_t>(4 * std::uint64_t(rows_), 1 << 12, 1 << 22);
+    dense_limit_ = bdeu_count_cells(rows_);
   }
 
   int num_variables() const override { return data_.num_variables(); }

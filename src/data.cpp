@@ -107,7 +107,7 @@ class Tokenizer {
 
   // Reads the field at the cursor; returns true when it was the last field of its row (and then
   // consumes the line ending).
-  bool next(Field& f) {
+  [[gnu::always_inline]] bool next(Field& f) {
     while (p_ < end_ && is_blank(*p_)) ++p_;
     f.escaped = false;
     if (p_ < end_ && *p_ == '"') {
@@ -161,20 +161,23 @@ class Tokenizer {
 };
 
 // Levels of one discrete column while reading: codes in first-appearance order, found by a short
-// linear scan while there are few levels and by hashing beyond that.
+// linear scan while there are few levels and by hashing beyond that. Labels of up to 7 bytes are
+// compared as one packed integer (bytes plus length), the common case of short labels.
 class LevelIndex {
  public:
   // Returns the code of `text`, adding it when new; -1 when the column has too many levels.
   int code_of(std::string_view text) {
     if (map_.empty()) {
+      const std::uint64_t key = pack(text);
       for (std::size_t i = 0; i < levels_.size(); ++i)
-        if (levels_[i] == text) return static_cast<int>(i);
+        if (packed_[i] == key && (key != kLong || levels_[i] == text)) return static_cast<int>(i);
     } else {
       auto it = map_.find(text);
       if (it != map_.end()) return it->second;
     }
     if (levels_.size() >= std::size_t(kMaxLevels)) return -1;
     levels_.push_back(text);
+    packed_.push_back(pack(text));
     const int code = static_cast<int>(levels_.size() - 1);
     if (!map_.empty() || levels_.size() > kLinearLevels) {
       if (map_.empty())
@@ -188,7 +191,15 @@ class LevelIndex {
 
  private:
   static constexpr std::size_t kLinearLevels = 16;
+  static constexpr std::uint64_t kLong = ~std::uint64_t{0};  // longer labels: compare the text
+  static std::uint64_t pack(std::string_view text) {
+    if (text.size() > 7) return kLong;
+    std::uint64_t key = 0;
+    std::memcpy(&key, text.data(), text.size());
+    return key << 8 | text.size();
+  }
   std::vector<std::string_view> levels_;
+  std::vector<std::uint64_t> packed_;
   std::unordered_map<std::string_view, int> map_;
 };
 
@@ -289,10 +300,9 @@ DataTable parse_csv(std::string text, const std::string& name, const CsvOptions&
     const long line = tok.line();
     std::size_t count = 0;
     bool last = false;
+    Field extra;
     while (!last) {
-      Field f;
-      last = tok.next(f);
-      if (count < n) fields[count] = f;
+      last = tok.next(count < n ? fields[count] : extra);
       ++count;
     }
     if (count == 1 && fields[0].begin == fields[0].end && !fields[0].quoted) continue;  // blank

@@ -118,15 +118,15 @@ ScoreEstimate estimate_from_plans(const std::vector<NodePlan>& plans, std::size_
   const double per_set = sizeof(ParentMask) + sizeof(double);
   const double table = static_cast<double>(ScoreTable::estimate_bytes(static_cast<int>(n), 0)) +
                        e.parent_sets * static_cast<double>(ScoreTable::estimate_bytes(0, 1));
-  const double workspace =
-      threads * (4.0 * static_cast<double>(rows) * (o.max_indegree + 4) + 4.0 * (1 << 22));
+  const double workspace = threads * (4.0 * static_cast<double>(rows) * (o.max_indegree + 4) +
+                                      4.0 * static_cast<double>(bdeu_count_cells(rows)));
   e.bytes = table + per_set * e.parent_sets + workspace + 8 * n * n;
   return e;
 }
 
 std::string candidate_text(const ScoreOptions& o, int n) {
   if (o.candidates != kDefaultCandidates) return std::to_string(o.candidates);
-  return n <= kNoScreenUpTo ? "all (the default for n <= 20)" : "20 (the default)";
+  return n <= kNoScreenUpTo ? "all, the default for n <= 20" : "20, the default";
 }
 
 }  // namespace

@@ -154,7 +154,12 @@ TEST(EdgeConstraints, ForbiddenAndRequiredEdgesShapeTheTable) {
     EXPECT_NEAR(t.log_score_global(3, g), same, 1e-12 * std::abs(same));
   }
   EXPECT_EQ(t.num_parent_sets(0), subsets_up_to(4, 2));
-  for (ParentMask g : t.global_parent_sets(0)) EXPECT_TRUE(g >> 4 & 1);
+  for (ParentMask g : t.global_parent_sets(0)) {
+    EXPECT_TRUE(g >> 4 & 1);
+    // The required parent (4) is counted before the optional ones (1, 2, 3, 5): same values.
+    const double same = free.log_score_global(0, g);
+    EXPECT_NEAR(t.log_score_global(0, g), same, 1e-12 * std::abs(same));
+  }
   EXPECT_EQ(t.num_parent_sets(1), free.num_parent_sets(1));
   // Required parents beyond the in-degree bound are refused.
   options.max_indegree = 0;

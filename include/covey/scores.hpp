@@ -50,6 +50,12 @@ class LocalScore {
 };
 
 std::unique_ptr<LocalScore> make_bdeu(const DataTable& data, double equivalent_sample_size);
+// BDeu counts joint configurations in flat arrays of at most this many cells per thread (larger
+// spaces are relabelled or sorted); part of the memory estimate.
+inline std::uint64_t bdeu_count_cells(std::size_t rows) {
+  const std::uint64_t cells = 4 * static_cast<std::uint64_t>(rows);
+  return cells < (1u << 12) ? (1u << 12) : cells > (1u << 22) ? (1u << 22) : cells;
+}
 
 struct BgeParameters {
   double alpha_mu = 1.0;
