@@ -50,11 +50,12 @@ std::size_t default_exact_memory_limit() {
 
 namespace {
 
-// Seconds per elementary step on one core, measured with bench/exact_bench.cpp (Release build,
-// x86-64, 2023-era core) and rounded up: a (state, next layer) pair of the layer passes, a term
-// with an exponential (the signed sums, the layer factors), a log-space zeta step.
-constexpr double kSecondsPerLayerPair = 2.5e-9;
-constexpr double kSecondsPerExpTerm = 1.5e-8;
+// Seconds per elementary step on one core, fitted to `covey exact --threads 1` at n = 14 and 16
+// (Release build, x86-64) and rounded up: a (state, next layer) pair of the layer passes, a term
+// with an exponential (the signed sums, the layer factors), a log-space zeta step. The memory
+// estimate is the engine's own (the process and the score table come on top).
+constexpr double kSecondsPerLayerPair = 3.0e-9;
+constexpr double kSecondsPerExpTerm = 1.8e-8;
 constexpr double kSecondsPerZetaStep = 2.0e-8;
 constexpr int kMaxExactEngineVariables = 30;
 
