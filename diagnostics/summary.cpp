@@ -8,9 +8,11 @@
 #include <cmath>
 #include <numeric>
 #include <optional>
+#include <string>
 #include <thread>
 
 #include "covey/diagnostics.hpp"
+#include "covey/error.hpp"
 #include "diagnostics_internal.hpp"
 
 namespace covey {
@@ -128,6 +130,10 @@ double smallest_ess(const FeatureSummary& s) {
 }  // namespace
 
 FeatureSummary summarize(DrawsView draws) {
+  check_draws_shape(draws.chains, draws.iterations);
+  if (draws.values.size() != static_cast<std::size_t>(draws.chains) * draws.iterations)
+    throw Error("summarize: " + std::to_string(draws.values.size()) + " values for " +
+                std::to_string(draws.chains) + " chains of " + std::to_string(draws.iterations));
   if (should_return_na(draws.values)) {
     FeatureSummary s{r_mean(draws.values), kNaN, kNaN, kNaN, kNaN, kNaN};
     return s;

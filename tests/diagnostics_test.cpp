@@ -352,6 +352,8 @@ TEST(Diagnostics, ShapeRequirements) {
   EXPECT_THROW(check_draws_shape(0, 100), InputError);
   EXPECT_THROW(check_draws_shape(4, kMinDrawsPerChain - 1), InputError);
   EXPECT_NO_THROW(check_draws_shape(1, kMinDrawsPerChain));
+  const Draws short_chains{std::vector<double>(8, 1.0), 2, 4};
+  EXPECT_THROW(summarize(short_chains.view()), InputError);
   try {
     check_draws_shape(2, 3, "f.csv");
     FAIL();
@@ -624,6 +626,9 @@ TEST(CheckCommand, BadInputGivesOneLineError) {
   run = run_covey("check --draws " + dir.file("nope.csv"));
   EXPECT_NE(run.exit_code, 0);
   EXPECT_NE(run.err.find("nope.csv"), std::string::npos) << run.err;
+  run = run_covey("check --draws " + few + " --rhat 0.9");
+  EXPECT_EQ(run.exit_code, 1);
+  EXPECT_EQ(run.err, "covey: error: check: --rhat must exceed 1, got 0.9\n");
   run = run_covey("check --help");
   EXPECT_EQ(run.exit_code, 0);
   EXPECT_NE(run.out.find("--strict"), std::string::npos);

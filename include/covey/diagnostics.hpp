@@ -97,9 +97,10 @@ struct FeatureSummary {
   double mcse = 0;
 };
 
-// The same numbers as the single functions above, computed with shared intermediate results
-// (a feature taking two values, such as an edge indicator, needs one autocovariance pass
-// instead of four, since every transformed series is then an affine image of it).
+// The same numbers as the single functions above, to rounding (throws InputError for fewer chains
+// or draws than check_draws_shape accepts), computed with shared intermediate results (a feature
+// taking two values, such as an edge indicator, needs one autocovariance pass instead of four,
+// since every transformed series is then an affine image of it).
 FeatureSummary summarize(DrawsView draws);
 
 // Writes the draws of feature `index` into `values` (chain-major, chains * iterations long).

@@ -6,7 +6,6 @@
 #include <cstdio>
 #include <iomanip>
 #include <iostream>
-#include <limits>
 #include <string>
 #include <vector>
 
@@ -183,14 +182,16 @@ void setup_check(CLI::App& app) {
   cmd->add_flag("--json", options->json,
                 "Print JSON (undefined values are null, infinite ones \"inf\")");
   cmd->add_flag("--strict", options->strict, "Exit with status 4 unless the verdict is converged");
-  cmd->add_option("--rhat", options->thresholds.max_rhat, "R-hat must be below this")
-      ->capture_default_str()
-      ->check(CLI::Range(1.0, std::numeric_limits<double>::max()));
+  cmd->add_option("--rhat", options->thresholds.max_rhat, "R-hat must be below this (> 1)")
+      ->capture_default_str();
   cmd->add_option("--ess", options->thresholds.min_ess, "bulk and tail ESS must exceed this")
       ->capture_default_str()
       ->check(CLI::NonNegativeNumber);
   add_threads_option(*cmd, options->threads);
   cmd->callback([options] {
+    if (!(options->thresholds.max_rhat > 1))
+      throw InputError("check: --rhat must exceed 1, got " +
+                       format("%g", options->thresholds.max_rhat));
     const auto limit = apply_threads(options->threads);
     const CheckedInput in = check_input(*options);
     const Thresholds& t = options->thresholds;
