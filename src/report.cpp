@@ -725,7 +725,7 @@ std::string worst_features_html(const ReportData& d, const ConvergenceVerdict& v
          "probability of the feature (for the log score, its posterior mean); MCSE is its Monte "
          "Carlo standard error.";
   if (order.size() > shown)
-    out += " Showing " + std::to_string(shown) + " of " +
+    out += " Showing the " + std::to_string(shown) + " worst of " +
            grouped(static_cast<std::int64_t>(order.size())) + ".";
   return out + "</p>\n</section>\n";
 }
