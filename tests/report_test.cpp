@@ -287,8 +287,9 @@ TEST(AtomicDirectory, CommitsWholeOrNotAtAll) {
 // --- in a real browser -------------------------------------------------------------------------
 
 std::string chromium(const std::string& arguments, const std::string& profile) {
-  // Flags keep the browser off the network and away from the user's profile.
-  return std::string("HOME='") + profile + "' '" + COVEY_CHROMIUM +
+  // Flags keep the browser off the network and away from the user's profile; `timeout` turns a
+  // hung browser into a failure instead of a stalled test run.
+  return std::string("HOME='") + profile + "' timeout 90 '" + COVEY_CHROMIUM +
          "' --headless --no-sandbox --disable-gpu --disable-quic --no-first-run "
          "--disable-background-networking --disable-component-update --disable-sync "
          "--disable-extensions --hide-scrollbars --user-data-dir='" +
