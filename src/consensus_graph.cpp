@@ -13,6 +13,23 @@
 #include "covey/error.hpp"
 #include "covey/plot.hpp"
 
+#if defined(__SANITIZE_ADDRESS__)
+// Under AddressSanitizer: graphviz's text-layout plugin and the font libraries below it (pango,
+// fontconfig) keep allocations that they never free, and the "dot" layout loses the virtual
+// edges it makes to break a cycle; LeakSanitizer would report them at exit of every program
+// that lays out a graph or draws text. They are not covey's, so they are suppressed by the
+// library that allocated them. (Graphviz has no frame pointers, so the default fast unwinder
+// often stops at libgvc's allocator: hence libgvc too. A graph covey forgot to close would
+// still be reported, from libcgraph.)
+extern "C" const char* __lsan_default_suppressions() {
+  return "leak:libgvplugin_pango.so\n"
+         "leak:libgvplugin_dot_layout.so\n"
+         "leak:libgvc.so\n"
+         "leak:libpangoft2-1.0.so\n"
+         "leak:libfontconfig.so\n";
+}
+#endif
+
 namespace covey {
 
 ConsensusGraph consensus_graph(const std::vector<std::string>& names,
@@ -92,13 +109,23 @@ std::string fixed(double v, int decimals) {
 
 }  // namespace
 
-std::string consensus_dot(const ConsensusGraph& graph) {
+std::vector<int> isolated_variables(const ConsensusGraph& graph) {
+  std::vector<char> connected(graph.names.size(), 0);
+  for (const auto& e : graph.edges) connected[e.from] = connected[e.to] = 1;
+  std::vector<int> isolated;
+  for (std::size_t v = 0; v < graph.names.size(); ++v)
+    if (!connected[v]) isolated.push_back(static_cast<int>(v));
+  return isolated;
+}
+
+std::string consensus_dot(const ConsensusGraph& graph, const ConsensusDotOptions& options) {
   const std::string font = "\"DejaVu Sans\"";
   const std::string edge_colour = plot::to_hex(plot::okabe_ito::kBlue);
   const std::string cycle_colour = plot::to_hex(plot::okabe_ito::kVermillion);
   std::string out = "digraph \"consensus\" {\n";
-  out += "  graph [rankdir=TB, bgcolor=\"white\", pad=0.25, nodesep=0.45, ranksep=0.55, fontname=" +
-         font + ", fontsize=11, fontcolor=\"#555555\"";
+  out += "  graph [rankdir=" + std::string(options.left_to_right ? "LR" : "TB") +
+         ", bgcolor=\"white\", pad=0.25, nodesep=0.45, ranksep=0.55, fontname=" + font +
+         ", fontsize=11, fontcolor=\"#555555\"";
   if (graph.has_cycle)
     out += ", labelloc=b, label=" +
            quote("Edges in vermillion form a directed cycle: the edge marginals above " +
@@ -110,12 +137,13 @@ std::string consensus_dot(const ConsensusGraph& graph) {
       font + ", fontsize=13, fontcolor=\"#1f2328\", margin=\"0.14,0.07\", height=0.36];\n";
   out += "  edge [color=" + quote(edge_colour) + ", fontname=" + font +
          ", fontsize=10.5, fontcolor=\"#333333\", arrowsize=0.75];\n";
-  std::vector<char> connected(graph.names.size(), 0);
-  for (const auto& e : graph.edges) connected[e.from] = connected[e.to] = 1;
+  const std::vector<int> isolated = isolated_variables(graph);
+  const bool draw_isolated = static_cast<int>(isolated.size()) <= options.max_isolated_drawn;
   for (std::size_t v = 0; v < graph.names.size(); ++v) {
+    const bool lone = std::binary_search(isolated.begin(), isolated.end(), static_cast<int>(v));
+    if (lone && !draw_isolated) continue;
     out += "  " + quote(graph.names[v]);
-    if (!connected[v])
-      out += " [style=\"rounded,dashed\", color=\"#9aa4b2\", fontcolor=\"#6b7280\"]";
+    if (lone) out += " [style=\"rounded,dashed\", color=\"#9aa4b2\", fontcolor=\"#6b7280\"]";
     out += ";\n";
   }
   const double span = 1 - graph.threshold;
@@ -150,9 +178,14 @@ int collect_error(char* message) {
   return 0;
 }
 
-struct ContextDeleter {
-  void operator()(GVC_t* gvc) const { gvFreeContext(gvc); }
-};
+// One graphviz context for the whole process, never freed: graphviz 2.43's text-layout plugin
+// keeps a pointer to the last font name, which a freed context would leave dangling (a
+// use-after-free that AddressSanitizer reports when a second context lays out text).
+GVC_t* graphviz_context() {
+  static GVC_t* const context = gvContext();
+  return context;
+}
+
 struct GraphDeleter {
   void operator()(Agraph_t* g) const { agclose(g); }
 };
@@ -180,7 +213,7 @@ void render_dot(const std::string& dot, const std::string& path, double png_dpi)
     std::lock_guard<std::mutex> lock(graphviz_mutex());
     graphviz_errors().clear();
     const agusererrf previous = agseterrf(collect_error);
-    std::unique_ptr<GVC_t, ContextDeleter> gvc(gvContext());
+    GVC_t* const gvc = graphviz_context();
     std::unique_ptr<Agraph_t, GraphDeleter> graph(agmemread(dot.c_str()));
     auto fail = [&](const std::string& what) {
       agseterrf(previous);
@@ -193,13 +226,13 @@ void render_dot(const std::string& dot, const std::string& path, double png_dpi)
       std::string dpi = fixed(png_dpi, 0);
       agattr(graph.get(), AGRAPH, const_cast<char*>("dpi"), dpi.data());
     }
-    if (gvLayout(gvc.get(), graph.get(), "dot") != 0) fail("graphviz cannot lay out the graph");
+    if (gvLayout(gvc, graph.get(), "dot") != 0) fail("graphviz cannot lay out the graph");
     char* data = nullptr;
     unsigned int length = 0;
-    const int status = gvRenderData(gvc.get(), graph.get(), format.c_str(), &data, &length);
+    const int status = gvRenderData(gvc, graph.get(), format.c_str(), &data, &length);
     if (status == 0 && data) bytes.assign(data, length);
     if (data) gvFreeRenderData(data);
-    gvFreeLayout(gvc.get(), graph.get());
+    gvFreeLayout(gvc, graph.get());
     if (status != 0 || bytes.empty()) fail("graphviz cannot render " + format);
     agseterrf(previous);
   }

@@ -57,7 +57,8 @@ constexpr Colour kGrid{0.90, 0.90, 0.92};
 constexpr Colour kWhite{1, 1, 1};
 constexpr Colour kMissing{0.86, 0.86, 0.88};
 constexpr const char* kFontFamily = "DejaVu Sans";
-constexpr double kTitleSize = 16, kLabelSize = 13, kTickSize = 11.5;
+constexpr double kTitleSize = 17, kLabelSize = 14, kTickSize = 12.5;
+constexpr double kNoteSize = 13;   // legends, row names, counts
 constexpr double kTitleBand = 40;  // height of the title strip at the top
 
 // Drawing helpers over one cairo context; remembers every string drawn (for the SVG <desc>).
@@ -277,7 +278,7 @@ void draw_x_axis(Canvas& c, const Axis& axis, double baseline, double top, const
   c.line(axis.px_lo, baseline + 0.5, axis.px_hi, baseline + 0.5, 1);
   c.font(kLabelSize);
   c.colour(kInk);
-  c.text(label, (axis.px_lo + axis.px_hi) / 2, baseline + 30, 0.5, 0);
+  c.text(label, (axis.px_lo + axis.px_hi) / 2, baseline + 33, 0.5, 0);
 }
 
 // Vertical axis along x = `left`, grid lines to `right`; the label sits rotated at `label_x`.
@@ -514,13 +515,13 @@ void draw_line_plot(Canvas& c, const LinePlot& plot, double width, double height
   std::vector<int> named;
   for (int i = 0; i < static_cast<int>(plot.series.size()); ++i)
     if (!plot.series[i].name.empty()) named.push_back(i);
-  c.font(12);
+  c.font(kNoteSize);
   double legend_width = 0;
   for (int i : named) legend_width = std::max(legend_width, c.text_width(plot.series[i].name));
   if (!named.empty()) legend_width += 48;
   const double right = width - 20 - legend_width;
   const double top = plot.title.empty() ? 16 : kTitleBand + 8;
-  const double bottom = height - 16 - (plot.x_label.empty() ? 0 : 24) - 22;
+  const double bottom = height - 16 - (plot.x_label.empty() ? 0 : 27) - 24;
 
   Axis x{x_lo, x_hi, Scale::kLinear, left, right};
   set_ticks(x, std::max(3, static_cast<int>((right - left) / 110)));
@@ -550,9 +551,9 @@ void draw_line_plot(Canvas& c, const LinePlot& plot, double width, double height
   cairo_restore(cr);
 
   // Legend entries, top-aligned with the plot; entries that do not fit are summarised.
-  const double row_height = 19;
+  const double row_height = 21;
   const int fits = std::max(1, static_cast<int>((bottom - top) / row_height));
-  c.font(12);
+  c.font(kNoteSize);
   for (int k = 0; k < static_cast<int>(named.size()); ++k) {
     const double ly = top + 8 + k * row_height;
     if (k == fits - 1 && static_cast<int>(named.size()) > fits) {
@@ -621,17 +622,17 @@ void draw_strip_plot(Canvas& c, const StripPlot& plot, double width, double heig
     if (undefined > 0) note.second = std::to_string(undefined) + " undefined";
     notes.push_back(note);
   }
-  c.font(12, true);
+  c.font(kNoteSize, true);
   double note_width = 0, name_width = 0;
   for (const auto& n : notes) note_width = std::max(note_width, c.text_width(n.first));
-  c.font(12);
+  c.font(kNoteSize);
   for (const auto& n : notes) note_width = std::max(note_width, c.text_width(n.second));
   for (const auto& row : plot.rows) name_width = std::max(name_width, c.text_width(row.name));
 
   const double left = 16 + name_width + 14;
   const double right = width - 18 - note_width - 16;
   const double top = (plot.title.empty() ? 16 : kTitleBand) + 22;  // room for threshold label
-  const double bottom = height - 16 - (plot.x_label.empty() ? 0 : 24) - 22;
+  const double bottom = height - 16 - (plot.x_label.empty() ? 0 : 27) - 24;
   Axis x{lo, hi, plot.x_scale, left, right};
   set_ticks(x, std::max(3, static_cast<int>((right - left) / 100)));
 
@@ -654,7 +655,7 @@ void draw_strip_plot(Canvas& c, const StripPlot& plot, double width, double heig
     c.dashed(true);
     c.line(tx, top - 4, tx, bottom, 1.3);
     c.dashed(false);
-    c.font(11.5, true);
+    c.font(kTickSize, true);
     c.text(plot.threshold_label, tx, top - 8, plot.above_is_bad ? 0.0 : 1.0, 1);
   }
 
@@ -676,9 +677,12 @@ void draw_strip_plot(Canvas& c, const StripPlot& plot, double width, double heig
       c.colour(kGrid);
       c.line(left, top + r * row_height, right, top + r * row_height, 1);
     }
-    c.font(12, true);
+    c.font(kNoteSize, true);
     c.colour(kInk);
     c.text(row.name, left - 12, mid, 1, 0.5);
+    // Dots spread over most of the row, less when there are few (one dot sits on the centre).
+    const double spread =
+        0.72 * row_height * std::min(1.0, static_cast<double>(row.values.size() - 1) / 20.0);
     // Passing dots first, failing ones on top and larger.
     for (int pass = 0; pass < 2; ++pass) {
       const bool failing_pass = pass == 1;
@@ -689,18 +693,18 @@ void draw_strip_plot(Canvas& c, const StripPlot& plot, double width, double heig
       for (std::size_t i = 0; i < row.values.size(); ++i) {
         const double v = row.values[i];
         if (std::isnan(v) || (v < 0 && std::isinf(v)) || is_bad(plot, v) != failing_pass) continue;
-        const double dy = jitter((static_cast<std::uint64_t>(r) << 40) ^ i) * 0.72 * row_height;
+        const double dy = jitter((static_cast<std::uint64_t>(r) << 40) ^ i) * spread;
         c.circle(x_of(v), mid + dy, failing_pass ? radius + 1.2 : radius);
         cairo_fill(cr);
       }
     }
     const Note& note = notes[r];
-    c.font(12, true);
+    c.font(kNoteSize, true);
     c.colour(note.failing ? okabe_ito::kVermillion : kMuted);
     const double nx = right + 16;
     c.text(note.first, nx, note.second.empty() ? mid : mid - 8, 0, 0.5);
     if (!note.second.empty()) {
-      c.font(12);
+      c.font(kNoteSize);
       c.colour(kMuted);
       c.text(note.second, nx, mid + 9, 0, 0.5);
     }
@@ -844,7 +848,7 @@ void draw_scatter_plot(Canvas& c, const ScatterPlot& plot, double width, double 
   const double tick_width = widest(c, probe.labels);
   const double top = plot.title.empty() ? 16 : kTitleBand + 8;
   const double left_margin = 16 + (plot.y_label.empty() ? 0 : 22) + tick_width + 10;
-  const double bottom_margin = 16 + (plot.x_label.empty() ? 0 : 24) + 22;
+  const double bottom_margin = 16 + (plot.x_label.empty() ? 0 : 27) + 24;
   const double side =
       std::max(40.0, std::min(width - left_margin - 24, height - top - bottom_margin));
   const double left = left_margin + std::max(0.0, (width - left_margin - 24 - side) / 2);
@@ -866,7 +870,7 @@ void draw_scatter_plot(Canvas& c, const ScatterPlot& plot, double width, double 
   c.dashed(true);
   c.line(left + 12, top + 14, left + 34, top + 14, 1.2);
   c.dashed(false);
-  c.font(11.5);
+  c.font(kTickSize);
   c.colour(kMuted);
   c.text("equal (y = x)", left + 40, top + 14, 0, 0.5);
   if (plot.points.empty()) {
@@ -914,7 +918,7 @@ void draw_scatter_plot(Canvas& c, const ScatterPlot& plot, double width, double 
     return std::abs(a->y - a->x) > std::abs(b->y - b->x);
   });
   if (static_cast<int>(order.size()) > plot.labelled_points) order.resize(plot.labelled_points);
-  c.font(11.5);
+  c.font(kNoteSize);
   c.colour(kInk);
   // Above the diagonal a label prefers the up-left of its dot, below it the down-right (away
   // from the other dots); it tries the other corners when it would overlap a placed label or
@@ -923,7 +927,7 @@ void draw_scatter_plot(Canvas& c, const ScatterPlot& plot, double width, double 
     double x0, y0, x1, y1;
   };
   std::vector<Box> placed;
-  const double text_height = 0.73 * 11.5;
+  const double text_height = 0.73 * kNoteSize;
   for (const ScatterPoint* p : order) {
     const bool above = p->y > p->x;
     const double px = x.map(p->x), py = y.map(p->y), w = c.text_width(p->label);

@@ -233,6 +233,9 @@ std::string percent(double v) {
 
 // --- figures -----------------------------------------------------------------------------------
 
+constexpr int kPageFigureWidth = 930;  // content width of a card on a wide screen
+constexpr int kMaxIsolatedDrawn = 12;  // more variables without an edge are listed, not drawn
+
 struct Figure {
   std::string id, heading;
   std::string png;                                         // shown
@@ -386,14 +389,33 @@ Figure heat_map_figure(const ReportData& d, const std::string& dir) {
 }
 
 Figure consensus_figure(const ReportData& d, const std::string& dir, const ConsensusGraph& g) {
-  const std::string dot = consensus_dot(g);
+  // Top to bottom reads most naturally; a graph too wide for the page is laid out left to
+  // right instead when that makes it narrower (wide, shallow DAGs), so the page scrolls down
+  // rather than sideways.
+  ConsensusDotOptions options;
+  options.max_isolated_drawn = kMaxIsolatedDrawn;
+  const double dpi = 192;
+  const double shrink = 96.0 / dpi;  // shown at 96 px per inch, the size graphviz intends
+  const std::string png = dir + "/consensus.png", sideways_png = dir + "/consensus-lr.png";
+  std::string dot = consensus_dot(g, options);
+  render_dot(dot, png, dpi);
+  auto [w, h] = png_dimensions(png);
+  if (w * shrink > kPageFigureWidth) {
+    options.left_to_right = true;
+    const std::string sideways = consensus_dot(g, options);
+    render_dot(sideways, sideways_png, dpi);
+    const auto [w_lr, h_lr] = png_dimensions(sideways_png);
+    if (w_lr < w) {
+      dot = sideways;
+      w = w_lr;
+      h = h_lr;
+      std::filesystem::rename(sideways_png, png);
+    } else {
+      std::filesystem::remove(sideways_png);
+    }
+  }
   write_text_file_atomically(dir + "/consensus.dot", dot);
   render_dot(dot, dir + "/consensus.svg");
-  const double dpi = 192;
-  render_dot(dot, dir + "/consensus.png", dpi);
-  const auto [w, h] = png_dimensions(dir + "/consensus.png");
-  // Shown at 96 px per inch, the size graphviz intends, so text matches the page.
-  const double shrink = 96.0 / dpi;
   Figure f{
       "consensus",
       "Consensus graph",
@@ -409,6 +431,13 @@ Figure consensus_figure(const ReportData& d, const std::string& dir, const Conse
                    "edge marginals one at a time and need not be the most probable DAG. Dashed "
                    "boxes are variables without a consensus edge.";
   if (g.edges.empty()) f.caption_html += " <b>No edge passes the threshold.</b>";
+  const std::vector<int> isolated = isolated_variables(g);
+  if (static_cast<int>(isolated.size()) > kMaxIsolatedDrawn) {
+    f.caption_html += " Not drawn, as they have no consensus edge: ";
+    for (std::size_t i = 0; i < isolated.size(); ++i)
+      f.caption_html += (i ? ", " : "") + html_escape(d.variables[isolated[i]]);
+    f.caption_html += ".";
+  }
   if (g.has_cycle)
     f.caption_html +=
         " <b class=\"warn\">The consensus has a directed cycle</b> (edges in vermillion): "
@@ -530,6 +559,8 @@ td.fail { color: var(--vermillion); font-weight: 700; }
 .note { color: var(--muted); font-size: 14.5px; margin: 10px 0 0; }
 figure { margin: 0; }
 figure img { display: block; max-width: 100%; height: auto; margin: 0 auto; border-radius: 6px; }
+.scroll { overflow-x: auto; }
+.scroll.wide img { max-width: none; margin: 0; }
 figcaption { color: var(--muted); font-size: 15px; margin-top: 12px; }
 figcaption b { color: var(--ink); }
 figcaption .files { display: block; margin-top: 6px; font-size: 13.5px; }
@@ -694,16 +725,20 @@ std::string worst_features_html(const ReportData& d, const ConvergenceVerdict& v
          "probability of the feature (for the log score, its posterior mean); MCSE is its Monte "
          "Carlo standard error.";
   if (order.size() > shown)
-    out += " Showing " + std::to_string(shown) + " of " +
+    out += " Showing the " + std::to_string(shown) + " worst of " +
            grouped(static_cast<std::int64_t>(order.size())) + ".";
   return out + "</p>\n</section>\n";
 }
 
 std::string figure_html(const Figure& f) {
   std::string out = "<section class=\"card\" id=\"" + f.id + "\">\n<h2>" + html_escape(f.heading) +
-                    "</h2>\n<figure>\n<a href=\"" + f.links.front().second + "\"><img src=\"" +
-                    f.png + "\" width=\"" + std::to_string(f.width) + "\" height=\"" +
-                    std::to_string(f.height) + "\" alt=\"" + html_escape(f.alt) + "\"></a>\n";
+                    "</h2>\n<figure>\n";
+  // A figure wider than the page (a large consensus graph) scrolls rather than shrinking its
+  // text out of legibility.
+  out += f.width > kPageFigureWidth ? "<div class=\"scroll wide\">" : "<div class=\"scroll\">";
+  out += "<a href=\"" + f.links.front().second + "\"><img src=\"" + f.png + "\" width=\"" +
+         std::to_string(f.width) + "\" height=\"" + std::to_string(f.height) + "\" alt=\"" +
+         html_escape(f.alt) + "\"></a></div>\n";
   out += "<figcaption>" + f.caption_html + "<span class=\"files\">Files: ";
   for (std::size_t i = 0; i < f.links.size(); ++i)
     out += (i ? " · " : "") + std::string("<a href=\"") + f.links[i].second + "\">" +

@@ -101,6 +101,15 @@ TEST(ConsensusGraph, DotTextCarriesProbabilitiesWidthsAndIsolatedNodes) {
   EXPECT_NE(dot.find("penwidth=3.96"), std::string::npos) << dot;  // 1 + 4 (0.87 - 0.5) / 0.5
   EXPECT_NE(dot.find("\"z\" [style=\"rounded,dashed\""), std::string::npos);  // no edge: muted
   EXPECT_EQ(dot.find("cycle"), std::string::npos);
+  EXPECT_NE(dot.find("rankdir=TB"), std::string::npos);
+  // Too many variables without an edge: they are left out of the drawing (and listed by the
+  // caller, from isolated_variables).
+  const auto g = consensus_graph({"x", "y", "z"}, p);
+  EXPECT_EQ(isolated_variables(g), std::vector<int>{2});
+  const std::string without = consensus_dot(g, {.max_isolated_drawn = 0, .left_to_right = true});
+  EXPECT_EQ(without.find("\"z\""), std::string::npos);
+  EXPECT_NE(without.find("\"x\" -> \"y\""), std::string::npos);
+  EXPECT_NE(without.find("rankdir=LR"), std::string::npos);
 }
 
 TEST(ConsensusGraph, GraphvizOwnProgramParsesTheDotText) {

@@ -45,7 +45,7 @@ inline ReportData synthetic_report_data(const SyntheticReportOptions& o = {}) {
   d.edge_probability.assign(n, std::vector<double>(n, 0.0));
   for (int u = 0; u < n; ++u)
     for (int v = u + 1; v < n; ++v) {
-      if (uniform() < 0.3) {
+      if (uniform() < std::min(0.3, 2.5 / n)) {  // about 1.25 edges per variable when large
         const double forward = 0.55 + 0.44 * uniform();
         d.edge_probability[u][v] = forward;
         d.edge_probability[v][u] = (1 - forward) * uniform();

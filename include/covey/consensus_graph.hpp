@@ -29,9 +29,19 @@ ConsensusGraph consensus_graph(const std::vector<std::string>& names,
                                const std::vector<std::vector<double>>& edge_probability,
                                double threshold = 0.5);
 
-// DOT text: every variable a node (isolated ones muted), edge width growing with probability,
-// each edge labelled with it, cycle edges in vermillion with a note under the graph.
-std::string consensus_dot(const ConsensusGraph& graph);
+// Variables without any consensus edge, in index order.
+std::vector<int> isolated_variables(const ConsensusGraph& graph);
+
+struct ConsensusDotOptions {
+  // Variables without an edge are drawn muted (dashed) while there are at most this many;
+  // more would only widen the layout, so they are then left out (list them elsewhere).
+  int max_isolated_drawn = 12;
+  bool left_to_right = false;  // ranks as columns instead of rows (for wide, shallow graphs)
+};
+
+// DOT text: a node per variable, edge width growing with probability, each edge labelled with
+// it, cycle edges in vermillion with a note under the graph.
+std::string consensus_dot(const ConsensusGraph& graph, const ConsensusDotOptions& options = {});
 
 // Lays out DOT text with graphviz ("dot" layout) and writes it as .svg or .png (by extension)
 // atomically. PNGs are drawn at `png_dpi` (192 = twice the usual screen density, for sharp
