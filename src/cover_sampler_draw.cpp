@@ -1,0 +1,225 @@
+// The in-unit draw of the exact cover-bounded sampler: a backward walk through one unit's
+// forward tables (positive weights only), then the parent sets behind each chosen transition.
+#include <bit>
+#include <stdexcept>
+
+#include "cover_sampler_impl.hpp"
+
+namespace covey::detail {
+namespace {
+
+using Real = long double;
+
+// Index i with probability w[i] / sum(w).
+std::size_t pick_index(const Real* w, std::size_t count, Rng& rng) {
+  Real total = 0;
+  for (std::size_t i = 0; i < count; ++i) total += w[i];
+  if (!(total > 0)) throw std::logic_error("cover sampler: a draw reached a state of weight 0");
+  Real r = static_cast<Real>(uniform01(rng)) * total;
+  std::size_t last_positive = 0;
+  for (std::size_t i = 0; i < count; ++i) {
+    if (w[i] <= 0) continue;
+    last_positive = i;
+    if (r < w[i]) return i;
+    r -= w[i];
+  }
+  return last_positive;  // rounding left r at the very end
+}
+
+struct Scratch {
+  std::vector<Real> weights, table;
+  std::vector<unsigned> codes;
+};
+constexpr std::size_t kMaxSubsets = std::size_t{1} << kMaxCoverBound;
+
+Scratch& scratch() {
+  thread_local Scratch s;
+  return s;
+}
+
+// Weight of giving the members at `positions` (each from `options(t)`: q -> weight, q within
+// `within`) parent sets whose union contains `need`, for every need within `within`:
+// table[idx * P + x] for the members idx.. and still-missing set x.
+template <class Weight>
+void cover_table(const int* positions, int count, unsigned within, unsigned P, Weight weight,
+                 std::vector<Real>& table) {
+  table.assign(std::size_t(count + 1) * P, Real(0));
+  table[std::size_t(count) * P] = 1;
+  for (int idx = count - 1; idx >= 0; --idx) {
+    const int t = positions[idx];
+    const unsigned pred = ((1U << t) - 1) & within;
+    const Real* next = &table[std::size_t(idx + 1) * P];
+    Real* cur = &table[std::size_t(idx) * P];
+    for (unsigned x = within;; x = (x - 1) & within) {
+      Real sum = 0;
+      for (unsigned q = pred;; q = (q - 1) & pred) {
+        const Real w = weight(t, q);
+        if (w != 0) sum += w * next[x & ~q];
+        if (q == 0) break;
+      }
+      cur[x] = sum;
+      if (x == 0) break;
+    }
+  }
+}
+
+// Samples the sets for `positions` given the table above and the missing set `need`.
+template <class Weight, class Apply>
+void sample_cover(const int* positions, int count, unsigned within, unsigned P, Weight weight,
+                  const std::vector<Real>& table, unsigned need, Rng& rng, Apply apply) {
+  std::vector<Real>& w = scratch().weights;
+  std::vector<unsigned>& codes = scratch().codes;
+  for (int idx = 0; idx < count; ++idx) {
+    const int t = positions[idx];
+    const unsigned pred = ((1U << t) - 1) & within;
+    const Real* next = &table[std::size_t(idx + 1) * P];
+    w.clear();
+    codes.clear();
+    for (unsigned q = pred;; q = (q - 1) & pred) {
+      const Real x = weight(t, q);
+      if (x != 0) w.push_back(x * next[need & ~q]), codes.push_back(q);
+      if (q == 0) break;
+    }
+    const unsigned q = codes[pick_index(w.data(), w.size(), rng)];
+    apply(t, q);
+    need &= ~q;
+  }
+}
+
+}  // namespace
+
+Dag SamplerData::draw_in_unit(std::size_t unit, Rng& rng) const {
+  const UnitGeometry& g = units[unit];
+  const int m = g.m;
+  const unsigned P = 1U << m, full = P - 1;
+  const std::size_t S = std::size_t{1} << (2 * m);
+  std::array<int, kMaxExactVariables> outside{};
+  int no = 0;
+  for (int v = 0; v < n; ++v)
+    if (!((g.cover >> v) & 1U)) outside[no++] = v;
+  const UnitLayout lay = UnitLayout::of(m, no);
+  const Real* base = arena.data() + g.offset;
+  const Real* F = base + lay.forward;
+  const Real* H = base + lay.link;
+  const Real* leaf = base + lay.leaf;
+  const Real* link_parent = base + lay.link_parent;
+  const Real* inner = base + lay.inner;
+  const Real* R = base + lay.final;
+  Dag dag(n);
+  Scratch& sc = scratch();
+
+  // The end state (T, N), weighted by the sets of the members without a link.
+  sc.weights.resize(S);
+  for (std::size_t s = 0; s < S; ++s) sc.weights[s] = F[no * S + s] * R[s];
+  const std::size_t end = pick_index(sc.weights.data(), S, rng);
+  unsigned T = end & full, N = static_cast<unsigned>(end >> m);
+  {
+    int positions[kMaxCoverBound];
+    int count = 0;
+    for (int t = 0; t < m; ++t)
+      if (!((T >> t) & 1U)) positions[count++] = t;
+    auto weight = [&](int t, unsigned q) { return inner[(t << m) | q]; };
+    cover_table(positions, count, full, P, weight, sc.table);
+    sample_cover(positions, count, full, P, weight, sc.table, full & ~N, rng,
+                 [&](int t, unsigned q) { dag.parents[g.vertex[t]] = g.global(q); });
+  }
+
+  Real sums[kMaxSubsets];
+  for (int i = no - 1; i >= 0; --i) {
+    const Real* prev = F + std::size_t(i) * S;
+    const Real* lw = leaf + (std::size_t(i) << m);
+    const int u = outside[i];
+    // Sum of prev over the states N with N_out \ z within N within N_out.
+    auto prev_sum = [&](unsigned t_prev, unsigned z) {
+      Real sum = 0;
+      const unsigned fixed = N & ~z;
+      for (unsigned x = z;; x = (x - 1) & z) {
+        sum += prev[t_prev | ((fixed | x) << m)];
+        if (x == 0) break;
+      }
+      return sum;
+    };
+    auto transition = [&](unsigned a, unsigned z) {
+      return a == 0 ? lw[z] : H[((std::size_t(i) * P + a) << m) | z];
+    };
+    // Which kind of vertex u is: a leaf (a = 0) or a link to the members a.
+    for (unsigned a = T;; a = (a - 1) & T) {
+      Real sum = 0;
+      for (unsigned z = N;; z = (z - 1) & N) {
+        const Real w = transition(a, z);
+        if (w != 0) sum += w * prev_sum(T & ~a, z);
+        if (z == 0) break;
+      }
+      sums[a] = sum;
+      if (a == 0) break;
+    }
+    sc.weights.clear();
+    sc.codes.clear();
+    for (unsigned a = T;; a = (a - 1) & T) {
+      sc.weights.push_back(sums[a]);
+      sc.codes.push_back(a);
+      if (a == 0) break;
+    }
+    const unsigned a = sc.codes[pick_index(sc.weights.data(), sc.weights.size(), rng)];
+    // Then the covered set z it adds and the previous covered set.
+    sc.weights.clear();
+    sc.codes.clear();
+    const unsigned t_prev = T & ~a;
+    for (unsigned z = N;; z = (z - 1) & N) {
+      const Real w = transition(a, z);
+      if (w != 0)
+        for (unsigned x = z;; x = (x - 1) & z) {
+          sc.weights.push_back(w * prev[t_prev | (((N & ~z) | x) << m)]);
+          sc.codes.push_back(z | (x << m));
+          if (x == 0) break;
+        }
+      if (z == 0) break;
+    }
+    const unsigned code = sc.codes[pick_index(sc.weights.data(), sc.weights.size(), rng)];
+    const unsigned z = code & full, kept = code >> m;
+    const unsigned n_prev = (N & ~z) | kept;
+
+    if (a == 0) {
+      dag.parents[u] = g.global(z);
+    } else {
+      // The link's own parents pp (before the first member of a) and its children's sets,
+      // together exactly z.
+      int positions[kMaxCoverBound];
+      int count = 0;
+      for (unsigned r = a; r; r &= r - 1) positions[count++] = std::countr_zero(r);
+      const unsigned pred_first = ((1U << positions[0]) - 1) & z;
+      Real pw[kMaxSubsets];
+      unsigned pcodes[kMaxSubsets];
+      std::size_t options = 0;
+      std::vector<Real>& table = sc.table;
+      auto weight_for = [&](unsigned pp) {
+        return [&, pp](int t, unsigned q) -> Real {
+          if (g.need[t] && !((q | pp) & g.need[t])) return 0;
+          return link_parent[((std::size_t(i) * m + t) << m) | q];
+        };
+      };
+      for (unsigned pp = pred_first;; pp = (pp - 1) & pred_first) {
+        if (lw[pp] != 0) {
+          cover_table(positions, count, z, P, weight_for(pp), table);
+          const Real x = lw[pp] * table[z & ~pp];
+          if (x != 0) pw[options] = x, pcodes[options++] = pp;
+        }
+        if (pp == 0) break;
+      }
+      const unsigned pp = pcodes[pick_index(pw, options, rng)];
+      dag.parents[u] = g.global(pp);
+      cover_table(positions, count, z, P, weight_for(pp), table);
+      sample_cover(positions, count, z, P, weight_for(pp), table, z & ~pp, rng,
+                   [&](int t, unsigned q) {
+                     dag.parents[g.vertex[t]] = g.global(q) | (std::uint64_t{1} << u);
+                   });
+    }
+    T = t_prev;
+    N = n_prev;
+  }
+  if (T != 0 || N != 0)
+    throw std::logic_error("cover sampler: backward walk did not end at the start");
+  return dag;
+}
+
+}  // namespace covey::detail
