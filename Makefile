@@ -5,12 +5,12 @@
 DEBIAN_PACKAGES := cmake g++ make pkg-config libeigen3-dev libboost-random-dev libtbb-dev \
   libhdf5-dev hdf5-tools libcli11-dev nlohmann-json3-dev libgtest-dev libbenchmark-dev \
   python3 python3-numpy python3-scipy python3-h5py r-base-core r-cran-posterior \
-  libcairo2-dev graphviz libgraphviz-dev
+  libcairo2-dev graphviz libgraphviz-dev clang
 JOBS ?= $(shell nproc 2>/dev/null || echo 2)
 SUDO := $(shell [ "$$(id -u)" -eq 0 ] || echo sudo)
 CMAKE_FLAGS ?=
 
-.PHONY: deps build build-asan test unit-test asan-test demo bench format clean
+.PHONY: deps build build-asan test unit-test asan-test demo bench format cli-docs clean
 
 deps:
 	@missing=$$(for p in $(DEBIAN_PACKAGES); do \
@@ -26,8 +26,9 @@ build: deps
 	cmake -S . -B build -DCMAKE_BUILD_TYPE=Release $(CMAKE_FLAGS) >/dev/null
 	cmake --build build -j $(JOBS)
 
+# The sanitizer build uses clang, whose libFuzzer the fuzz targets also need.
 build-asan: deps
-	cmake -S . -B build-asan -DCMAKE_BUILD_TYPE=RelWithDebInfo -DCOVEY_SANITIZE=ON $(CMAKE_FLAGS) >/dev/null
+	CC=clang CXX=clang++ cmake -S . -B build-asan -DCMAKE_BUILD_TYPE=RelWithDebInfo -DCOVEY_SANITIZE=ON $(CMAKE_FLAGS) >/dev/null
 	cmake --build build-asan -j $(JOBS) --target covey covey_tests
 
 unit-test: build
@@ -44,6 +45,9 @@ demo: build
 
 bench: build
 	build/bench/covey_bench --benchmark_counters_tabular=true
+
+cli-docs: build
+	docs/generate_cli_reference.sh build/covey > docs/cli.md
 
 format:
 	clang-format -i $$(git ls-files '*.cpp' '*.hpp')

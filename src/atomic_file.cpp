@@ -35,13 +35,16 @@ void fsync_path(const std::string& path) {
 
 }  // namespace
 
-AtomicOutput::AtomicOutput(std::string target) : target_(std::move(target)) {
-  if (target_.empty()) throw InputError("output path is empty");
-  const std::filesystem::path dir = std::filesystem::path(target_).parent_path();
+void require_output_path(const std::string& path) {
+  if (path.empty()) throw InputError("output path is empty");
+  const std::filesystem::path dir = std::filesystem::path(path).parent_path();
   if (!dir.empty() && !std::filesystem::is_directory(dir))
-    throw InputError(target_ + ": output directory '" + dir.string() + "' does not exist");
-  if (std::filesystem::is_directory(target_))
-    throw InputError(target_ + ": output path is a directory");
+    throw InputError(path + ": output directory '" + dir.string() + "' does not exist");
+  if (std::filesystem::is_directory(path)) throw InputError(path + ": output path is a directory");
+}
+
+AtomicOutput::AtomicOutput(std::string target) : target_(std::move(target)) {
+  require_output_path(target_);
   temp_ = temp_name_for(target_);
 }
 

@@ -52,7 +52,8 @@ void write_metadata(H5::H5File& file, const ScoreMetadata& m) {
   h5::set_attr(file, "num_rows", m.num_rows);
   h5::set_attr(file, "source", m.source);
   h5::set_attr(file, "command_line", m.command_line);
-  h5::set_attr(file, "covey_version", m.covey_version.empty() ? std::string(kVersion) : m.covey_version);
+  h5::set_attr(file, "covey_version",
+               m.covey_version.empty() ? std::string(kVersion) : m.covey_version);
 }
 
 ScoreMetadata read_metadata(const H5::H5File& file, const std::string& path) {
@@ -156,12 +157,14 @@ ScoreTable read_scores_hdf5(const std::string& path) {
       const auto scores = h5::read_doubles(nodes, "log_scores");
       check_offsets(cand_offsets, n, candidates.size(), "candidate", path);
       check_offsets(set_offsets, n, masks.size(), "parent-set", path);
-      if (scores.size() != masks.size()) throw InputError(path + ": scores do not match parent sets");
+      if (scores.size() != masks.size())
+        throw InputError(path + ": scores do not match parent sets");
       std::vector<NodeScores> node_scores(n);
       for (std::size_t v = 0; v < n; ++v) {
         node_scores[v].candidates.assign(candidates.begin() + cand_offsets[v],
                                          candidates.begin() + cand_offsets[v + 1]);
-        node_scores[v].masks.assign(masks.begin() + set_offsets[v], masks.begin() + set_offsets[v + 1]);
+        node_scores[v].masks.assign(masks.begin() + set_offsets[v],
+                                    masks.begin() + set_offsets[v + 1]);
         node_scores[v].log_scores.assign(scores.begin() + set_offsets[v],
                                          scores.begin() + set_offsets[v + 1]);
       }
@@ -191,7 +194,8 @@ ScoreTable read_scores_tsv(const std::string& path) {
     }
     return false;
   };
-  if (!next_content_line(line)) throw InputError(path + ": empty file (expected a 'variables' line)");
+  if (!next_content_line(line))
+    throw InputError(path + ": empty file (expected a 'variables' line)");
   auto header = split(line, '\t');
   if (header[0] != "variables") throw fail("first line must start with 'variables'");
   std::vector<Variable> variables;
@@ -206,8 +210,10 @@ ScoreTable read_scores_tsv(const std::string& path) {
   }
   if (variables.empty()) throw fail("no variables listed");
   const int n = static_cast<int>(variables.size());
-  if (!next_content_line(line)) throw InputError(path + ": missing the 'node\\tparents\\tlog_score' line");
-  if (line != "node\tparents\tlog_score") throw fail("second line must be 'node<TAB>parents<TAB>log_score'");
+  if (!next_content_line(line))
+    throw InputError(path + ": missing the 'node\\tparents\\tlog_score' line");
+  if (line != "node\tparents\tlog_score")
+    throw fail("second line must be 'node<TAB>parents<TAB>log_score'");
 
   // Rows are collected with global parent lists first; candidates are the parents seen per node.
   struct Row {
@@ -219,7 +225,8 @@ ScoreTable read_scores_tsv(const std::string& path) {
   std::vector<std::map<std::vector<int>, long>> seen(n);
   while (next_content_line(line)) {
     auto fields = split(line, '\t');
-    if (fields.size() != 3) throw fail("expected 3 tab-separated fields, found " + std::to_string(fields.size()));
+    if (fields.size() != 3)
+      throw fail("expected 3 tab-separated fields, found " + std::to_string(fields.size()));
     auto it = index.find(fields[0]);
     if (it == index.end()) throw fail("unknown variable '" + fields[0] + "'");
     const int v = it->second;
@@ -253,7 +260,8 @@ ScoreTable read_scores_tsv(const std::string& path) {
     std::sort(cand.begin(), cand.end());
     cand.erase(std::unique(cand.begin(), cand.end()), cand.end());
     if (cand.size() > std::size_t(kMaxCandidates))
-      throw InputError(path + ": node '" + variables[v].name + "' has more than 64 distinct parents");
+      throw InputError(path + ": node '" + variables[v].name +
+                       "' has more than 64 distinct parents");
     std::vector<int> pos(n, -1);
     for (std::size_t i = 0; i < cand.size(); ++i) pos[cand[i]] = static_cast<int>(i);
     for (const Row& r : rows[v]) {
@@ -276,7 +284,8 @@ void write_scores_tsv(const ScoreTable& table, const std::string& path) {
   out << "variables";
   for (const Variable& v : table.variables()) {
     if (v.name.find_first_of("\t,\n\r") != std::string::npos)
-      throw InputError("variable name '" + v.name + "' cannot be written to TSV (tab, comma or newline)");
+      throw InputError("variable name '" + v.name +
+                       "' cannot be written to TSV (tab, comma or newline)");
     out << '\t' << v.name;
   }
   out << "\nnode\tparents\tlog_score\n";
@@ -297,13 +306,25 @@ void write_scores_tsv(const ScoreTable& table, const std::string& path) {
   write_text_file_atomically(path, out.str());
 }
 
-ScoreTable load_scores(const std::string& path) {
+namespace {
+bool is_tsv_path(const std::string& path) {
   const auto ends_with = [&](const char* suffix) {
     const std::string s(suffix);
     return path.size() >= s.size() && path.compare(path.size() - s.size(), s.size(), s) == 0;
   };
-  if (ends_with(".tsv") || ends_with(".txt")) return read_scores_tsv(path);
-  return read_scores_hdf5(path);
+  return ends_with(".tsv") || ends_with(".txt");
+}
+}  // namespace
+
+ScoreTable load_scores(const std::string& path) {
+  return is_tsv_path(path) ? read_scores_tsv(path) : read_scores_hdf5(path);
+}
+
+void save_scores(const ScoreTable& table, const std::string& path) {
+  if (is_tsv_path(path))
+    write_scores_tsv(table, path);
+  else
+    write_scores_hdf5(table, path);
 }
 
 }  // namespace covey

@@ -4,6 +4,10 @@
 #include <string>
 #include <vector>
 
+#include <nlohmann/json.hpp>
+
+#include "covey/dag.hpp"
+#include "covey/data.hpp"
 #include "covey/score_table.hpp"
 
 namespace covey::testing_util {
@@ -26,6 +30,17 @@ ScoreTable random_full_table(int n, int max_indegree, std::uint64_t seed);
 // A table holding every parent set with log score 0 (all DAG weights 1: counts DAGs).
 ScoreTable unit_table(int n, int max_indegree);
 
+// Data sampled from a random Bayesian network (node v has up to 2 parents among 0..v-1, random
+// conditional tables / linear Gaussian equations), so that the columns really depend on each other.
+DataTable random_discrete_data(int n, std::size_t rows, int levels, std::uint64_t seed);
+DataTable random_gaussian_data(int n, std::size_t rows, std::uint64_t seed);
+
+// A key equal for two DAGs exactly when they are Markov equivalent: the skeleton and the
+// v-structures (Verma & Pearl 1990).
+std::string markov_equivalence_key(const Dag& dag);
+// A random DAG on n nodes with at most max_indegree parents per node.
+Dag random_dag(int n, int max_indegree, std::uint64_t seed);
+
 struct CommandResult {
   int exit_code;
   std::string out;  // stdout
@@ -36,5 +51,13 @@ CommandResult run_covey(const std::string& args);
 // Runs any shell command.
 CommandResult run_shell(const std::string& command);
 std::string read_file(const std::string& path);
+void write_file(const std::string& path, const std::string& text);
+
+// Runs tests/reference/<script> with COVEY_REFERENCE_PYTHON (Debian's python3 with SciPy/h5py)
+// and the given arguments; parses its stdout as JSON. Fails the test (throws) on a non-zero exit.
+nlohmann::json run_reference_python(const std::string& script, const std::string& args);
+// Writes a data set of R's `datasets` package as CSV with COVEY_RSCRIPT: `expression` is R code
+// whose value is a data frame (e.g. "swiss"); written with write.csv(row.names = FALSE).
+void write_r_dataset_csv(const std::string& expression, const std::string& path);
 
 }  // namespace covey::testing_util

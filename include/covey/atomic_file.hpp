@@ -26,6 +26,10 @@ class AtomicOutput {
 // Writes `text` to `path` atomically.
 void write_text_file_atomically(const std::string& path, const std::string& text);
 
+// Throws InputError unless an AtomicOutput could be made for `path` (its folder exists and it is
+// not a folder): lets long commands fail before the work rather than after it.
+void require_output_path(const std::string& path);
+
 // Throws InputError when the file cannot be opened for reading (names the path).
 void require_readable(const std::string& path);
 

@@ -17,5 +17,7 @@ void write_scores_tsv(const ScoreTable& table, const std::string& path);  // ato
 
 // Any score table a command accepts: `.tsv` (or `.txt`) as TSV, anything else as HDF5.
 ScoreTable load_scores(const std::string& path);
+// Writes by the same rule: `.tsv` (or `.txt`) as TSV, anything else as HDF5 (atomic).
+void save_scores(const ScoreTable& table, const std::string& path);
 
 }  // namespace covey
