@@ -1,10 +1,12 @@
 #include "covey/atomic_file.hpp"
 
 #include <fcntl.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
 #include <cerrno>
 #include <cstdio>
+#include <cstdlib>
 #include <cstring>
 #include <filesystem>
 #include <fstream>
@@ -57,6 +59,60 @@ void AtomicOutput::commit() {
   if (std::rename(temp_.c_str(), target_.c_str()) != 0)
     throw Error(target_ + ": cannot write output: " + std::strerror(errno));
   committed_ = true;
+}
+
+AtomicDirectory::AtomicDirectory(std::string target) : target_(std::move(target)) {
+  while (target_.size() > 1 && target_.back() == '/') target_.pop_back();
+  if (target_.empty()) throw InputError("output folder path is empty");
+  const std::filesystem::path path(target_);
+  const std::filesystem::path dir = path.parent_path();
+  if (!dir.empty() && !std::filesystem::is_directory(dir))
+    throw InputError(target_ + ": parent folder '" + dir.string() + "' does not exist");
+  if (std::filesystem::exists(path) && !std::filesystem::is_directory(path))
+    throw InputError(target_ + ": exists and is not a folder");
+  std::string templ = (dir / ("." + path.filename().string() + ".tmp-XXXXXX")).string();
+  if (!::mkdtemp(templ.data()))
+    throw Error(target_ + ": cannot create a temporary folder beside it: " + std::strerror(errno));
+  temp_ = templ;
+  // mkdtemp makes the folder private (0700); give it the permissions of a plain mkdir.
+  const mode_t mask = ::umask(0);
+  ::umask(mask);
+  ::chmod(temp_.c_str(), 0777 & ~mask);
+}
+
+AtomicDirectory::~AtomicDirectory() {
+  std::error_code ec;
+  if (!committed_) std::filesystem::remove_all(temp_, ec);
+}
+
+void AtomicDirectory::commit() {
+  const std::string parent = std::filesystem::path(target_).parent_path().string();
+  if (!std::filesystem::exists(target_)) {
+    if (std::rename(temp_.c_str(), target_.c_str()) != 0)
+      throw Error(target_ + ": cannot write output folder: " + std::strerror(errno));
+  } else if (::renameat2(AT_FDCWD, temp_.c_str(), AT_FDCWD, target_.c_str(), RENAME_EXCHANGE) ==
+             0) {
+    // The old folder now sits at the temporary name.
+    committed_ = true;
+    std::error_code ec;
+    std::filesystem::remove_all(temp_, ec);
+  } else if (errno == EINVAL || errno == ENOSYS || errno == ENOTSUP) {
+    // No atomic exchange on this file system: move the old folder aside, then swap in the new.
+    const std::string aside = temp_ + ".old";
+    if (std::rename(target_.c_str(), aside.c_str()) != 0)
+      throw Error(target_ + ": cannot replace output folder: " + std::strerror(errno));
+    if (std::rename(temp_.c_str(), target_.c_str()) != 0) {
+      const int err = errno;
+      std::rename(aside.c_str(), target_.c_str());
+      throw Error(target_ + ": cannot replace output folder: " + std::strerror(err));
+    }
+    std::error_code ec;
+    std::filesystem::remove_all(aside, ec);
+  } else {
+    throw Error(target_ + ": cannot replace output folder: " + std::strerror(errno));
+  }
+  committed_ = true;
+  fsync_path(parent.empty() ? "." : parent);
 }
 
 void write_text_file_atomically(const std::string& path, const std::string& text) {

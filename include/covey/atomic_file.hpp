@@ -23,6 +23,28 @@ class AtomicOutput {
   bool committed_ = false;
 };
 
+// A folder written whole or not at all: files go into temp_path(), a fresh folder beside the
+// target; commit() puts it in the target's place, replacing an existing folder there (by an
+// atomic exchange where the file system allows it). Without commit() the temporary folder is
+// removed and the target is left untouched. Whether an existing folder may be replaced is the
+// caller's decision (check before committing).
+class AtomicDirectory {
+ public:
+  explicit AtomicDirectory(std::string target);
+  ~AtomicDirectory();
+  AtomicDirectory(const AtomicDirectory&) = delete;
+  AtomicDirectory& operator=(const AtomicDirectory&) = delete;
+
+  const std::string& temp_path() const { return temp_; }
+  const std::string& target_path() const { return target_; }
+  void commit();  // throws Error on failure (the target is then unchanged)
+
+ private:
+  std::string target_;
+  std::string temp_;
+  bool committed_ = false;
+};
+
 // Writes `text` to `path` atomically.
 void write_text_file_atomically(const std::string& path, const std::string& text);
 

@@ -1,6 +1,7 @@
 #pragma once
 // Pieces every command shares: thread control, JSON printing, the reconstructed command line.
 #include <CLI/CLI.hpp>
+#include <exception>
 #include <memory>
 #include <nlohmann/json.hpp>
 #include <string>
@@ -19,5 +20,19 @@ std::unique_ptr<tbb::global_control> apply_threads(int threads);
 
 // Prints JSON to stdout, two-space indented, with a trailing newline.
 void print_json(const nlohmann::json& value);
+
+// Thrown by a command whose output is complete but whose outcome needs a distinct exit status
+// (e.g. `check --strict` when thresholds fail); main() prints "covey: <message>" on stderr and
+// exits with `code`.
+class CommandExit : public std::exception {
+ public:
+  CommandExit(int code, std::string message) : code_(code), message_(std::move(message)) {}
+  int code() const { return code_; }
+  const char* what() const noexcept override { return message_.c_str(); }
+
+ private:
+  int code_;
+  std::string message_;
+};
 
 }  // namespace covey::cli

@@ -30,6 +30,9 @@ int main(int argc, char** argv) {
   } catch (const CLI::ParseError& e) {
     std::cerr << "covey: error: " << e.what() << " (see --help)\n";
     return 2;
+  } catch (const covey::cli::CommandExit& e) {
+    std::cerr << "covey: " << e.what() << "\n";
+    return e.code();
   } catch (const std::bad_alloc&) {
     std::cerr << "covey: error: out of memory (reduce the problem size or see --help for the "
                  "options that shrink it)\n";

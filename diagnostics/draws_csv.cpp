@@ -1,0 +1,213 @@
+// Reading draws of named quantities from CSV (see draws_csv.hpp for the layout).
+#include "covey/draws_csv.hpp"
+
+#include <algorithm>
+#include <charconv>
+#include <cmath>
+#include <fstream>
+#include <map>
+#include <numeric>
+
+#include "covey/atomic_file.hpp"
+#include "covey/error.hpp"
+
+namespace covey {
+
+namespace {
+
+class CsvReader {
+ public:
+  explicit CsvReader(const std::string& path) : path_(path), in_(path) {
+    require_readable(path);
+    if (!in_) throw InputError(path + ": cannot open for reading");
+  }
+
+  // Reads the next non-blank line; false at the end of the file.
+  bool next(std::vector<std::string>& fields) {
+    std::string line;
+    while (std::getline(in_, line)) {
+      ++line_number_;
+      if (line_number_ == 1 && line.rfind("\xEF\xBB\xBF", 0) == 0) line.erase(0, 3);  // BOM
+      if (!line.empty() && line.back() == '\r') line.pop_back();
+      if (line.find_first_not_of(" \t") == std::string::npos) continue;
+      split(line, fields);
+      return true;
+    }
+    return false;
+  }
+
+  long line_number() const { return line_number_; }
+
+  [[noreturn]] void fail(const std::string& what) const {
+    throw InputError(path_ + ":" + std::to_string(line_number_) + ": " + what);
+  }
+
+ private:
+  static std::string trimmed(const std::string& s) {
+    const auto first = s.find_first_not_of(" \t");
+    if (first == std::string::npos) return "";
+    return s.substr(first, s.find_last_not_of(" \t") - first + 1);
+  }
+
+  // Comma-separated fields; a field may be double-quoted, with "" standing for a quote.
+  void split(const std::string& line, std::vector<std::string>& fields) const {
+    fields.clear();
+    std::size_t i = 0;
+    while (true) {
+      std::string field;
+      while (i < line.size() && (line[i] == ' ' || line[i] == '\t')) ++i;
+      if (i < line.size() && line[i] == '"') {
+        for (++i;; ++i) {
+          if (i >= line.size()) fail("unterminated quoted field");
+          if (line[i] == '"') {
+            if (i + 1 < line.size() && line[i + 1] == '"') {
+              field += '"';
+              ++i;
+            } else {
+              ++i;
+              break;
+            }
+          } else {
+            field += line[i];
+          }
+        }
+        while (i < line.size() && (line[i] == ' ' || line[i] == '\t')) ++i;
+        if (i < line.size() && line[i] != ',') fail("text after a closing quote");
+      } else {
+        const std::size_t end = std::min(line.find(',', i), line.size());
+        field = trimmed(line.substr(i, end - i));
+        i = end;
+      }
+      fields.push_back(std::move(field));
+      if (i >= line.size()) return;
+      ++i;  // the comma
+    }
+  }
+
+  std::string path_;
+  std::ifstream in_;
+  long line_number_ = 0;
+};
+
+std::string_view without_plus(const std::string& text) {
+  std::string_view v(text);
+  if (v.size() > 1 && v[0] == '+') v.remove_prefix(1);
+  return v;
+}
+
+double parse_value(const CsvReader& reader, const std::string& column, const std::string& text) {
+  const std::string_view v = without_plus(text);
+  double value = 0;
+  const auto [end, ec] = std::from_chars(v.data(), v.data() + v.size(), value);
+  if (ec != std::errc() || end != v.data() + v.size() || v.empty())
+    reader.fail("column '" + column + "': '" + text + "' is not a number");
+  if (!std::isfinite(value)) reader.fail("column '" + column + "': '" + text + "' is not finite");
+  return value;
+}
+
+long long parse_integer(const CsvReader& reader, const std::string& column,
+                        const std::string& text) {
+  const std::string_view v = without_plus(text);
+  long long value = 0;
+  const auto [end, ec] = std::from_chars(v.data(), v.data() + v.size(), value);
+  if (ec != std::errc() || end != v.data() + v.size() || v.empty())
+    reader.fail("column '" + column + "': '" + text + "' is not an integer");
+  return value;
+}
+
+struct Row {
+  long long chain;
+  long long iteration;
+  long line;
+  std::size_t offset;  // of the row's quantity values in the flat value store
+};
+
+struct Header {
+  std::size_t chain_column = 0;
+  std::size_t iteration_column = 0;
+  std::vector<std::size_t> quantity_columns;
+  std::vector<std::string> names;  // of all columns
+};
+
+Header read_header(CsvReader& reader, const std::string& path) {
+  Header h;
+  if (!reader.next(h.names))
+    throw InputError(path +
+                     ": empty file; expected a header line naming the columns chain, "
+                     "iteration and one column per quantity");
+  std::map<std::string, std::size_t> seen;
+  for (std::size_t c = 0; c < h.names.size(); ++c) {
+    if (h.names[c].empty()) reader.fail("column " + std::to_string(c + 1) + " has no name");
+    if (!seen.emplace(h.names[c], c).second)
+      reader.fail("column '" + h.names[c] + "' appears twice in the header");
+  }
+  for (const char* required : {"chain", "iteration"})
+    if (!seen.count(required))
+      reader.fail(std::string("no column '") + required +
+                  "' in the header (expected chain, iteration and one column per quantity)");
+  h.chain_column = seen["chain"];
+  h.iteration_column = seen["iteration"];
+  for (std::size_t c = 0; c < h.names.size(); ++c)
+    if (c != h.chain_column && c != h.iteration_column) h.quantity_columns.push_back(c);
+  if (h.quantity_columns.empty()) reader.fail("no quantity columns besides chain and iteration");
+  return h;
+}
+
+}  // namespace
+
+DrawsTable read_draws_csv(const std::string& path) {
+  CsvReader reader(path);
+  const Header header = read_header(reader, path);
+  const std::size_t q = header.quantity_columns.size();
+
+  std::vector<Row> rows;
+  std::vector<double> store;  // row-major quantity values
+  std::vector<std::string> fields;
+  while (reader.next(fields)) {
+    if (fields.size() != header.names.size())
+      reader.fail(std::to_string(fields.size()) + " fields, but the header has " +
+                  std::to_string(header.names.size()));
+    Row row{parse_integer(reader, "chain", fields[header.chain_column]),
+            parse_integer(reader, "iteration", fields[header.iteration_column]),
+            reader.line_number(), store.size()};
+    for (std::size_t c : header.quantity_columns)
+      store.push_back(parse_value(reader, header.names[c], fields[c]));
+    rows.push_back(row);
+  }
+  if (rows.empty()) throw InputError(path + ": no draws after the header");
+
+  std::sort(rows.begin(), rows.end(), [](const Row& a, const Row& b) {
+    return a.chain != b.chain ? a.chain < b.chain : a.iteration < b.iteration;
+  });
+  DrawsTable table;
+  for (std::size_t i = 0; i < rows.size(); ++i) {
+    if (i > 0 && rows[i].chain == rows[i - 1].chain && rows[i].iteration == rows[i - 1].iteration)
+      throw InputError(path + ":" + std::to_string(std::max(rows[i].line, rows[i - 1].line)) +
+                       ": chain " + std::to_string(rows[i].chain) + " iteration " +
+                       std::to_string(rows[i].iteration) + " appears twice (also on line " +
+                       std::to_string(std::min(rows[i].line, rows[i - 1].line)) + ")");
+    if (i == 0 || rows[i].chain != rows[i - 1].chain) table.chain_labels.push_back(rows[i].chain);
+  }
+  table.chains = static_cast<int>(table.chain_labels.size());
+  std::vector<std::size_t> lengths(table.chains, 0);
+  for (std::size_t i = 0, c = 0; i < rows.size(); ++i) {
+    if (rows[i].chain != table.chain_labels[c]) ++c;
+    ++lengths[c];
+  }
+  for (int c = 1; c < table.chains; ++c)
+    if (lengths[c] != lengths[0])
+      throw InputError(path + ": chain " + std::to_string(table.chain_labels[c]) + " has " +
+                       std::to_string(lengths[c]) + " draws but chain " +
+                       std::to_string(table.chain_labels[0]) + " has " +
+                       std::to_string(lengths[0]) + "; all chains need the same number");
+  table.iterations = static_cast<int>(lengths[0]);
+  check_draws_shape(table.chains, table.iterations, path);
+
+  for (std::size_t c : header.quantity_columns) table.names.push_back(header.names[c]);
+  table.columns.assign(q, std::vector<double>(rows.size()));
+  for (std::size_t i = 0; i < rows.size(); ++i)  // rows are in chain-major order now
+    for (std::size_t k = 0; k < q; ++k) table.columns[k][i] = store[rows[i].offset + k];
+  return table;
+}
+
+}  // namespace covey

@@ -1,0 +1,347 @@
+// The report: the convergence verdict against the thresholds of Vehtari et al. (2021), the
+// report folder (every reference resolves, parsed by Python's html.parser; written atomically;
+// the caution present), and a real browser (headless Chromium) loading every image and
+// rendering a page that is not blank.
+#include "covey/report.hpp"
+
+#include <gtest/gtest.h>
+
+#include <filesystem>
+#include <fstream>
+#include <regex>
+#include <set>
+
+#include "covey/atomic_file.hpp"
+#include "covey/error.hpp"
+#include "image_check.hpp"
+#include "report_fixture.hpp"
+#include "test_util.hpp"
+
+namespace covey {
+namespace {
+
+namespace fs = std::filesystem;
+using testing_util::read_file;
+using testing_util::run_shell;
+using testing_util::synthetic_report_data;
+using testing_util::SyntheticReportOptions;
+using testing_util::TempDir;
+
+FeatureSummary feature(double rhat, double bulk, double tail) {
+  FeatureSummary f;
+  f.kind = FeatureKind::kEdge;
+  f.from = 0;
+  f.to = 1;
+  f.probability = 0.5;
+  f.rhat = rhat;
+  f.ess_bulk = bulk;
+  f.ess_tail = tail;
+  return f;
+}
+
+ReportData two_variables(std::vector<FeatureSummary> features) {
+  ReportData d;
+  d.variables = {"a", "b"};
+  d.features = std::move(features);
+  return d;
+}
+
+TEST(Verdict, ThresholdsAreStrictAsRecommended) {
+  // Vehtari, Gelman, Simpson, Carpenter & Buerkner (2021): R-hat < 1.01 and ESS > 400.
+  using State = ConvergenceVerdict::State;
+  EXPECT_EQ(assess_convergence(two_variables({feature(1.009, 401, 401)})).state, State::kConverged);
+  EXPECT_EQ(assess_convergence(two_variables({feature(1.01, 401, 401)})).state,
+            State::kNotConverged);
+  EXPECT_EQ(assess_convergence(two_variables({feature(1.0, 400, 401)})).state,
+            State::kNotConverged);
+  EXPECT_EQ(assess_convergence(two_variables({feature(1.0, 401, 400)})).state,
+            State::kNotConverged);
+  EXPECT_EQ(assess_convergence(two_variables({feature(INFINITY, 900, 900)})).state,
+            State::kNotConverged);
+}
+
+TEST(Verdict, UndefinedDiagnosticsAreCountedNotPassedOrFailed) {
+  using State = ConvergenceVerdict::State;
+  const auto nan = kUndefined;
+  auto v = assess_convergence(two_variables({feature(nan, nan, nan), feature(1.001, 900, 800)}));
+  EXPECT_EQ(v.state, State::kConverged);
+  EXPECT_EQ(v.undefined, 1u);
+  EXPECT_EQ(v.failing, 0u);
+  EXPECT_DOUBLE_EQ(v.max_rhat, 1.001);
+  EXPECT_DOUBLE_EQ(v.min_ess_bulk, 900);
+  EXPECT_DOUBLE_EQ(v.min_ess_tail, 800);
+  EXPECT_EQ(assess_convergence(two_variables({feature(nan, nan, nan)})).state,
+            State::kUndetermined);
+  EXPECT_EQ(assess_convergence(two_variables({})).state, State::kUndetermined);
+  v = assess_convergence(
+      two_variables({feature(1.2, 50, 60), feature(1.001, 900, 800), feature(1.0, 300, 800)}));
+  EXPECT_EQ(v.failing, 2u);
+  EXPECT_DOUBLE_EQ(v.max_rhat, 1.2);
+  EXPECT_DOUBLE_EQ(v.min_ess_bulk, 50);
+}
+
+TEST(Report, FeatureLabelsNameTheRelation) {
+  const std::vector<std::string> names = {"smoker", "cancer"};
+  FeatureSummary f;
+  f.from = 0;
+  f.to = 1;
+  f.kind = FeatureKind::kEdge;
+  EXPECT_EQ(feature_label(f, names), "smoker \u2192 cancer");
+  f.kind = FeatureKind::kAdjacency;
+  EXPECT_EQ(feature_label(f, names), "smoker \u2014 cancer");
+  f.kind = FeatureKind::kAncestor;
+  EXPECT_EQ(feature_label(f, names), "smoker \u21dd cancer");
+  f.kind = FeatureKind::kScore;
+  EXPECT_EQ(feature_label(f, names), "log score");
+}
+
+// Every src/href of the page, one "tag attribute value" per line, via Python's html.parser.
+std::vector<std::string> references(const std::string& html_path) {
+  const std::string script =
+      "import sys, html.parser\n"
+      "class P(html.parser.HTMLParser):\n"
+      "    def handle_starttag(self, tag, attrs):\n"
+      "        for k, v in attrs:\n"
+      "            if k in ('src', 'href'): print(tag, k, v)\n"
+      "P().feed(open(sys.argv[1], encoding='utf-8').read())\n";
+  const auto r =
+      run_shell(std::string(COVEY_REFERENCE_PYTHON) + " -c \"" + script + "\" '" + html_path + "'");
+  EXPECT_EQ(r.exit_code, 0) << r.err;
+  std::vector<std::string> lines;
+  std::istringstream in(r.out);
+  for (std::string line; std::getline(in, line);) lines.push_back(line);
+  return lines;
+}
+
+TEST(Report, EveryReferenceIsAFileInTheFolderAndEveryImageIsAPicture) {
+  TempDir tmp;
+  const std::string dir = tmp.file("report");
+  write_report(synthetic_report_data(), dir);
+  const auto refs = references(dir + "/index.html");
+  std::set<std::string> images, links;
+  for (const auto& line : refs) {
+    std::istringstream fields(line);
+    std::string tag, attribute, value;
+    fields >> tag >> attribute >> value;
+    if (value.starts_with("#")) continue;  // in-page anchors
+    EXPECT_EQ(value.find(':'), std::string::npos) << "not a plain relative file: " << line;
+    EXPECT_EQ(value.find('/'), std::string::npos) << "outside the folder: " << line;
+    EXPECT_TRUE(fs::is_regular_file(dir + "/" + value)) << "missing: " << line;
+    (tag == "img" ? images : links).insert(value);
+  }
+  const std::set<std::string> expected_images = {"trace.png", "rhat.png",      "ess.png",
+                                                 "edges.png", "consensus.png", "comparison.png"};
+  EXPECT_EQ(images, expected_images);
+  for (const char* svg : {"trace.svg", "rhat.svg", "ess.svg", "edges.svg", "consensus.svg",
+                          "comparison.svg", "consensus.dot"})
+    EXPECT_TRUE(links.count(svg)) << svg;
+  for (const auto& image : images) {
+    const auto st = testing_util::png_stats(dir + "/" + image);
+    EXPECT_GT(st.luminance_variance, 50.0) << image;
+  }
+  // Nothing in the folder that the page does not point to, except the page itself.
+  for (const auto& entry : fs::directory_iterator(dir)) {
+    const std::string name = entry.path().filename().string();
+    EXPECT_TRUE(name == "index.html" || images.count(name) || links.count(name)) << name;
+  }
+}
+
+TEST(Report, PageStatesVerdictCautionAndWorstFeatures) {
+  TempDir tmp;
+  ReportData d = synthetic_report_data({.converged = false});
+  d.features[5].rhat = 1.75;  // the worst feature by far
+  const std::string worst = feature_label(d.features[5], d.variables);
+  d.cautions.push_back("Chains started from <the same> graph & more");
+  write_report(d, tmp.file("r"));
+  const std::string html = read_file(tmp.file("r") + "/index.html");
+  EXPECT_NE(html.find("Not converged"), std::string::npos);
+  EXPECT_NE(html.find("not proven cause"), std::string::npos);
+  EXPECT_NE(html.find("qualified people and local rules"), std::string::npos);
+  EXPECT_NE(html.find("class=\"caution\""), std::string::npos);
+  EXPECT_NE(html.find("Chains started from &lt;the same&gt; graph &amp; more"), std::string::npos);
+  // The worst feature heads the table of worst features.
+  const auto table = html.find("id=\"worst\"");
+  ASSERT_NE(table, std::string::npos);
+  const auto first_row = html.find("<tbody>", table);
+  EXPECT_NE(html.find(worst, first_row), std::string::npos);
+  EXPECT_LT(html.find(worst, first_row), html.find("</tr>", first_row));
+  EXPECT_NE(html.find("1.750"), std::string::npos);
+  // No network: no scheme anywhere in src/href and no external style or script.
+  EXPECT_EQ(html.find("http://"), std::string::npos);
+  EXPECT_EQ(html.find("https://"), std::string::npos);
+  EXPECT_EQ(html.find("<link"), std::string::npos);
+
+  write_report(synthetic_report_data({.converged = true}), tmp.file("r"));
+  const std::string ok = read_file(tmp.file("r") + "/index.html");
+  EXPECT_NE(ok.find("\u2713 Converged"), std::string::npos);
+  EXPECT_EQ(ok.find("Not converged"), std::string::npos);
+}
+
+TEST(Report, ConsensusCycleIsDrawnAndNoted) {
+  TempDir tmp;
+  write_report(synthetic_report_data({.with_cycle = true}), tmp.file("r"));
+  EXPECT_NE(read_file(tmp.file("r") + "/index.html").find("has a directed cycle"),
+            std::string::npos);
+  EXPECT_NE(read_file(tmp.file("r") + "/consensus.dot").find("directed cycle"), std::string::npos);
+  EXPECT_GT(testing_util::png_stats(tmp.file("r") + "/consensus.png").luminance_variance, 50.0);
+}
+
+TEST(Report, MinimalDataStillMakesAPage) {
+  TempDir tmp;
+  ReportData d;
+  d.variables = {"x"};
+  write_report(d, tmp.file("r"));
+  const std::string html = read_file(tmp.file("r") + "/index.html");
+  EXPECT_NE(html.find("Not assessed"), std::string::npos);
+  EXPECT_NE(html.find("not proven cause"), std::string::npos);
+  EXPECT_EQ(html.find("<img"), std::string::npos);
+}
+
+std::vector<std::string> temporaries_beside(const std::string& dir) {
+  std::vector<std::string> found;
+  for (const auto& entry : fs::directory_iterator(fs::path(dir).parent_path()))
+    if (entry.path().filename().string().find(".tmp-") != std::string::npos)
+      found.push_back(entry.path().string());
+  return found;
+}
+
+TEST(Report, ReplacesAnEarlierReportOnlyOnSuccess) {
+  TempDir tmp;
+  const std::string dir = tmp.file("report");
+  ReportData first = synthetic_report_data();
+  first.title = "First run";
+  write_report(first, dir);
+  ReportData second = synthetic_report_data({.with_comparison = false});
+  second.title = "Second run";
+  write_report(second, dir);
+  std::string html = read_file(dir + "/index.html");
+  EXPECT_NE(html.find("Second run"), std::string::npos);
+  EXPECT_EQ(html.find("First run"), std::string::npos);
+  EXPECT_FALSE(fs::exists(dir + "/comparison.png"));  // the old folder's files are gone
+  EXPECT_TRUE(temporaries_beside(dir).empty());
+
+  // A failure after several figures were written (the consensus step rejects a probability
+  // above 1) leaves the earlier report as it was and no temporary folder behind.
+  ReportData broken = synthetic_report_data();
+  broken.title = "Broken run";
+  broken.edge_probability[0][1] = 1.5;
+  EXPECT_THROW(write_report(broken, dir), InputError);
+  html = read_file(dir + "/index.html");
+  EXPECT_NE(html.find("Second run"), std::string::npos);
+  EXPECT_TRUE(temporaries_beside(dir).empty());
+
+  // Inconsistent data is refused before anything is written.
+  ReportData bad_index = synthetic_report_data();
+  bad_index.features[0].to = 99;
+  EXPECT_THROW(write_report(bad_index, dir), InputError);
+  ReportData bad_trace = synthetic_report_data();
+  bad_trace.traces[1].steps.pop_back();
+  EXPECT_THROW(write_report(bad_trace, dir), InputError);
+  EXPECT_NE(read_file(dir + "/index.html").find("Second run"), std::string::npos);
+}
+
+TEST(Report, RefusesToReplaceAFolderThatIsNotAReport) {
+  TempDir tmp;
+  const std::string dir = tmp.file("precious");
+  fs::create_directory(dir);
+  write_text_file_atomically(dir + "/notes.txt", "keep me");
+  EXPECT_THROW(write_report(synthetic_report_data(), dir), InputError);
+  EXPECT_EQ(read_file(dir + "/notes.txt"), "keep me");
+  EXPECT_TRUE(temporaries_beside(dir).empty());
+  write_text_file_atomically(tmp.file("plain_file"), "x");
+  EXPECT_THROW(write_report(synthetic_report_data(), tmp.file("plain_file")), InputError);
+  EXPECT_THROW(write_report(synthetic_report_data(), tmp.file("no/such/parent")), InputError);
+  // An empty folder is fine (a user made it for the report).
+  fs::create_directory(tmp.file("empty"));
+  write_report(synthetic_report_data(), tmp.file("empty"));
+  EXPECT_TRUE(fs::exists(tmp.file("empty") + "/index.html"));
+}
+
+TEST(AtomicDirectory, CommitsWholeOrNotAtAll) {
+  TempDir tmp;
+  const std::string target = tmp.file("out");
+  {
+    AtomicDirectory out(target);
+    write_text_file_atomically(out.temp_path() + "/a.txt", "new");
+    EXPECT_FALSE(fs::exists(target));
+  }  // not committed
+  EXPECT_FALSE(fs::exists(target));
+  EXPECT_TRUE(temporaries_beside(target).empty());
+  {
+    AtomicDirectory out(target + "/");  // a trailing slash names the same folder
+    write_text_file_atomically(out.temp_path() + "/a.txt", "first");
+    out.commit();
+  }
+  EXPECT_EQ(read_file(target + "/a.txt"), "first");
+  EXPECT_EQ(fs::status(target).permissions() & fs::perms::others_read, fs::perms::others_read);
+  {
+    AtomicDirectory out(target);
+    write_text_file_atomically(out.temp_path() + "/b.txt", "second");
+    EXPECT_EQ(read_file(target + "/a.txt"), "first");  // untouched until commit
+    out.commit();
+  }
+  EXPECT_FALSE(fs::exists(target + "/a.txt"));
+  EXPECT_EQ(read_file(target + "/b.txt"), "second");
+  EXPECT_TRUE(temporaries_beside(target).empty());
+}
+
+// --- in a real browser -------------------------------------------------------------------------
+
+std::string chromium(const std::string& arguments, const std::string& profile) {
+  // Flags keep the browser off the network and away from the user's profile.
+  return std::string("HOME='") + profile + "' '" + COVEY_CHROMIUM +
+         "' --headless --no-sandbox --disable-gpu --disable-quic --no-first-run "
+         "--disable-background-networking --disable-component-update --disable-sync "
+         "--disable-extensions --hide-scrollbars --user-data-dir='" +
+         profile + "/profile' " + arguments;
+}
+
+std::pair<int, int> images_loaded(const std::string& page, const std::string& profile) {
+  const auto r =
+      run_shell(chromium("--virtual-time-budget=5000 --dump-dom 'file://" + page + "'", profile));
+  EXPECT_EQ(r.exit_code, 0) << r.err;
+  std::smatch loaded, total;
+  const bool found =
+      std::regex_search(r.out, loaded, std::regex("data-images-loaded=\"(\\d+)\"")) &&
+      std::regex_search(r.out, total, std::regex("data-images-total=\"(\\d+)\""));
+  EXPECT_TRUE(found) << "the page's image check did not run; DOM:\n" << r.out.substr(0, 2000);
+  if (!found) return {-1, -1};
+  return {std::stoi(loaded[1]), std::stoi(total[1])};
+}
+
+TEST(ReportInBrowser, ChromiumLoadsEveryImageAndDrawsThePage) {
+  ASSERT_TRUE(fs::exists(COVEY_CHROMIUM))
+      << "chromium not found (Debian package `chromium`; `make deps` installs it)";
+  TempDir tmp;
+  const std::string dir = tmp.file("report");
+  write_report(synthetic_report_data({.converged = false}), dir);
+  const auto [loaded, total] = images_loaded(dir + "/index.html", tmp.path());
+  EXPECT_EQ(total, 6);
+  EXPECT_EQ(loaded, total);
+
+  // Control: with one image gone the count drops, so the check above can fail.
+  fs::copy(dir, tmp.file("broken"));
+  fs::remove(tmp.file("broken") + "/edges.png");
+  const auto [loaded_broken, total_broken] =
+      images_loaded(tmp.file("broken") + "/index.html", tmp.path());
+  EXPECT_EQ(total_broken, 6);
+  EXPECT_EQ(loaded_broken, 5);
+
+  const std::string shot = tmp.file("shot.png");
+  const auto r = run_shell(chromium(
+      "--screenshot='" + shot + "' --window-size=1280,2400 'file://" + dir + "/index.html'",
+      tmp.path()));
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  const auto st = testing_util::png_stats(shot);
+  EXPECT_EQ(st.width, 1280);
+  EXPECT_EQ(st.height, 2400);
+  EXPECT_GT(st.luminance_variance, 200.0);
+  EXPECT_GT(st.non_white_fraction, 0.05);
+  // The "Not converged" badge (Okabe-Ito vermillion) is on screen near the top.
+  EXPECT_GT(testing_util::count_pixels_near(shot, 0xd55e00, 20, 0, 0, 1, 0.2), 2000u);
+  if (const char* keep = std::getenv("COVEY_KEEP_SCREENSHOT"))
+    fs::copy_file(shot, keep, fs::copy_options::overwrite_existing);
+}
+
+}  // namespace
+}  // namespace covey
