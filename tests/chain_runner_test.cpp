@@ -17,6 +17,8 @@
 #include "chain_oracles.hpp"
 #include "covey/chain_run_file.hpp"
 #include "covey/chain_runner.hpp"
+#include "covey/chain_support.hpp"
+#include "covey/diagnostics.hpp"
 #include "covey/error.hpp"
 #include "covey/score_io.hpp"
 #include "test_util.hpp"
@@ -228,6 +230,48 @@ TEST(ChainRunner, StartFromDagFileAndOptionErrors) {
   EXPECT_THROW(run_chains(other, dir.file("x.h5"), o, quiet_hooks(), true), InputError);
 }
 
+TEST(ChainRunner, StopsWhenEveryEdgeConverges) {
+  const ScoreTable table = testing_util::random_full_table(5, 2, 27);
+  TempDir dir;
+  ChainRunOptions o;
+  o.chains = 4;
+  o.thin = 20;
+  o.steps = 50'000'000;  // a cap far beyond what convergence needs
+  o.until_rhat = 1.02;
+  o.until_ess = 300;
+  o.checkpoint_every = 0;  // check after every segment
+  ChainRunHooks hooks = quiet_hooks();
+  hooks.convergence = edge_convergence;
+  const ChainRunSummary s = run_chains(table, dir.file("run.h5"), o, hooks, false);
+  EXPECT_EQ(s.stop_reason, "converged");
+  EXPECT_LT(s.steps, o.steps);
+  ASSERT_TRUE(s.convergence_checked);
+  EXPECT_TRUE(s.convergence.converged);
+  EXPECT_LT(s.convergence.max_rhat, 1.02);
+  EXPECT_GT(s.convergence.min_ess, 300);
+  // Recomputed from the file, feature by feature, with the diagnostics library directly.
+  const ChainRun run = ChainRun::open(dir.file("run.h5"));
+  const RunFeatures f(run);
+  std::vector<double> values(std::size_t(f.chains()) * f.iterations());
+  std::size_t assessed = 0;
+  for (const auto& [from, to] : f.edges_seen()) {
+    f.edge(from, to, values);
+    const FeatureSummary fs = summarize({values, f.chains(), f.iterations()});
+    if (std::isnan(fs.rhat)) continue;
+    ++assessed;
+    EXPECT_LT(fs.rhat, 1.02) << from << "->" << to;
+    EXPECT_GT(fs.ess_bulk, 300) << from << "->" << to;
+  }
+  EXPECT_GT(assessed, 5u);
+  // Unreachable thresholds: the step cap stops the run, not converged.
+  o.steps = 20000;
+  o.until_rhat = 1.0000001;
+  o.until_ess = 1e9;
+  const ChainRunSummary capped = run_chains(table, dir.file("capped.h5"), o, hooks, false);
+  EXPECT_EQ(capped.stop_reason, "steps");
+  EXPECT_FALSE(capped.convergence.converged);
+}
+
 // ---- Through the CLI ----------------------------------------------------------------------
 
 std::string write_table(const TempDir& dir, int n, int d, std::uint64_t seed) {
@@ -383,6 +427,23 @@ TEST(RandomStream, SaveLoadRoundTripAndCorruptStatesRejected) {
   EXPECT_THROW(load_stream(state.substr(0, state.size() / 2)), InputError);
   EXPECT_THROW(load_stream("not a state"), InputError);
   EXPECT_THROW(load_stream(state + " 17"), InputError);
+}
+
+TEST(ChainCli, UntilRhatAndMaxTime) {
+  TempDir dir;
+  const std::string scores = write_table(dir, 5, 2, 35);
+  auto r = run_covey("chain " + scores + " -o " + dir.file("a.h5") +
+                     " --until-rhat 1.05 --until-ess 200 --checkpoint-every 0.2s --thin 20 --json");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  auto j = nlohmann::json::parse(r.out);
+  EXPECT_EQ(j["stop_reason"], "converged");
+  EXPECT_TRUE(j["convergence"]["converged"].get<bool>());
+  r = run_covey("chain " + scores + " -o " + dir.file("b.h5") + " --max-time 1s --json");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  j = nlohmann::json::parse(r.out);
+  EXPECT_EQ(j["stop_reason"], "max-time");
+  EXPECT_GE(j["seconds"].get<double>(), 1.0);
+  EXPECT_LT(j["seconds"].get<double>(), 5.0);
 }
 
 TEST(Duration, ParsesUnits) {

@@ -9,6 +9,12 @@
 
 namespace covey {
 
+// The stopping rule's check: R-hat, bulk and tail ESS (diagnostics.hpp) of every directed-edge
+// indicator over all chains' stored draws. Edges constant across all draws (never or always
+// present) have undefined diagnostics and are reported as such, not assessed; the run counts
+// as converged when every assessed edge passes and at least one could be assessed.
+ConvergenceStatus edge_convergence(const ChainRun& run, double max_rhat, double min_ess);
+
 class ChainSupport {
  public:
   // `sampler_path`: a saved cover sampler to load instead of building one ("" to build).
