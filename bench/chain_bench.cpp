@@ -1,0 +1,92 @@
+// Structure-chain speed: local-move proposals per second on one core.
+// Targets (task brief): >= 2e6 / s at n = 30, in-degree <= 3 (all 29 other variables are
+// candidates); >= 3e5 / s at n = 200 with 20 candidate parents per node, in-degree <= 3.
+// Counters: proposals_per_second and ratio_to_target (>= 1 meets the target).
+#include <benchmark/benchmark.h>
+
+#include <algorithm>
+#include <bit>
+#include <boost/random/normal_distribution.hpp>
+#include <functional>
+#include <vector>
+
+#include "covey/random.hpp"
+#include "covey/score_table.hpp"
+#include "covey/structure_chain.hpp"
+
+namespace {
+
+// Every subset of size <= d of `num_candidates` random candidates, with log scores
+// Normal(0, 1) - penalty * |S| (sparse, realistic acceptance rates around a few percent).
+covey::ScoreTable make_table(int n, int num_candidates, int d, double penalty) {
+  covey::Rng rng = covey::make_stream(42, static_cast<std::uint64_t>(n));
+  boost::random::normal_distribution<double> normal(0.0, 1.0);
+  std::vector<covey::Variable> vars;
+  for (int v = 0; v < n; ++v)
+    vars.push_back({"X" + std::to_string(v), covey::VariableKind::kDiscrete, {}});
+  std::vector<covey::NodeScores> nodes(n);
+  for (int v = 0; v < n; ++v) {
+    std::vector<int> others;
+    for (int u = 0; u < n; ++u)
+      if (u != v) others.push_back(u);
+    for (int i = 0; i < num_candidates; ++i) {
+      const auto j = i + covey::uniform_below(rng, others.size() - i);
+      std::swap(others[i], others[j]);
+      nodes[v].candidates.push_back(others[i]);
+    }
+    std::function<void(int, covey::ParentMask)> subsets = [&](int start, covey::ParentMask m) {
+      nodes[v].masks.push_back(m);
+      nodes[v].log_scores.push_back(normal(rng) - penalty * std::popcount(m));
+      if (std::popcount(m) == d) return;
+      for (int b = start; b < num_candidates; ++b) subsets(b + 1, m | (covey::ParentMask{1} << b));
+    };
+    subsets(0, 0);
+  }
+  return covey::ScoreTable(std::move(vars), std::move(nodes));
+}
+
+void run_chain(benchmark::State& state, int n, int num_candidates, double rev_rate, double target) {
+  const covey::ScoreTable table = make_table(n, num_candidates, 3, 1.0);
+  covey::ChainConfig config;
+  config.rev_rate = rev_rate;
+  covey::StructureChain chain(table, config);
+  covey::Rng rng = covey::make_stream(1, 0);
+  for (int s = 0; s < 200000; ++s) chain.step(rng);  // reach a typical state first
+  constexpr int kBatch = 1000;
+  const covey::MoveCounts before = chain.counts();
+  for (auto _ : state)
+    for (int s = 0; s < kBatch; ++s) chain.step(rng);
+  const double steps = double(state.iterations()) * kBatch;
+  state.SetItemsProcessed(static_cast<std::int64_t>(steps));
+  state.counters["proposals_per_second"] = benchmark::Counter(steps, benchmark::Counter::kIsRate);
+  state.counters["ratio_to_target"] =
+      benchmark::Counter(steps / target, benchmark::Counter::kIsRate);
+  std::uint64_t proposed = 0, accepted = 0;
+  for (int m = 0; m < covey::kNumMoves; ++m) {
+    proposed += chain.counts().proposed[m] - before.proposed[m];
+    accepted += chain.counts().accepted[m] - before.accepted[m];
+  }
+  state.counters["acceptance"] = double(accepted) / double(std::max<std::uint64_t>(proposed, 1));
+  state.counters["edges"] = double(chain.num_edges());
+}
+
+void BM_LocalMoves_n30_d3(benchmark::State& state) {
+  run_chain(state, 30, 29, 0.0, 2e6);
+}
+void BM_LocalMoves_n200_c20_d3(benchmark::State& state) {
+  run_chain(state, 200, 20, 0.0, 3e5);
+}
+// With REV at the default rate 1/15 (for information; the targets are for local moves).
+void BM_WithRev_n30_d3(benchmark::State& state) {
+  run_chain(state, 30, 29, 1.0 / 15, 2e6);
+}
+void BM_WithRev_n200_c20_d3(benchmark::State& state) {
+  run_chain(state, 200, 20, 1.0 / 15, 3e5);
+}
+
+BENCHMARK(BM_LocalMoves_n30_d3)->MinTime(1.0);
+BENCHMARK(BM_LocalMoves_n200_c20_d3)->MinTime(1.0);
+BENCHMARK(BM_WithRev_n30_d3)->MinTime(1.0);
+BENCHMARK(BM_WithRev_n200_c20_d3)->MinTime(1.0);
+
+}  // namespace

@@ -1,0 +1,413 @@
+// Chain-run files: writer (chains/chain_file_writer.hpp) and reader
+// (include/covey/chain_run_file.hpp). Layout: docs/file-formats.md, "Chain runs".
+#include <signal.h>
+#include <unistd.h>
+
+#include <algorithm>
+#include <bit>
+#include <cerrno>
+#include <chrono>
+#include <cinttypes>
+#include <cstdio>
+#include <cstring>
+#include <filesystem>
+#include <limits>
+
+#include "chain_file_writer.hpp"
+#include "covey/atomic_file.hpp"
+#include "covey/error.hpp"
+#include "covey/h5.hpp"
+#include "covey/version.hpp"
+
+namespace covey {
+namespace chain_file {
+namespace {
+
+std::string hex(std::uint64_t f) {
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%016" PRIx64, f);
+  return buf;
+}
+
+std::uint64_t parse_hex(const std::string& text, const std::string& path) {
+  std::size_t used = 0;
+  std::uint64_t value = 0;
+  try {
+    value = std::stoull(text, &used, 16);
+  } catch (const std::exception&) {
+    used = 0;
+  }
+  if (text.empty() || used != text.size())
+    throw InputError(path + ": corrupt table_fingerprint attribute '" + text + "'");
+  return value;
+}
+
+std::uint64_t unix_time_ms() {
+  return static_cast<std::uint64_t>(std::chrono::duration_cast<std::chrono::milliseconds>(
+                                        std::chrono::system_clock::now().time_since_epoch())
+                                        .count());
+}
+
+// Rows of draws: about 512 KiB of raw words per chunk.
+std::size_t draw_chunk_rows(std::size_t width) {
+  return std::max<std::size_t>(16, 65536 / std::max<std::size_t>(width, 1));
+}
+
+std::vector<std::uint64_t> pack_text(const std::string& text) {
+  if (text.size() > (kRngWords - 1) * 8)
+    throw Error("random-stream state too long for the checkpoint record");
+  std::vector<std::uint64_t> out(kRngWords, 0);
+  out[0] = text.size();
+  std::memcpy(out.data() + 1, text.data(), text.size());
+  return out;
+}
+
+std::string unpack_text(const std::vector<std::uint64_t>& words, const std::string& path) {
+  if (words.size() != kRngWords || words[0] > (kRngWords - 1) * 8)
+    throw InputError(path + ": corrupt random-stream record");
+  std::string text(words[0], '\0');
+  std::memcpy(text.data(), words.data() + 1, text.size());
+  return text;
+}
+
+std::vector<std::uint64_t> counts_row(const ChainCheckpoint& s) {
+  std::vector<std::uint64_t> row;
+  row.reserve(kCountsWidth);
+  row.push_back(s.steps);
+  row.push_back(s.regenerations);
+  for (auto p : s.counts.proposed) row.push_back(p);
+  for (auto a : s.counts.accepted) row.push_back(a);
+  return row;
+}
+
+void replace_attr(H5::H5Object& obj, const std::string& name, const std::string& value) {
+  if (obj.attrExists(name)) obj.removeAttr(name);
+  h5::set_attr(obj, name, value);
+}
+
+// Scalar options as attributes of their own, for h5dump readers; `options` holds them all.
+void write_option_attributes(H5::H5File& file, const nlohmann::json& options) {
+  for (const auto& [key, value] : options.items()) {
+    const std::string name = "option_" + key;
+    if (value.is_string())
+      h5::set_attr(file, name, value.get<std::string>());
+    else if (value.is_boolean())
+      h5::set_attr(file, name, static_cast<long long>(value.get<bool>()));
+    else if (value.is_number_unsigned() &&
+             value.get<std::uint64_t>() > std::uint64_t(std::numeric_limits<long long>::max()))
+      h5::set_attr(file, name, std::to_string(value.get<std::uint64_t>()));
+    else if (value.is_number_integer())
+      h5::set_attr(file, name, value.get<long long>());
+    else if (value.is_number_float())
+      h5::set_attr(file, name, value.get<double>());
+  }
+}
+
+void append_blocks(H5::H5File& file, const std::vector<ChainBlock>& blocks, std::uint64_t steps,
+                   double elapsed_seconds) {
+  const long long chains = h5::get_attr_int(file, "num_chains");
+  if (static_cast<long long>(blocks.size()) != chains)
+    throw Error("checkpoint: one block per chain is needed");
+  const std::size_t width = std::size_t(h5::get_attr_int(file, "num_variables")) *
+                            std::size_t(h5::get_attr_int(file, "words_per_node"));
+  std::uint64_t draws = 0;
+  for (int c = 0; c < chains; ++c) {
+    const ChainBlock& b = blocks[c];
+    H5::Group g = file.openGroup(chain_group_name(c));
+    h5::append_rows(g, kDraws, b.draws, width);
+    h5::append_series(g, kLogScores, b.log_scores);
+    h5::append_series(g, kDrawSteps, b.draw_steps);
+    h5::append_series(g, kRegenerations, b.regenerations);
+    h5::append_rows(g, kStateParents, b.state.parents, width);
+    h5::append_rows(g, kStateRng, pack_text(b.state.rng_state), kRngWords);
+    h5::append_rows(g, kStateCounts, counts_row(b.state), kCountsWidth);
+    const std::uint64_t rows = h5::num_rows(g, kDraws);
+    if (c > 0 && rows != draws) throw Error("checkpoint: chains have different draw counts");
+    draws = rows;
+  }
+  // The checkpoint record last: the reader trusts the row counts it names.
+  H5::Group root = file.openGroup("/");
+  h5::append_rows(
+      root, kCheckpoints,
+      {steps, draws, unix_time_ms(), static_cast<std::uint64_t>(elapsed_seconds * 1000)},
+      kCheckpointWidth);
+}
+
+}  // namespace
+
+std::string chain_group_name(int chain) {
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "chain_%03d", chain);
+  return buf;
+}
+
+void create(const std::string& path, const Header& header, const std::vector<ChainBlock>& blocks,
+            std::uint64_t steps, double elapsed_seconds) {
+  AtomicOutput out(path);
+  h5::guard(path, [&] {
+    H5::H5File file = h5::create(out.temp_path());
+    h5::set_attr(file, "format", std::string(kChainRunFormat));
+    h5::set_attr(file, "format_version", kChainRunFormatVersion);
+    h5::set_attr(file, "covey_version", std::string(kVersion));
+    h5::set_attr(file, "command_line", header.session.value("command_line", std::string()));
+    h5::set_attr(file, "table_fingerprint", hex(header.fingerprint));
+    h5::set_attr(file, "num_variables", static_cast<long long>(header.variables.size()));
+    h5::set_attr(file, "words_per_node", static_cast<long long>(header.words_per_node));
+    h5::set_attr(file, "num_chains", static_cast<long long>(header.num_chains));
+    if (header.options.contains("seed"))
+      h5::set_attr(file, "seed", std::to_string(header.options["seed"].get<std::uint64_t>()));
+    h5::set_attr_json(file, "options", header.options);
+    write_option_attributes(file, header.options);
+    nlohmann::json moves = nlohmann::json::array();
+    for (int m = 0; m < kNumMoves; ++m) moves.push_back(move_name(m));
+    h5::set_attr_json(file, "move_names", moves);
+    h5::set_attr_json(file, "sessions", nlohmann::json::array({header.session}));
+    const std::string names = nlohmann::json(header.variables).dump();
+    if (names.size() < 60000) h5::set_attr(file, "variable_names", names);  // else: dataset only
+    H5::Group root = file.openGroup("/");
+    h5::write_strings(root, kVariables, header.variables);
+    h5::create_rows(root, kCheckpoints, kCheckpointWidth, 64);
+    const std::size_t width = header.variables.size() * header.words_per_node;
+    for (int c = 0; c < header.num_chains; ++c) {
+      H5::Group g = file.createGroup(chain_group_name(c));
+      h5::set_attr(g, "chain", static_cast<long long>(c));
+      h5::create_rows(g, kDraws, width, draw_chunk_rows(width));
+      h5::create_series_double(g, kLogScores);
+      h5::create_series_int64(g, kDrawSteps);
+      h5::create_series_int64(g, kRegenerations, 1024);
+      h5::create_rows(g, kStateParents, width, 16);
+      h5::create_rows(g, kStateRng, kRngWords, 4);
+      h5::create_rows(g, kStateCounts, kCountsWidth, 64);
+    }
+    append_blocks(file, blocks, steps, elapsed_seconds);
+    file.close();
+  });
+  out.commit();
+}
+
+void append_checkpoint(const std::string& path, const std::vector<ChainBlock>& blocks,
+                       std::uint64_t steps, double elapsed_seconds,
+                       const nlohmann::json* new_session) {
+  AtomicOutput out(path);
+  std::error_code ec;
+  std::filesystem::copy_file(path, out.temp_path(),
+                             std::filesystem::copy_options::overwrite_existing, ec);
+  if (ec) throw Error(path + ": cannot copy the run file for a checkpoint: " + ec.message());
+  h5::guard(path, [&] {
+    H5::H5File file = h5::open_write(out.temp_path());
+    if (new_session) {
+      nlohmann::json sessions = h5::get_attr_json(file, "sessions");
+      sessions.push_back(*new_session);
+      replace_attr(file, "sessions", sessions.dump());
+    }
+    append_blocks(file, blocks, steps, elapsed_seconds);
+    file.close();
+  });
+  out.commit();
+}
+
+void remove_stale_temporaries(const std::string& path) {
+  namespace fs = std::filesystem;
+  const fs::path target(path);
+  const fs::path dir = target.parent_path().empty() ? fs::path(".") : target.parent_path();
+  const std::string prefix = "." + target.filename().string() + ".tmp-";
+  std::error_code ec;
+  for (const auto& entry : fs::directory_iterator(dir, ec)) {
+    const std::string name = entry.path().filename().string();
+    if (name.rfind(prefix, 0) != 0) continue;
+    const std::string rest = name.substr(prefix.size());
+    const auto dash = rest.find('-');
+    if (dash == std::string::npos) continue;
+    long pid = 0;
+    try {
+      pid = std::stol(rest.substr(0, dash));
+    } catch (const std::exception&) {
+      continue;
+    }
+    if (pid <= 0 || pid == ::getpid()) continue;
+    if (::kill(static_cast<pid_t>(pid), 0) == 0 || errno != ESRCH) continue;  // still running
+    fs::remove(entry.path(), ec);
+  }
+}
+
+}  // namespace chain_file
+
+// ---- Reader ------------------------------------------------------------------------------
+
+using namespace chain_file;
+
+ChainRun ChainRun::open(const std::string& path) {
+  ChainRun run;
+  run.path_ = path;
+  h5::guard(path, [&] {
+    H5::H5File file = h5::open_read(path);
+    if (!h5::has_attr(file, "format") || h5::get_attr_string(file, "format") != kChainRunFormat)
+      throw InputError(path + ": not a covey chain-run file (format attribute is not '" +
+                       std::string(kChainRunFormat) + "')");
+    const long long version = h5::get_attr_int(file, "format_version");
+    if (version != kChainRunFormatVersion)
+      throw InputError(path + ": chain-run format version " + std::to_string(version) +
+                       " is not supported (this covey reads version " +
+                       std::to_string(kChainRunFormatVersion) + ")");
+    run.fingerprint_ = parse_hex(h5::get_attr_string(file, "table_fingerprint"), path);
+    run.num_chains_ = static_cast<int>(h5::get_attr_int(file, "num_chains"));
+    run.words_ = static_cast<int>(h5::get_attr_int(file, "words_per_node"));
+    run.options_ = h5::get_attr_json(file, "options");
+    for (const char* name :
+         {"format", "covey_version", "command_line", "table_fingerprint", "seed"})
+      if (h5::has_attr(file, name)) run.attributes_[name] = h5::get_attr_string(file, name);
+    run.attributes_["format_version"] = version;
+    run.attributes_["num_chains"] = run.num_chains_;
+    run.attributes_["words_per_node"] = run.words_;
+    run.attributes_["options"] = run.options_;
+    run.attributes_["sessions"] = h5::get_attr_json(file, "sessions");
+    run.attributes_["move_names"] = h5::get_attr_json(file, "move_names");
+    H5::Group root = file.openGroup("/");
+    run.variables_ = h5::read_strings(root, kVariables);
+    const long long n = h5::get_attr_int(file, "num_variables");
+    if (n != static_cast<long long>(run.variables_.size()) || n < 1 || run.num_chains_ < 1 ||
+        run.words_ != (n + 63) / 64)
+      throw InputError(path + ": inconsistent chain-run header");
+    run.num_checkpoints_ = h5::num_rows(root, kCheckpoints);
+    if (run.num_checkpoints_ == 0) throw InputError(path + ": the run has no checkpoint");
+    const auto last = h5::read_rows(root, kCheckpoints, run.num_checkpoints_ - 1, 1);
+    run.steps_ = last[0];
+    run.num_draws_ = last[1];
+    run.elapsed_seconds_ = double(last[3]) / 1000.0;
+    for (int c = 0; c < run.num_chains_; ++c) {
+      const std::string name = chain_group_name(c);
+      if (!file.nameExists(name)) throw InputError(path + ": missing group " + name);
+      H5::Group g = file.openGroup(name);
+      const std::size_t draws = h5::num_rows(g, kDraws);
+      if (draws != run.num_draws_ || h5::num_rows(g, kLogScores) != draws ||
+          h5::num_rows(g, kDrawSteps) != draws ||
+          h5::num_rows(g, kStateParents) != run.num_checkpoints_ ||
+          h5::num_rows(g, kStateRng) != run.num_checkpoints_ ||
+          h5::num_rows(g, kStateCounts) != run.num_checkpoints_)
+        throw InputError(path + ": " + name + " does not match the last checkpoint record");
+    }
+  });
+  return run;
+}
+
+void ChainRun::check_chain(int chain) const {
+  if (chain < 0 || chain >= num_chains_)
+    throw InputError(path_ + ": no chain " + std::to_string(chain));
+}
+
+std::vector<std::uint64_t> ChainRun::draws(int chain) const {
+  check_chain(chain);
+  return h5::guard(path_, [&] {
+    H5::H5File file = h5::open_read(path_);
+    H5::Group g = file.openGroup(chain_group_name(chain));
+    return h5::read_rows(g, kDraws, 0, num_draws_);
+  });
+}
+
+std::vector<double> ChainRun::log_scores(int chain) const {
+  check_chain(chain);
+  return h5::guard(path_, [&] {
+    H5::H5File file = h5::open_read(path_);
+    return h5::read_doubles(file.openGroup(chain_group_name(chain)), kLogScores);
+  });
+}
+
+std::vector<std::int64_t> ChainRun::draw_steps(int chain) const {
+  check_chain(chain);
+  return h5::guard(path_, [&] {
+    H5::H5File file = h5::open_read(path_);
+    return h5::read_int64s(file.openGroup(chain_group_name(chain)), kDrawSteps);
+  });
+}
+
+std::vector<std::int64_t> ChainRun::regenerations(int chain) const {
+  check_chain(chain);
+  return h5::guard(path_, [&] {
+    H5::H5File file = h5::open_read(path_);
+    return h5::read_int64s(file.openGroup(chain_group_name(chain)), kRegenerations);
+  });
+}
+
+ChainCheckpoint ChainRun::checkpoint(int chain) const {
+  check_chain(chain);
+  return h5::guard(path_, [&] {
+    H5::H5File file = h5::open_read(path_);
+    H5::Group g = file.openGroup(chain_group_name(chain));
+    const std::size_t row = num_checkpoints_ - 1;
+    ChainCheckpoint cp;
+    cp.parents = h5::read_rows(g, kStateParents, row, 1);
+    cp.rng_state = unpack_text(h5::read_rows(g, kStateRng, row, 1), path_);
+    const auto counts = h5::read_rows(g, kStateCounts, row, 1);
+    if (counts.size() != kCountsWidth) throw InputError(path_ + ": corrupt checkpoint counts");
+    cp.steps = counts[0];
+    cp.regenerations = counts[1];
+    for (int m = 0; m < kNumMoves; ++m) {
+      cp.counts.proposed[m] = counts[2 + m];
+      cp.counts.accepted[m] = counts[2 + kNumMoves + m];
+    }
+    if (cp.steps != steps_) throw InputError(path_ + ": checkpoint steps disagree");
+    return cp;
+  });
+}
+
+void ChainRun::check_table(const ScoreTable& table) const {
+  bool same = table.fingerprint() == fingerprint_ &&
+              table.num_variables() == static_cast<int>(variables_.size());
+  for (int v = 0; same && v < table.num_variables(); ++v) same = table.name(v) == variables_[v];
+  if (!same)
+    throw InputError(path_ + ": the run was made from a different score table (fingerprint " +
+                     hex(fingerprint_) + ", this table " + hex(table.fingerprint()) + ")");
+}
+
+// ---- Features ----------------------------------------------------------------------------
+
+RunFeatures::RunFeatures(const ChainRun& run)
+    : chains_(run.num_chains()),
+      n_(run.num_variables()),
+      words_(run.words_per_node()),
+      iterations_(run.num_draws()),
+      stride_(std::size_t(run.num_variables()) * run.words_per_node()) {
+  rows_.reserve(std::size_t(chains_) * iterations_ * stride_);
+  log_scores_.reserve(std::size_t(chains_) * iterations_);
+  for (int c = 0; c < chains_; ++c) {
+    const auto rows = run.draws(c);
+    rows_.insert(rows_.end(), rows.begin(), rows.end());
+    const auto ls = run.log_scores(c);
+    log_scores_.insert(log_scores_.end(), ls.begin(), ls.end());
+  }
+}
+
+std::vector<std::pair<int, int>> RunFeatures::edges_seen() const {
+  std::vector<std::uint64_t> any(stride_, 0);
+  const std::size_t total = std::size_t(chains_) * iterations_;
+  for (std::size_t r = 0; r < total; ++r)
+    for (std::size_t w = 0; w < stride_; ++w) any[w] |= rows_[r * stride_ + w];
+  std::vector<std::pair<int, int>> out;
+  for (int to = 0; to < n_; ++to)
+    for (int w = 0; w < words_; ++w)
+      for (std::uint64_t m = any[std::size_t(to) * words_ + w]; m; m &= m - 1)
+        out.emplace_back(w * 64 + std::countr_zero(m), to);
+  std::sort(out.begin(), out.end());
+  return out;
+}
+
+void RunFeatures::edge(int from, int to, std::span<double> out) const {
+  const std::size_t total = std::size_t(chains_) * iterations_;
+  if (out.size() != total) throw Error("RunFeatures: output size must be chains * draws");
+  for (std::size_t r = 0; r < total; ++r) out[r] = has_edge(r, from, to) ? 1.0 : 0.0;
+}
+
+void RunFeatures::adjacency(int a, int b, std::span<double> out) const {
+  const std::size_t total = std::size_t(chains_) * iterations_;
+  if (out.size() != total) throw Error("RunFeatures: output size must be chains * draws");
+  for (std::size_t r = 0; r < total; ++r)
+    out[r] = (has_edge(r, a, b) || has_edge(r, b, a)) ? 1.0 : 0.0;
+}
+
+void RunFeatures::log_score(std::span<double> out) const {
+  if (out.size() != log_scores_.size())
+    throw Error("RunFeatures: output size must be chains * draws");
+  std::copy(log_scores_.begin(), log_scores_.end(), out.begin());
+}
+
+}  // namespace covey

@@ -1,0 +1,66 @@
+#pragma once
+// Writing chain-run files (internal to the chain runner; the layout is in
+// docs/file-formats.md, "Chain runs", and the reader in include/covey/chain_run_file.hpp).
+//
+// Crash safety: every write produces a complete new file beside the target and renames it over
+// the target (AtomicOutput). A checkpoint copies the current file, appends to the copy, and
+// renames; so a kill at any moment, during a checkpoint too, leaves the previous checkpoint's
+// file intact. (In-place HDF5 updates were tried and rejected: kill -9 during an append damaged
+// already committed chunks, also in SWMR mode with compressed, checksummed chunks.)
+#include <cstdint>
+#include <nlohmann/json.hpp>
+#include <string>
+#include <vector>
+
+#include "covey/chain_run_file.hpp"
+
+namespace covey::chain_file {
+
+struct Header {
+  std::vector<std::string> variables;
+  std::uint64_t fingerprint = 0;
+  int words_per_node = 1;
+  int num_chains = 0;
+  nlohmann::json options;  // run options (stored as the `options` JSON attribute)
+  nlohmann::json session;  // this session's provenance (command line, version, start step)
+};
+
+// What one chain adds at a checkpoint, and its state there.
+struct ChainBlock {
+  std::vector<std::uint64_t> draws;  // rows of n * words_per_node words
+  std::vector<double> log_scores;
+  std::vector<std::int64_t> draw_steps;
+  std::vector<std::int64_t> regenerations;
+  ChainCheckpoint state;
+};
+
+// Creates a new run file at `path` holding checkpoint 0 (the start states).
+void create(const std::string& path, const Header& header, const std::vector<ChainBlock>& blocks,
+            std::uint64_t steps, double elapsed_seconds);
+
+// Appends one checkpoint (new rows and every chain's state) through copy + append + rename.
+// `new_session`, when not null, is added to the `sessions` attribute (a resumed run).
+void append_checkpoint(const std::string& path, const std::vector<ChainBlock>& blocks,
+                       std::uint64_t steps, double elapsed_seconds,
+                       const nlohmann::json* new_session = nullptr);
+
+// Removes temporary files of this target left by killed covey processes (".NAME.tmp-PID-*"
+// whose process no longer exists).
+void remove_stale_temporaries(const std::string& path);
+
+// Dataset names (shared with the reader).
+inline constexpr const char* kCheckpoints = "checkpoints";
+inline constexpr const char* kVariables = "variables";
+inline constexpr const char* kDraws = "draws";
+inline constexpr const char* kLogScores = "log_scores";
+inline constexpr const char* kDrawSteps = "steps";
+inline constexpr const char* kRegenerations = "regenerations";
+inline constexpr const char* kStateParents = "checkpoint_parents";
+inline constexpr const char* kStateRng = "checkpoint_rng";
+inline constexpr const char* kStateCounts = "checkpoint_counts";
+inline constexpr std::size_t kCheckpointWidth = 4;  // steps, draws, unix time ms, elapsed ms
+inline constexpr std::size_t kRngWords = 1 + 1024;  // byte length, then up to 8192 bytes
+inline constexpr std::size_t kCountsWidth = 2 + 2 * kNumMoves;
+std::string chain_group_name(int chain);  // "chain_000", ...
+
+}  // namespace covey::chain_file

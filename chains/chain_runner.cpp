@@ -1,0 +1,488 @@
+#include "covey/chain_runner.hpp"
+
+#include <tbb/parallel_for.h>
+
+#include <algorithm>
+#include <chrono>
+#include <cmath>
+#include <cstdio>
+#include <ctime>
+#include <filesystem>
+#include <memory>
+
+#include "chain_file_writer.hpp"
+#include "covey/edge_constraints.hpp"
+#include "covey/error.hpp"
+#include "covey/random.hpp"
+#include "covey/version.hpp"
+
+namespace covey {
+namespace {
+
+using Clock = std::chrono::steady_clock;
+
+double seconds_since(Clock::time_point t) {
+  return std::chrono::duration<double>(Clock::now() - t).count();
+}
+
+// Target wall time of one segment (all chains advance by the same number of steps, then the
+// main thread checks signals, time, progress and checkpoints).
+constexpr double kSegmentSeconds = 0.2;
+// Thinned draws held in memory between checkpoints; past this a checkpoint is written early.
+constexpr std::size_t kMaxPendingBytes = std::size_t{256} << 20;
+// A checkpoint copies the whole file: it is spaced so that writing takes at most 1/20 of the
+// time (a floor on the interval for large files).
+constexpr double kMaxCheckpointShare = 0.05;
+
+struct Slot {
+  Slot(const ScoreTable& table, const ChainConfig& config) : chain(table, config) {}
+  StructureChain chain;
+  Rng rng;
+  std::uint64_t regenerations = 0;
+  chain_file::ChainBlock pending;  // rows since the last checkpoint
+};
+
+void check_options(const ChainRunOptions& o, const ChainRunHooks& hooks, const ScoreTable& table,
+                   bool resume) {
+  if (o.chains < 1) throw InputError("--chains must be at least 1");
+  if (o.thin < 1) throw InputError("--thin must be at least 1");
+  if (o.rev_rate < 0 || o.rev_rate > 1) throw InputError("--rev-rate must lie in [0, 1]");
+  if (o.teleport_rate < 0 || o.teleport_rate > 1)
+    throw InputError("--teleport-rate must lie in [0, 1]");
+  if (o.rev_rate + o.teleport_rate > 1)
+    throw InputError("--rev-rate plus --teleport-rate must be at most 1");
+  if (o.teleport_rate > 0 && o.teleport_cover < 0)
+    throw InputError("--teleport-rate needs --teleport-cover K (the class of the exact sampler)");
+  if (o.start == "exact" && o.teleport_cover < 0)
+    throw InputError("--start exact needs --teleport-cover K (the class D_K to draw from)");
+  if ((o.teleport_rate > 0 || (o.start == "exact" && !resume)) && !hooks.teleport)
+    throw Error("run_chains: no teleport sampler given");
+  if (o.cover_limit >= 0 && !hooks.restriction) throw Error("run_chains: no class given");
+  if (o.teleport_cover >= 0 && o.cover_limit >= 0 && o.teleport_cover > o.cover_limit)
+    throw InputError("--teleport-cover K must not exceed --cover-limit K' (D_K must lie in D_K')");
+  if ((o.teleport_cover >= 0 || o.cover_limit >= 0) && table.num_variables() > 64)
+    throw InputError(
+        "--teleport-cover, --cover-limit and --start exact support at most 64 "
+        "variables; the table has " +
+        std::to_string(table.num_variables()));
+  if (o.until_rhat < 0 || o.until_ess < 0)
+    throw InputError("--until-rhat and --until-ess must be positive");
+  if (o.until_enabled() && !hooks.convergence) throw Error("run_chains: no convergence check");
+  if (o.steps == 0 && o.max_seconds <= 0 && !o.until_enabled())
+    throw InputError(
+        "give a stopping rule: --steps N, --max-time DURATION or --until-rhat / "
+        "--until-ess");
+  if (o.checkpoint_every < 0) throw InputError("--checkpoint-every must be >= 0");
+}
+
+std::string percent(std::uint64_t a, std::uint64_t p) {
+  if (p == 0) return "-";
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%.1f%%", 100.0 * double(a) / double(p));
+  return buf;
+}
+
+std::string human(double x) {
+  char buf[32];
+  if (x >= 1e9)
+    std::snprintf(buf, sizeof buf, "%.2fG", x / 1e9);
+  else if (x >= 1e6)
+    std::snprintf(buf, sizeof buf, "%.2fM", x / 1e6);
+  else if (x >= 1e3)
+    std::snprintf(buf, sizeof buf, "%.1fk", x / 1e3);
+  else
+    std::snprintf(buf, sizeof buf, "%.0f", x);
+  return buf;
+}
+
+class Runner {
+ public:
+  Runner(const ScoreTable& table, const std::string& path, const ChainRunOptions& options,
+         const ChainRunHooks& hooks)
+      : table_(table), path_(path), o_(options), hooks_(hooks) {
+    width_ = std::size_t(table.num_variables()) * ((table.num_variables() + 63) / 64);
+    config_.rev_rate = o_.rev_rate;
+    config_.teleport_rate = o_.teleport_rate;
+    config_.teleport = o_.teleport_rate > 0 ? hooks.teleport : nullptr;
+    config_.restriction = o_.cover_limit >= 0 ? hooks.restriction : nullptr;
+    config_.drop_hastings_for_testing = o_.drop_hastings_for_testing;
+    session_ = {{"command_line", hooks.command_line},
+                {"covey_version", kVersion},
+                {"unix_time", static_cast<long long>(std::time(nullptr))}};
+  }
+
+  void start_new() {
+    chain_file::remove_stale_temporaries(path_);
+    std::vector<std::uint64_t> file_start;
+    if (o_.start != "empty" && o_.start != "exact") file_start = read_start_dag(o_.start, table_);
+    for (int c = 0; c < o_.chains; ++c) {
+      auto slot = std::make_unique<Slot>(table_, config_);
+      slot->rng = make_stream(o_.seed, static_cast<std::uint64_t>(c));
+      if (o_.start == "empty") {
+        if (!slot->chain.empty_graph_allowed())
+          throw InputError(
+              "--start empty: the score table does not allow the empty graph "
+              "(required edges?); use --start exact or --start FILE");
+      } else if (o_.start == "exact") {
+        // The chain's own stream makes its first state an exact draw from D_k: a regeneration
+        // at step 0.
+        slot->chain.set_dag(hooks_.teleport->draw(slot->rng), "exact start draw");
+        slot->pending.regenerations.push_back(0);
+        slot->regenerations = 1;
+      } else {
+        slot->chain.set_parents(file_start, o_.start);
+      }
+      slots_.push_back(std::move(slot));
+    }
+    steps_ = 0;
+    chain_file::Header header;
+    for (const auto& v : table_.variables()) header.variables.push_back(v.name);
+    header.fingerprint = table_.fingerprint();
+    header.words_per_node = (table_.num_variables() + 63) / 64;
+    header.num_chains = o_.chains;
+    header.options = o_.fixed_to_json();
+    session_["start_step"] = 0;
+    header.session = session_;
+    const auto t = Clock::now();
+    chain_file::create(path_, header, blocks(), 0, 0.0);
+    checkpoint_seconds_ += seconds_since(t);
+    clear_pending();
+    checkpoints_ = 1;
+    session_recorded_ = true;
+  }
+
+  void resume() {
+    chain_file::remove_stale_temporaries(path_);
+    const ChainRun run = ChainRun::open(path_);
+    run.check_table(table_);
+    if (run.num_chains() != o_.chains) throw Error("run_chains: chain count differs from file");
+    steps_ = run.steps();
+    draws_ = run.num_draws();
+    checkpoints_ = run.num_checkpoints();
+    prior_elapsed_ = run.elapsed_seconds();
+    for (int c = 0; c < o_.chains; ++c) {
+      const ChainCheckpoint cp = run.checkpoint(c);
+      auto slot = std::make_unique<Slot>(table_, config_);
+      slot->chain.set_parents(cp.parents,
+                              path_ + ": checkpoint state of chain " + std::to_string(c));
+      slot->chain.set_counts(cp.counts);
+      slot->rng = load_stream(cp.rng_state);
+      slot->regenerations = cp.regenerations;
+      slots_.push_back(std::move(slot));
+    }
+    session_["start_step"] = steps_;
+    session_recorded_ = false;
+  }
+
+  ChainRunSummary run() {
+    const auto session_start = Clock::now();
+    Progress progress("chain", hooks_.progress);
+    MoveCounts at_start;
+    for (const auto& s : slots_) at_start += s->chain.counts();
+    const std::uint64_t steps_at_start = steps_;
+    std::uint64_t segment = 1000;
+    auto last_checkpoint = Clock::now();
+    double interval = o_.checkpoint_every;
+    std::string reason;
+    ChainRunSummary summary;
+
+    if (o_.steps > 0 && steps_ >= o_.steps) reason = "steps";
+    while (reason.empty()) {
+      const std::uint64_t len = o_.steps > 0 ? std::min(segment, o_.steps - steps_) : segment;
+      const auto t0 = Clock::now();
+      run_segment(len);
+      const double took = seconds_since(t0);
+      steps_ += len;
+      // Segment length for about kSegmentSeconds (does not affect the trajectories).
+      const double factor = std::clamp(kSegmentSeconds / std::max(took, 1e-6), 0.25, 4.0);
+      segment = std::max<std::uint64_t>(100, static_cast<std::uint64_t>(double(len) * factor));
+
+      if (hooks_.stop_signal && hooks_.stop_signal->load() != 0) {
+        reason = "signal";
+        summary.stop_signal = hooks_.stop_signal->load();
+      } else if (o_.steps > 0 && steps_ >= o_.steps) {
+        reason = "steps";
+      } else if (o_.max_seconds > 0 && seconds_since(session_start) >= o_.max_seconds) {
+        reason = "max-time";
+      }
+      const bool due =
+          seconds_since(last_checkpoint) >= interval || pending_bytes() > kMaxPendingBytes;
+      if (due || !reason.empty()) {
+        const auto tc = Clock::now();
+        write_checkpoint(prior_elapsed_ + seconds_since(session_start));
+        const double write_time = seconds_since(tc);
+        checkpoint_seconds_ += write_time;
+        interval = std::max(o_.checkpoint_every, write_time / kMaxCheckpointShare);
+        last_checkpoint = Clock::now();
+        if (reason.empty() && o_.until_enabled()) {
+          summary.convergence = check_convergence();
+          summary.convergence_checked = true;
+          if (summary.convergence.converged) reason = "converged";
+        }
+      }
+      if (hooks_.progress) show_progress(progress, session_start, steps_at_start);
+    }
+    progress.finish();
+    if (o_.until_enabled() && !summary.convergence_checked && draws_ > 0) {
+      summary.convergence = check_convergence();
+      summary.convergence_checked = true;
+    }
+
+    summary.path = path_;
+    summary.chains = o_.chains;
+    summary.steps = steps_;
+    summary.session_steps = steps_ - steps_at_start;
+    summary.draws = draws_;
+    summary.checkpoints = checkpoints_;
+    summary.seconds = seconds_since(session_start);
+    summary.checkpoint_seconds = checkpoint_seconds_;
+    for (const auto& s : slots_) {
+      summary.counts += s->chain.counts();
+      summary.regenerations.push_back(s->regenerations);
+    }
+    summary.session_proposals = summary.counts.total_proposed() - at_start.total_proposed();
+    summary.stop_reason = reason;
+    return summary;
+  }
+
+ private:
+  void run_segment(std::uint64_t len) {
+    const std::uint64_t first = steps_ + 1, last = steps_ + len;
+    // Thinned rows kept in (first..last]: steps s > burn_in with s % thin == 0.
+    const std::uint64_t lo = std::max(first, o_.burn_in + 1);
+    const std::uint64_t rows = last >= lo ? last / o_.thin - (lo - 1) / o_.thin : 0;
+    tbb::parallel_for(std::size_t{0}, slots_.size(), [&](std::size_t c) {
+      Slot& s = *slots_[c];
+      auto& p = s.pending;
+      p.draws.reserve(p.draws.size() + rows * width_);
+      p.log_scores.reserve(p.log_scores.size() + rows);
+      p.draw_steps.reserve(p.draw_steps.size() + rows);
+      for (std::uint64_t step = first; step <= last; ++step) {
+        if (s.chain.step(s.rng)) {
+          p.regenerations.push_back(static_cast<std::int64_t>(step));
+          ++s.regenerations;
+        }
+        if (step % o_.thin == 0 && step > o_.burn_in) {
+          const std::size_t at = p.draws.size();
+          p.draws.resize(at + width_);
+          s.chain.write_parents(p.draws.data() + at);
+          p.log_scores.push_back(s.chain.log_score());
+          p.draw_steps.push_back(static_cast<std::int64_t>(step));
+        }
+      }
+    });
+  }
+
+  std::vector<chain_file::ChainBlock> blocks() {
+    std::vector<chain_file::ChainBlock> out;
+    for (auto& s : slots_) {
+      chain_file::ChainBlock b;
+      b.draws = std::move(s->pending.draws);
+      b.log_scores = std::move(s->pending.log_scores);
+      b.draw_steps = std::move(s->pending.draw_steps);
+      b.regenerations = std::move(s->pending.regenerations);
+      b.state.steps = steps_;
+      b.state.parents = s->chain.parents_words();
+      b.state.rng_state = save_stream(s->rng);
+      b.state.counts = s->chain.counts();
+      b.state.regenerations = s->regenerations;
+      out.push_back(std::move(b));
+    }
+    return out;
+  }
+
+  void clear_pending() {
+    for (auto& s : slots_) {
+      s->pending.draws.clear();
+      s->pending.log_scores.clear();
+      s->pending.draw_steps.clear();
+      s->pending.regenerations.clear();
+    }
+  }
+
+  std::size_t pending_bytes() const {
+    std::size_t b = 0;
+    for (const auto& s : slots_)
+      b += s->pending.draws.size() * 8 + s->pending.log_scores.size() * 16;
+    return b;
+  }
+
+  void write_checkpoint(double elapsed) {
+    auto b = blocks();
+    const std::uint64_t added = b.empty() ? 0 : b[0].log_scores.size();
+    chain_file::append_checkpoint(path_, b, steps_, elapsed,
+                                  session_recorded_ ? nullptr : &session_);
+    session_recorded_ = true;
+    draws_ += added;
+    ++checkpoints_;
+    clear_pending();
+  }
+
+  ConvergenceStatus check_convergence() {
+    const ChainRun run = ChainRun::open(path_);
+    return hooks_.convergence(run, o_.until_rhat > 0 ? o_.until_rhat : 1.01,
+                              o_.until_ess > 0 ? o_.until_ess : 400);
+  }
+
+  void show_progress(Progress& progress, Clock::time_point start, std::uint64_t steps_at_start) {
+    MoveCounts total;
+    std::uint64_t regen = 0;
+    for (const auto& s : slots_) {
+      total += s->chain.counts();
+      regen += s->regenerations;
+    }
+    const double rate =
+        double(steps_ - steps_at_start) * double(o_.chains) / std::max(seconds_since(start), 1e-9);
+    std::string status = human(rate) + " steps/s  accept";
+    for (int m = 0; m < kNumMoves; ++m)
+      if (total.proposed[m])
+        status +=
+            std::string(" ") + move_name(m) + " " + percent(total.accepted[m], total.proposed[m]);
+    if (o_.teleport_rate > 0 || o_.start == "exact")
+      status += "  regenerations " + std::to_string(regen);
+    status += "  step " + human(double(steps_));
+    progress.update(double(steps_), o_.steps > 0 ? double(o_.steps) : 0.0, status);
+  }
+
+  const ScoreTable& table_;
+  std::string path_;
+  ChainRunOptions o_;
+  ChainRunHooks hooks_;
+  ChainConfig config_;
+  std::size_t width_ = 0;
+  std::vector<std::unique_ptr<Slot>> slots_;
+  std::uint64_t steps_ = 0, draws_ = 0;
+  std::size_t checkpoints_ = 0;
+  double prior_elapsed_ = 0, checkpoint_seconds_ = 0;
+  nlohmann::json session_;
+  bool session_recorded_ = false;
+};
+
+}  // namespace
+
+nlohmann::json ChainRunOptions::fixed_to_json() const {
+  return {{"chains", chains},
+          {"thin", thin},
+          {"burn_in", burn_in},
+          {"seed", seed},
+          {"rev_rate", rev_rate},
+          {"teleport_rate", teleport_rate},
+          {"teleport_cover", teleport_cover},
+          {"cover_limit", cover_limit},
+          {"start", start},
+          {"steps", steps},
+          {"max_seconds", max_seconds},
+          {"until_rhat", until_rhat},
+          {"until_ess", until_ess},
+          {"checkpoint_every", checkpoint_every},
+          {"drop_hastings_for_testing", drop_hastings_for_testing}};
+}
+
+void ChainRunOptions::fixed_from_json(const nlohmann::json& s, const std::string& path) {
+  try {
+    chains = s.at("chains").get<int>();
+    thin = s.at("thin").get<std::uint64_t>();
+    burn_in = s.at("burn_in").get<std::uint64_t>();
+    seed = s.at("seed").get<std::uint64_t>();
+    rev_rate = s.at("rev_rate").get<double>();
+    teleport_rate = s.at("teleport_rate").get<double>();
+    teleport_cover = s.at("teleport_cover").get<int>();
+    cover_limit = s.at("cover_limit").get<int>();
+    start = s.at("start").get<std::string>();
+    drop_hastings_for_testing = s.value("drop_hastings_for_testing", 0u);
+  } catch (const nlohmann::json::exception& e) {
+    throw InputError(path + ": corrupt run options: " + e.what());
+  }
+}
+
+nlohmann::json ConvergenceStatus::to_json() const {
+  auto num = [](double x) {
+    return std::isfinite(x) ? nlohmann::json(x) : nlohmann::json(nullptr);
+  };
+  return {{"converged", converged}, {"max_rhat", num(max_rhat)}, {"min_ess", num(min_ess)},
+          {"features", features},   {"failing", failing},        {"undefined", undefined}};
+}
+
+nlohmann::json ChainRunSummary::to_json() const {
+  nlohmann::json acceptance = nlohmann::json::object(), proposals = nlohmann::json::object(),
+                 accepted = nlohmann::json::object();
+  for (int m = 0; m < kNumMoves; ++m) {
+    proposals[move_name(m)] = counts.proposed[m];
+    accepted[move_name(m)] = counts.accepted[m];
+    acceptance[move_name(m)] =
+        counts.proposed[m] ? nlohmann::json(double(counts.accepted[m]) / double(counts.proposed[m]))
+                           : nlohmann::json(nullptr);
+  }
+  std::uint64_t regen = 0;
+  for (auto r : regenerations) regen += r;
+  const int tel = int(Move::kTeleport);
+  nlohmann::json out = {
+      {"output", path},
+      {"chains", chains},
+      {"steps", steps},
+      {"session_steps", session_steps},
+      {"draws", draws},
+      {"checkpoints", checkpoints},
+      {"seconds", seconds},
+      {"checkpoint_seconds", checkpoint_seconds},
+      {"proposals_per_second", seconds > 0 ? double(session_proposals) / seconds : 0.0},
+      {"acceptance", acceptance},
+      {"proposals", proposals},
+      {"accepted", accepted},
+      {"teleport_acceptance", counts.proposed[tel] ? nlohmann::json(double(counts.accepted[tel]) /
+                                                                    double(counts.proposed[tel]))
+                                                   : nlohmann::json(nullptr)},
+      {"regenerations", regen},
+      {"regenerations_per_chain", regenerations},
+      {"stop_reason", stop_reason}};
+  if (convergence_checked) out["convergence"] = convergence.to_json();
+  return out;
+}
+
+ChainRunSummary run_chains(const ScoreTable& table, const std::string& path,
+                           const ChainRunOptions& options, const ChainRunHooks& hooks,
+                           bool resume) {
+  check_options(options, hooks, table, resume);
+  Runner runner(table, path, options, hooks);
+  if (resume)
+    runner.resume();
+  else
+    runner.start_new();
+  return runner.run();
+}
+
+double parse_duration(const std::string& text, const std::string& option) {
+  std::size_t used = 0;
+  double value = 0;
+  try {
+    value = std::stod(text, &used);
+  } catch (const std::exception&) {
+    used = 0;
+  }
+  const std::string unit = text.substr(used);
+  double scale = 0;
+  if (used > 0) {
+    if (unit.empty() || unit == "s")
+      scale = 1;
+    else if (unit == "m" || unit == "min")
+      scale = 60;
+    else if (unit == "h")
+      scale = 3600;
+    else if (unit == "d")
+      scale = 86400;
+  }
+  if (scale == 0 || !(value > 0) || !std::isfinite(value))
+    throw InputError(option + ": '" + text + "' is not a duration (examples: 90s, 10m, 2h, 1.5d)");
+  return value * scale;
+}
+
+std::vector<std::uint64_t> read_start_dag(const std::string& path, const ScoreTable& table) {
+  const int n = table.num_variables();
+  const int words = (n + 63) / 64;
+  std::vector<std::uint64_t> out(std::size_t(n) * words, 0);
+  for (const Edge& e : read_edge_file(path, table.variables()))
+    out[std::size_t(e.to) * words + (e.from >> 6)] |= std::uint64_t{1} << (e.from & 63);
+  return out;
+}
+
+}  // namespace covey

@@ -1,0 +1,644 @@
+#include "covey/structure_chain.hpp"
+
+#include <algorithm>
+#include <bit>
+#include <cmath>
+#include <numbers>
+
+#include "covey/error.hpp"
+
+namespace covey {
+namespace {
+
+constexpr double kLn2 = std::numbers::ln2;
+// Below this, a masked sum of precomputed weights exp(s - max_v) may have lost terms to
+// underflow; it is then recomputed with its own maximum as the scale (exact to double precision
+// either way: terms that underflow are below 1e-308, far under 1e-250 relative).
+constexpr long double kTinySum = 1e-250L;
+
+// Metropolis-Hastings acceptance with probability min(1, exp(log_ratio)). Certain acceptances
+// draw no random number.
+bool accept(Rng& rng, double log_ratio) {
+  if (log_ratio >= 0) return true;
+  return uniform01(rng) < std::exp(log_ratio);
+}
+
+std::uint64_t probability_threshold(double p) {
+  if (p <= 0) return 0;
+  if (p >= 1) return ~std::uint64_t{0};
+  return static_cast<std::uint64_t>(std::ldexp(p, 64));
+}
+
+}  // namespace
+
+const char* move_name(Move move) {
+  switch (move) {
+    case Move::kAdd:
+      return "add";
+    case Move::kDelete:
+      return "delete";
+    case Move::kReverse:
+      return "reverse";
+    case Move::kRev:
+      return "rev";
+    case Move::kTeleport:
+      return "teleport";
+  }
+  return "?";
+}
+
+std::uint64_t MoveCounts::total_proposed() const {
+  std::uint64_t t = 0;
+  for (auto p : proposed) t += p;
+  return t;
+}
+
+MoveCounts& MoveCounts::operator+=(const MoveCounts& other) {
+  for (int m = 0; m < kNumMoves; ++m) {
+    proposed[m] += other.proposed[m];
+    accepted[m] += other.accepted[m];
+  }
+  return *this;
+}
+
+double StructureChain::MaskedSum::log() const {
+  return total > 0 ? shift + static_cast<double>(std::log(total)) : -INFINITY;
+}
+
+StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& config)
+    : table_(&table), config_(config), n_(table.num_variables()), words_((n_ + 63) / 64) {
+  if (config.rev_rate < 0 || config.teleport_rate < 0 || config.rev_rate + config.teleport_rate > 1)
+    throw InputError("move rates: --rev-rate and --teleport-rate must be >= 0 with sum <= 1");
+  if (config.teleport_rate > 0 && !config.teleport)
+    throw InputError("--teleport-rate > 0 needs a teleport sampler (--teleport-cover)");
+  track_dag_ = n_ <= kMaxExactVariables;
+  if ((config.teleport || config.restriction) && !track_dag_)
+    throw InputError("teleports and --cover-limit support at most 64 variables; the table has " +
+                     std::to_string(n_));
+  rev_threshold_ = probability_threshold(config.rev_rate);
+  teleport_threshold_ = probability_threshold(config.rev_rate + config.teleport_rate);
+  mixed_kernels_ = config.rev_rate > 0 || config.teleport_rate > 0;
+
+  cand_.assign(std::size_t(n_) * kMaxCandidates, -1);
+  set_offset_.assign(std::size_t(n_) + 1, 0);
+  set_max_.assign(n_, 0);
+  for (int v = 0; v < n_; ++v) {
+    const auto cands = table.candidates(v);
+    for (std::size_t b = 0; b < cands.size(); ++b) {
+      cand_[std::size_t(v) * kMaxCandidates + b] = cands[b];
+      const int u = cands[b];
+      pairs_.push_back({u, v, static_cast<std::int8_t>(b),
+                        static_cast<std::int8_t>(table.candidate_position(u, v))});
+    }
+    set_offset_[v + 1] = set_offset_[v] + table.num_parent_sets(v);
+    const auto scores = table.log_scores(v);
+    set_max_[v] = *std::max_element(scores.begin(), scores.end());
+    for (double s : scores) set_weight_.push_back(std::exp(s - set_max_[v]));
+  }
+  local_.assign(n_, 0);
+  score_.assign(n_, 0);
+  anc_.assign(std::size_t(n_) * words_, 0);
+  list_.assign(n_, 0);
+  stack_.assign(n_, 0);
+  stack_rest_.assign(n_, 0);
+  mark_.assign(n_, 0);
+  bits_a_.assign(words_, 0);
+  bits_b_.assign(words_, 0);
+  bits_c_.assign(words_, 0);
+  bits_d_.assign(words_, 0);
+  if (track_dag_) dag_ = Dag(n_);
+  // Start at the empty graph when allowed; otherwise the caller must set a start state.
+  for (int v = 0; v < n_; ++v) score_[v] = table.log_score(v, 0);
+}
+
+bool StructureChain::empty_graph_allowed() const {
+  for (int v = 0; v < n_; ++v)
+    if (table_->find(v, 0) < 0) return false;
+  return true;
+}
+
+// ---- State -------------------------------------------------------------------------------
+
+void StructureChain::set_parents(std::span<const std::uint64_t> words, const std::string& what) {
+  if (words.size() != std::size_t(n_) * words_)
+    throw InputError(what + ": wrong number of parent words");
+  std::vector<ParentMask> local(n_, 0);
+  for (int v = 0; v < n_; ++v) {
+    for (int w = 0; w < words_; ++w) {
+      for (std::uint64_t m = words[std::size_t(v) * words_ + w]; m; m &= m - 1) {
+        const int u = w * 64 + std::countr_zero(m);
+        const int pos = u < n_ ? table_->candidate_position(v, u) : -1;
+        if (pos < 0)
+          throw InputError(what + ": edge " + (u < n_ ? table_->name(u) : std::to_string(u)) +
+                           " -> " + table_->name(v) + " is not allowed by the score table");
+        local[v] |= ParentMask{1} << pos;
+      }
+    }
+  }
+  load_state(local, what);
+}
+
+void StructureChain::set_dag(const Dag& dag, const std::string& what) {
+  if (dag.size() != n_ || n_ > 64) throw InputError(what + ": wrong number of variables");
+  std::vector<ParentMask> local(n_, 0);
+  for (int v = 0; v < n_; ++v)
+    if (!table_->to_local(v, dag.parents[v], local[v]))
+      throw InputError(what + ": a parent of " + table_->name(v) +
+                       " is not allowed by the score table");
+  load_state(local, what);
+}
+
+void StructureChain::load_state(const std::vector<ParentMask>& local, const std::string& what) {
+  std::vector<double> score(n_);
+  for (int v = 0; v < n_; ++v) {
+    const long idx = table_->find(v, local[v]);
+    if (idx < 0)
+      throw InputError(what + ": the parent set of " + table_->name(v) +
+                       " is not in the score table (max in-degree or background knowledge)");
+    score[v] = table_->log_scores(v)[idx];
+  }
+  const std::vector<ParentMask> old_local = local_;
+  local_ = local;
+  // Acyclicity: Kahn's algorithm over local masks.
+  {
+    std::vector<int> pending(n_, 0);
+    std::vector<std::vector<int>> children(n_);
+    for (int v = 0; v < n_; ++v)
+      for (ParentMask m = local_[v]; m; m &= m - 1) {
+        children[candidate(v, std::countr_zero(m))].push_back(v);
+        ++pending[v];
+      }
+    std::vector<int> ready;
+    for (int v = 0; v < n_; ++v)
+      if (!pending[v]) ready.push_back(v);
+    int placed = 0;
+    while (!ready.empty()) {
+      const int v = ready.back();
+      ready.pop_back();
+      ++placed;
+      for (int c : children[v])
+        if (--pending[c] == 0) ready.push_back(c);
+    }
+    if (placed != n_) {
+      local_ = old_local;
+      throw InputError(what + ": the graph has a directed cycle");
+    }
+  }
+  if (track_dag_) {
+    Dag next(n_);
+    for (int v = 0; v < n_; ++v) next.parents[v] = table_->to_global(v, local_[v]);
+    if (config_.restriction && !config_.restriction->contains(next)) {
+      local_ = old_local;
+      throw InputError(what + ": the DAG lies outside the class of --cover-limit");
+    }
+    dag_ = next;
+  }
+  score_ = score;
+  num_edges_ = 0;
+  for (ParentMask m : local_) num_edges_ += std::popcount(m);
+  rebuild_ancestors();
+}
+
+void StructureChain::rebuild_ancestors() {
+  for (int v = 0; v < n_; ++v) {
+    mark_[v] = 1;
+    list_[v] = v;
+  }
+  visit_marked_parents_first(n_, [&](int x) {
+    std::uint64_t* a = anc(x);
+    std::fill(a, a + words_, 0);
+    for (ParentMask m = local_[x]; m; m &= m - 1) {
+      const int p = candidate(x, std::countr_zero(m));
+      a[p >> 6] |= std::uint64_t{1} << (p & 63);
+      const std::uint64_t* ap = anc(p);
+      for (int w = 0; w < words_; ++w) a[w] |= ap[w];
+    }
+  });
+}
+
+template <class Visit>
+void StructureChain::visit_marked_parents_first(int count, Visit&& visit) {
+  // Iterative depth-first search over parents: a node is visited once all of its marked parents
+  // are (marks: 1 pending, 2 on the stack, 0 done or not in the set).
+  for (int i = 0; i < count; ++i) {
+    const int root = list_[i];
+    if (mark_[root] != 1) continue;
+    int top = 0;
+    stack_[0] = root;
+    stack_rest_[0] = local_[root];
+    mark_[root] = 2;
+    while (top >= 0) {
+      const int x = stack_[top];
+      ParentMask& rest = stack_rest_[top];
+      bool pushed = false;
+      while (rest) {
+        const int p = candidate(x, std::countr_zero(rest));
+        rest &= rest - 1;
+        if (mark_[p] == 1) {
+          mark_[p] = 2;
+          ++top;
+          stack_[top] = p;
+          stack_rest_[top] = local_[p];
+          pushed = true;
+          break;
+        }
+      }
+      if (pushed) continue;
+      visit(x);
+      mark_[x] = 0;
+      --top;
+    }
+  }
+}
+
+int StructureChain::mark_descendants(int root, bool include_root) {
+  int count = 0;
+  for (int w = 0; w < n_; ++w) {
+    if ((w == root && include_root) || test(anc(w), root)) {
+      mark_[w] = 1;
+      list_[count++] = w;
+    }
+  }
+  return count;
+}
+
+void StructureChain::recompute_ancestors_below(int root) {
+  // Only root and its descendants can have ancestor sets that depend on root's parents; their
+  // ancestor sets are rebuilt parents-first, the others are unchanged.
+  const int count = mark_descendants(root, true);
+  visit_marked_parents_first(count, [&](int x) {
+    std::uint64_t* a = anc(x);
+    std::fill(a, a + words_, 0);
+    for (ParentMask m = local_[x]; m; m &= m - 1) {
+      const int p = candidate(x, std::countr_zero(m));
+      a[p >> 6] |= std::uint64_t{1} << (p & 63);
+      const std::uint64_t* ap = anc(p);
+      for (int w = 0; w < words_; ++w) a[w] |= ap[w];
+    }
+  });
+}
+
+double StructureChain::log_score() const {
+  double total = 0;
+  for (int v = 0; v < n_; ++v) total += score_[v];
+  return total;
+}
+
+void StructureChain::write_parents(std::uint64_t* out) const {
+  std::fill(out, out + std::size_t(n_) * words_, 0);
+  for (int v = 0; v < n_; ++v)
+    for (ParentMask m = local_[v]; m; m &= m - 1) {
+      const int u = candidate(v, std::countr_zero(m));
+      out[std::size_t(v) * words_ + (u >> 6)] |= std::uint64_t{1} << (u & 63);
+    }
+}
+
+std::vector<std::uint64_t> StructureChain::parents_words() const {
+  std::vector<std::uint64_t> out(std::size_t(n_) * words_);
+  write_parents(out.data());
+  return out;
+}
+
+Dag StructureChain::dag() const {
+  if (n_ > 64) throw InputError("DAG export supports at most 64 variables");
+  Dag d(n_);
+  for (int v = 0; v < n_; ++v) d.parents[v] = table_->to_global(v, local_[v]);
+  return d;
+}
+
+bool StructureChain::has_edge(int from, int to) const {
+  const int pos = table_->candidate_position(to, from);
+  return pos >= 0 && ((local_[to] >> pos) & 1U);
+}
+
+bool StructureChain::in_restriction(const Dag& dag) const {
+  return !config_.restriction || config_.restriction->contains(dag);
+}
+
+bool StructureChain::check_invariants() const {
+  std::uint64_t edges = 0;
+  for (int v = 0; v < n_; ++v) {
+    edges += std::popcount(local_[v]);
+    if (table_->log_score(v, local_[v]) != score_[v]) return false;
+    if (track_dag_ && dag_.parents[v] != table_->to_global(v, local_[v])) return false;
+  }
+  if (edges != num_edges_) return false;
+  // Ancestors by fixpoint iteration (independent of the incremental updates).
+  std::vector<std::uint64_t> a(anc_.size(), 0);
+  for (bool changed = true; changed;) {
+    changed = false;
+    for (int v = 0; v < n_; ++v)
+      for (ParentMask m = local_[v]; m; m &= m - 1) {
+        const int p = candidate(v, std::countr_zero(m));
+        for (int w = 0; w < words_; ++w) {
+          std::uint64_t add = a[std::size_t(p) * words_ + w];
+          if (w == (p >> 6)) add |= std::uint64_t{1} << (p & 63);
+          std::uint64_t& dst = a[std::size_t(v) * words_ + w];
+          if ((dst | add) != dst) {
+            dst |= add;
+            changed = true;
+          }
+        }
+      }
+  }
+  for (int v = 0; v < n_; ++v)
+    if (test(&a[std::size_t(v) * words_], v)) return false;  // cycle
+  return a == anc_;
+}
+
+// ---- Steps -------------------------------------------------------------------------------
+
+bool StructureChain::step(Rng& rng) {
+  if (mixed_kernels_) {
+    const std::uint64_t r = rng();
+    if (r < rev_threshold_) {
+      rev_move(rng);
+      return false;
+    }
+    if (r < teleport_threshold_) return teleport(rng);
+  }
+  local_move(rng);
+  return false;
+}
+
+void StructureChain::local_move(Rng& rng) {
+  const std::uint64_t pick = uniform_below(rng, 2 * pairs_.size());
+  const Pair& pair = pairs_[pick >> 1];
+  const ParentMask bit = ParentMask{1} << pair.pos_in_to;
+  if (!(local_[pair.to] & bit))
+    propose_add(rng, pair.from, pair.to, bit);  // both coin sides: q(add) = 1/|P|
+  else if (pick & 1)
+    propose_delete(rng, pair.from, pair.to, bit);  // q(delete) = 1/(2|P|)
+  else
+    propose_reverse(rng, pair, bit);  // q(reverse) = 1/(2|P|) both ways
+}
+
+void StructureChain::propose_add(Rng& rng, int u, int v, ParentMask bit) {
+  ++counts_.proposed[int(Move::kAdd)];
+  if (test(anc(u), v)) return;  // v ~> u already: the edge would close a cycle
+  const ParentMask next = local_[v] | bit;
+  const long idx = table_->find(v, next);
+  if (idx < 0) return;
+  const double s = table_->log_scores(v)[idx];
+  // Hastings factor q(G'->G)/q(G->G') = (1/(2|P|)) / (1/|P|) = 1/2.
+  const double log_ratio = s - score_[v] - (dropped(Move::kAdd) ? 0.0 : kLn2);
+  if (!accept(rng, log_ratio)) return;
+  if (config_.restriction) {
+    dag_.add_edge(u, v);
+    if (!config_.restriction->contains(dag_)) {
+      dag_.remove_edge(u, v);
+      return;
+    }
+  } else if (track_dag_) {
+    dag_.add_edge(u, v);
+  }
+  ++counts_.accepted[int(Move::kAdd)];
+  local_[v] = next;
+  score_[v] = s;
+  ++num_edges_;
+  // New ancestors of v and of every descendant of v: u and u's ancestors.
+  const std::uint64_t* au = anc(u);
+  for (int w = 0; w < n_; ++w) {
+    if (w != v && !test(anc(w), v)) continue;
+    std::uint64_t* aw = anc(w);
+    for (int k = 0; k < words_; ++k) aw[k] |= au[k];
+    aw[u >> 6] |= std::uint64_t{1} << (u & 63);
+  }
+}
+
+void StructureChain::propose_delete(Rng& rng, int u, int v, ParentMask bit) {
+  ++counts_.proposed[int(Move::kDelete)];
+  const ParentMask next = local_[v] & ~bit;
+  const long idx = table_->find(v, next);
+  if (idx < 0) return;
+  const double s = table_->log_scores(v)[idx];
+  // Hastings factor (1/|P|) / (1/(2|P|)) = 2.
+  const double log_ratio = s - score_[v] + (dropped(Move::kDelete) ? 0.0 : kLn2);
+  if (!accept(rng, log_ratio)) return;
+  if (config_.restriction) {
+    dag_.remove_edge(u, v);
+    if (!config_.restriction->contains(dag_)) {
+      dag_.add_edge(u, v);
+      return;
+    }
+  } else if (track_dag_) {
+    dag_.remove_edge(u, v);
+  }
+  ++counts_.accepted[int(Move::kDelete)];
+  local_[v] = next;
+  score_[v] = s;
+  --num_edges_;
+  recompute_ancestors_below(v);
+}
+
+void StructureChain::propose_reverse(Rng& rng, const Pair& pair, ParentMask bit) {
+  ++counts_.proposed[int(Move::kReverse)];
+  const int u = pair.from, v = pair.to;
+  if (pair.pos_in_from < 0) return;  // v may never be a parent of u
+  // Reversing u -> v closes a cycle iff another path u ~> v exists, i.e. u is an ancestor of
+  // another parent of v.
+  for (ParentMask m = local_[v] & ~bit; m; m &= m - 1)
+    if (test(anc(candidate(v, std::countr_zero(m))), u)) return;
+  const ParentMask next_v = local_[v] & ~bit;
+  const ParentMask next_u = local_[u] | (ParentMask{1} << pair.pos_in_from);
+  const long idx_v = table_->find(v, next_v);
+  if (idx_v < 0) return;
+  const long idx_u = table_->find(u, next_u);
+  if (idx_u < 0) return;
+  const double s_v = table_->log_scores(v)[idx_v], s_u = table_->log_scores(u)[idx_u];
+  // Symmetric proposal: the reverse move picks (v, u) and tails with the same probability.
+  const double log_ratio = (s_v - score_[v]) + (s_u - score_[u]);
+  if (!accept(rng, log_ratio)) return;
+  if (track_dag_) {
+    dag_.remove_edge(u, v);
+    dag_.add_edge(v, u);
+    if (!in_restriction(dag_)) {
+      dag_.remove_edge(v, u);
+      dag_.add_edge(u, v);
+      return;
+    }
+  }
+  ++counts_.accepted[int(Move::kReverse)];
+  local_[v] = next_v;
+  local_[u] = next_u;
+  score_[v] = s_v;
+  score_[u] = s_u;
+  // Every node whose ancestors change (v, u and their descendants) is u or below u before the
+  // move: v was a descendant of u.
+  recompute_ancestors_below(u);
+}
+
+StructureChain::MaskedSum StructureChain::masked_sum(int v, ParentMask required,
+                                                     ParentMask forbidden) const {
+  const auto masks = table_->parent_sets(v);
+  const double* weight = &set_weight_[set_offset_[v]];
+  MaskedSum sum;
+  sum.shift = set_max_[v];
+  for (std::size_t k = 0; k < masks.size(); ++k)
+    if ((masks[k] & required) == required && !(masks[k] & forbidden)) sum.total += weight[k];
+  if (sum.total >= kTinySum) return sum;
+  // Tiny or zero: rescale by the largest allowed term so nothing underflows.
+  const auto scores = table_->log_scores(v);
+  double top = -INFINITY;
+  for (std::size_t k = 0; k < masks.size(); ++k)
+    if ((masks[k] & required) == required && !(masks[k] & forbidden))
+      top = std::max(top, scores[k]);
+  sum = MaskedSum{};
+  sum.exact = true;
+  if (top == -INFINITY) return sum;  // no allowed set
+  sum.shift = top;
+  for (std::size_t k = 0; k < masks.size(); ++k)
+    if ((masks[k] & required) == required && !(masks[k] & forbidden))
+      sum.total += std::exp(static_cast<long double>(scores[k] - top));
+  return sum;
+}
+
+ParentMask StructureChain::sample_masked(int v, ParentMask required, ParentMask forbidden,
+                                         const MaskedSum& sum, Rng& rng) const {
+  const auto masks = table_->parent_sets(v);
+  const auto scores = table_->log_scores(v);
+  const double* weight = &set_weight_[set_offset_[v]];
+  const long double target = static_cast<long double>(uniform01(rng)) * sum.total;
+  long double acc = 0;
+  ParentMask last = 0;
+  for (std::size_t k = 0; k < masks.size(); ++k) {
+    if ((masks[k] & required) != required || (masks[k] & forbidden)) continue;
+    acc += sum.exact ? std::exp(static_cast<long double>(scores[k] - sum.shift)) : weight[k];
+    last = masks[k];
+    if (acc > target) return masks[k];
+  }
+  return last;  // rounding at the very end of the cumulative sum
+}
+
+// REV (Grzegorczyk & Husmeier 2008). For the edge i -> j drawn uniformly among the N(G) edges:
+// G0 = G with all parents of i and j removed; draw i's new parents from
+//   f_i(S) / Z1 over S that contain j and no descendant of i in G0,
+// giving G+; then j's new parents from f_j(S) / Z2 over S with no descendant of j in G+. The
+// reverse move (edge j -> i of G') passes through the same G0. With p(G) proportional to w(G),
+// the f terms cancel and the acceptance ratio is
+//   N(G)/N(G') * Z1 * Z2 / (Z1' * Z2'),
+// with Z1' = sum of f_j(S) over S containing i and no descendant of j in G0, and Z2' = sum of
+// f_i(S) over S with no descendant of i in G'+. The descendant sets come from G's ancestor sets:
+//  - desc_G0(j) = desc_G(j) (i is not below j, and j's in-edges do not start paths from j);
+//  - desc_G0(i) = the nodes reachable from i by paths avoiding j (j lost its in-edges);
+//  - desc_G+(j) = desc_G0(j) + {i} + desc_G0(i) = desc_G(i) + {i} minus {j}, whatever the new
+//    parents of i are; and likewise desc_G'+(i) = desc_G(i) (the same set for the reverse move).
+// So all four sums are known before drawing, and G' is acyclic by construction.
+void StructureChain::rev_move(Rng& rng) {
+  ++counts_.proposed[int(Move::kRev)];
+  if (num_edges_ == 0) return;
+  // The k-th edge in the canonical order (child index, then candidate position): the choice
+  // depends on the state only, so a restored chain continues identically.
+  std::uint64_t k = uniform_below(rng, num_edges_);
+  int j = 0;
+  while (k >= std::uint64_t(std::popcount(local_[j]))) k -= std::popcount(local_[j++]);
+  ParentMask m = local_[j];
+  for (; k; --k) m &= m - 1;
+  const int bit_i_in_j = std::countr_zero(m);
+  const int i = candidate(j, bit_i_in_j);
+  const int pos_j_in_i = table_->candidate_position(i, j);
+  if (pos_j_in_i < 0) return;  // j may never be a parent of i: Z1 = 0
+
+  // desc_G(i) -> bits_a_, desc_G(j) -> bits_b_, desc_G0(i) -> bits_c_.
+  std::fill(bits_a_.begin(), bits_a_.end(), 0);
+  std::fill(bits_b_.begin(), bits_b_.end(), 0);
+  std::fill(bits_c_.begin(), bits_c_.end(), 0);
+  int count = 0;
+  for (int w = 0; w < n_; ++w) {
+    const std::uint64_t* aw = anc(w);
+    if (test(aw, i)) {
+      bits_a_[w >> 6] |= std::uint64_t{1} << (w & 63);
+      mark_[w] = 1;
+      list_[count++] = w;
+    }
+    if (test(aw, j)) bits_b_[w >> 6] |= std::uint64_t{1} << (w & 63);
+  }
+  visit_marked_parents_first(count, [&](int x) {
+    if (x == j) return;
+    for (ParentMask pm = local_[x]; pm; pm &= pm - 1) {
+      const int p = candidate(x, std::countr_zero(pm));
+      if (p == i || test(bits_c_.data(), p)) {
+        bits_c_[x >> 6] |= std::uint64_t{1} << (x & 63);
+        return;
+      }
+    }
+  });
+
+  // Constraint masks over the candidate lists of i and j.
+  ParentMask forbid_i_g0 = 0, forbid_i_all = 0, forbid_j_g0 = 0, forbid_j_plus = 0;
+  const int ci = static_cast<int>(table_->candidates(i).size());
+  for (int b = 0; b < ci; ++b) {
+    const int c = candidate(i, b);
+    if (test(bits_c_.data(), c)) forbid_i_g0 |= ParentMask{1} << b;
+    if (test(bits_a_.data(), c)) forbid_i_all |= ParentMask{1} << b;
+  }
+  const int cj = static_cast<int>(table_->candidates(j).size());
+  for (int b = 0; b < cj; ++b) {
+    const int c = candidate(j, b);
+    if (test(bits_b_.data(), c)) forbid_j_g0 |= ParentMask{1} << b;
+    if (c == i || test(bits_a_.data(), c)) forbid_j_plus |= ParentMask{1} << b;
+  }
+  const ParentMask need_j = ParentMask{1} << pos_j_in_i;  // in i's list
+  const ParentMask need_i = ParentMask{1} << bit_i_in_j;  // in j's list
+
+  const MaskedSum z1 = masked_sum(i, need_j, forbid_i_g0);
+  if (z1.total <= 0) return;
+  const MaskedSum z2 = masked_sum(j, 0, forbid_j_plus);
+  if (z2.total <= 0) return;
+  const MaskedSum z1r = masked_sum(j, need_i, forbid_j_g0);  // contains the current set of j
+  const MaskedSum z2r = masked_sum(i, 0, forbid_i_all);      // contains the current set of i
+  const ParentMask new_i = sample_masked(i, need_j, forbid_i_g0, z1, rng);
+  const ParentMask new_j = sample_masked(j, 0, forbid_j_plus, z2, rng);
+
+  const double s_i = table_->log_score(i, new_i), s_j = table_->log_score(j, new_j);
+  const std::uint64_t edges_after = num_edges_ - std::popcount(local_[i]) -
+                                    std::popcount(local_[j]) + std::popcount(new_i) +
+                                    std::popcount(new_j);
+  double log_ratio;
+  if (dropped(Move::kRev)) {
+    log_ratio = (s_i - score_[i]) + (s_j - score_[j]);
+  } else {
+    log_ratio = std::log(double(num_edges_)) - std::log(double(edges_after)) + z1.log() + z2.log() -
+                z1r.log() - z2r.log();
+  }
+  if (!accept(rng, log_ratio)) return;
+  if (track_dag_) {
+    const std::uint64_t old_i = dag_.parents[i], old_j = dag_.parents[j];
+    dag_.parents[i] = table_->to_global(i, new_i);
+    dag_.parents[j] = table_->to_global(j, new_j);
+    if (!in_restriction(dag_)) {
+      dag_.parents[i] = old_i;
+      dag_.parents[j] = old_j;
+      return;
+    }
+  }
+  ++counts_.accepted[int(Move::kRev)];
+  local_[i] = new_i;
+  local_[j] = new_j;
+  score_[i] = s_i;
+  score_[j] = s_j;
+  num_edges_ = edges_after;
+  // Affected: i, j and their descendants before and after, all among i and desc_G(i).
+  recompute_ancestors_below(i);
+}
+
+bool StructureChain::teleport(Rng& rng) {
+  ++counts_.proposed[int(Move::kTeleport)];
+  const TeleportSource& source = *config_.teleport;
+  const bool drop = dropped(Move::kTeleport);
+  // With proposal weights w_p = w the acceptance probability is 1[G in D_k]: decide before
+  // drawing, so a rejected teleport costs only the membership test.
+  if (!drop && !source.support().contains(dag_)) return false;
+  const Dag next = source.draw(rng);
+  if (drop) {
+    const double log_ratio = log_weight(*table_, next) - log_score();
+    if (!accept(rng, log_ratio) || !in_restriction(next)) return false;
+  }
+  std::vector<ParentMask> local(n_, 0);
+  for (int v = 0; v < n_; ++v) table_->to_local(v, next.parents[v], local[v]);
+  load_state(local, "teleport draw");
+  ++counts_.accepted[int(Move::kTeleport)];
+  return !drop;
+}
+
+}  // namespace covey

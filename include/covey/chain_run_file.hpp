@@ -1,0 +1,110 @@
+#pragma once
+// Reading chain-run files, the HDF5 traces of `covey chain -o RUN.h5` (layout in
+// docs/file-formats.md, "Chain runs"): one group per chain with the thinned DAGs (packed global
+// parent bitsets), their log scores and steps, the steps at which teleports regenerated the
+// chain, and a record of every checkpoint (chain state, random-stream state, move counts).
+//
+// A run file is always a complete checkpoint: each checkpoint writes a new file and renames it
+// over the old one, so a killed run leaves the file of its last checkpoint.
+#include <cstdint>
+#include <nlohmann/json.hpp>
+#include <span>
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "covey/score_table.hpp"
+#include "covey/structure_chain.hpp"
+
+namespace covey {
+
+inline constexpr const char* kChainRunFormat = "covey-chain-run";
+inline constexpr long long kChainRunFormatVersion = 1;
+
+// One chain at a checkpoint: everything needed to continue it bit for bit.
+struct ChainCheckpoint {
+  std::uint64_t steps = 0;
+  std::vector<std::uint64_t> parents;  // n * words_per_node global parent words
+  std::string rng_state;               // save_stream() text
+  MoveCounts counts;
+  std::uint64_t regenerations = 0;  // accepted teleports so far
+};
+
+class ChainRun {
+ public:
+  // Opens and validates a run file (InputError naming the file when it is not one or is
+  // corrupt). Reads the metadata and the last checkpoint's counts; the series are read on demand.
+  static ChainRun open(const std::string& path);
+
+  const std::string& path() const { return path_; }
+  int num_chains() const { return num_chains_; }
+  int num_variables() const { return static_cast<int>(variables_.size()); }
+  int words_per_node() const { return words_; }
+  const std::vector<std::string>& variables() const { return variables_; }
+  std::uint64_t table_fingerprint() const { return fingerprint_; }
+  // The run options as stored at creation (chains, thin, burn_in, seed, rates, ...).
+  const nlohmann::json& options() const { return options_; }
+  // Every root attribute (format, version, command_line, covey_version, sessions, ...).
+  const nlohmann::json& attributes() const { return attributes_; }
+
+  std::uint64_t steps() const { return steps_; }          // steps per chain so far
+  std::uint64_t num_draws() const { return num_draws_; }  // thinned draws per chain
+  std::size_t num_checkpoints() const { return num_checkpoints_; }
+  double elapsed_seconds() const { return elapsed_seconds_; }  // summed over sessions
+
+  // Thinned DAGs of one chain: num_draws() rows of n * words_per_node() words (node-major; bit u
+  // of node v's words is the edge u -> v).
+  std::vector<std::uint64_t> draws(int chain) const;
+  std::vector<double> log_scores(int chain) const;
+  std::vector<std::int64_t> draw_steps(int chain) const;
+  // Steps after which an accepted teleport had made the state an exact draw from D_k (step 0:
+  // the chain started from an exact draw). Tours between them are i.i.d.
+  std::vector<std::int64_t> regenerations(int chain) const;
+  ChainCheckpoint checkpoint(int chain) const;  // the last one
+  MoveCounts move_counts(int chain) const { return checkpoint(chain).counts; }
+
+  // Throws InputError unless the run was made from this table (fingerprint and names).
+  void check_table(const ScoreTable& table) const;
+
+ private:
+  void check_chain(int chain) const;
+
+  std::string path_;
+  int num_chains_ = 0;
+  int words_ = 0;
+  std::vector<std::string> variables_;
+  std::uint64_t fingerprint_ = 0;
+  nlohmann::json options_, attributes_;
+  std::uint64_t steps_ = 0, num_draws_ = 0;
+  std::size_t num_checkpoints_ = 0;
+  double elapsed_seconds_ = 0;
+};
+
+// Graph features of all chains' thinned draws as indicator series, in the chains x draws
+// chain-major layout of the diagnostics (draw t of chain c at [c * iterations + t]). Holds the
+// packed draws in memory; the accessors are const and safe to call from several threads.
+class RunFeatures {
+ public:
+  explicit RunFeatures(const ChainRun& run);
+
+  int chains() const { return chains_; }
+  int iterations() const { return static_cast<int>(iterations_); }
+  int num_variables() const { return n_; }
+  // Directed edges present in at least one draw, ascending by (from, to). Edges never present
+  // are constant 0 in every chain.
+  std::vector<std::pair<int, int>> edges_seen() const;
+  void edge(int from, int to, std::span<double> out) const;   // 1 when from -> to
+  void adjacency(int a, int b, std::span<double> out) const;  // 1 when a -> b or b -> a
+  void log_score(std::span<double> out) const;
+
+ private:
+  bool has_edge(std::size_t row, int from, int to) const {
+    return (rows_[row * stride_ + std::size_t(to) * words_ + (from >> 6)] >> (from & 63)) & 1U;
+  }
+  int chains_ = 0, n_ = 0, words_ = 0;
+  std::size_t iterations_ = 0, stride_ = 0;
+  std::vector<std::uint64_t> rows_;  // all chains' draws, chain-major
+  std::vector<double> log_scores_;
+};
+
+}  // namespace covey

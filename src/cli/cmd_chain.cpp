@@ -1,0 +1,221 @@
+// `covey chain`: the hybrid structure MCMC (local moves, REV, teleports from the exact
+// cover-bounded sampler), several chains in parallel, traces in one HDF5 run file with
+// checkpoints and bit-for-bit resume (docs/chains.md, docs/file-formats.md "Chain runs").
+#include <csignal>
+#include <cstdio>
+#include <iostream>
+#include <utility>
+
+#include "command.hpp"
+#include "common.hpp"
+#include "covey/chain_runner.hpp"
+#include "covey/chain_support.hpp"
+#include "covey/error.hpp"
+#include "covey/score_io.hpp"
+
+namespace covey::cli {
+namespace {
+
+struct ChainArgs {
+  std::string scores, output;
+  int chains = 4;
+  std::string steps, thin = "1000", burn_in = "0";
+  std::uint64_t seed = 1;
+  int threads = 0;
+  int teleport_cover = -1;
+  double teleport_rate = -1;  // -1: 0.01 with --teleport-cover, else 0
+  double rev_rate = 1.0 / 15;
+  int cover_limit = -1;
+  std::string start;  // default: exact with --teleport-cover, else empty
+  std::string checkpoint_every = "5m";
+  std::string max_time;
+  double until_rhat = 0, until_ess = 0;
+  std::string sampler;  // saved cover sampler for --teleport-cover
+  bool resume = false, json = false;
+};
+
+std::atomic<int> g_stop_signal{0};
+extern "C" void on_stop_signal(int signo) {
+  g_stop_signal.store(signo);
+}
+
+// Installs SIGINT/SIGTERM handlers for the run and restores the previous ones afterwards.
+class StopSignals {
+ public:
+  StopSignals() {
+    struct sigaction sa {};
+    sa.sa_handler = on_stop_signal;
+    sigemptyset(&sa.sa_mask);
+    sigaction(SIGINT, &sa, &old_int_);
+    sigaction(SIGTERM, &sa, &old_term_);
+  }
+  ~StopSignals() {
+    sigaction(SIGINT, &old_int_, nullptr);
+    sigaction(SIGTERM, &old_term_, nullptr);
+  }
+
+ private:
+  struct sigaction old_int_ {
+  }, old_term_{};
+};
+
+// A count as users type it: 1000000, 1e6, 2.5e7 (must be a whole number).
+std::uint64_t parse_count(const std::string& text, const std::string& option) {
+  std::size_t used = 0;
+  double value = -1;
+  try {
+    value = std::stod(text, &used);
+  } catch (const std::exception&) {
+    used = 0;
+  }
+  if (used != text.size() || !(value >= 0) || value > 1e19 || value != std::floor(value))
+    throw InputError(option + ": '" + text +
+                     "' is not a whole number of steps (e.g. 1000000 or 1e6)");
+  return static_cast<std::uint64_t>(value);
+}
+
+const std::pair<const char*, const char*> kFixedOptions[] = {{"--chains", "chains"},
+                                                             {"--thin", "thin"},
+                                                             {"--burn-in", "burn_in"},
+                                                             {"--seed", "seed"},
+                                                             {"--teleport-cover", "teleport_cover"},
+                                                             {"--teleport-rate", "teleport_rate"},
+                                                             {"--rev-rate", "rev_rate"},
+                                                             {"--cover-limit", "cover_limit"},
+                                                             {"--start", "start"}};
+
+void print_text(const ChainRunSummary& s) {
+  const nlohmann::json j = s.to_json();
+  char line[256];
+  std::snprintf(line, sizeof line,
+                "%s: %d chains, %llu steps each (%llu this session, %.1f s, %.3g proposals/s)\n",
+                s.path.c_str(), s.chains, (unsigned long long)s.steps,
+                (unsigned long long)s.session_steps, s.seconds,
+                j["proposals_per_second"].get<double>());
+  std::cout << line;
+  std::cout << "draws per chain: " << s.draws << ", checkpoints: " << s.checkpoints
+            << ", stopped by: " << s.stop_reason << "\n";
+  std::cout << "acceptance:";
+  for (int m = 0; m < kNumMoves; ++m) {
+    if (!s.counts.proposed[m]) continue;
+    std::snprintf(line, sizeof line, " %s %.2f%% (%llu)", move_name(m),
+                  100.0 * double(s.counts.accepted[m]) / double(s.counts.proposed[m]),
+                  (unsigned long long)s.counts.proposed[m]);
+    std::cout << line;
+  }
+  std::cout << "\n";
+  if (s.counts.proposed[int(Move::kTeleport)] || j["regenerations"].get<std::uint64_t>())
+    std::cout << "regenerations: " << j["regenerations"].get<std::uint64_t>() << "\n";
+  if (s.convergence_checked) {
+    const auto& c = s.convergence;
+    std::snprintf(line, sizeof line,
+                  "convergence: %s (%zu edge features, max R-hat %.4f, min ESS %.0f)\n",
+                  c.converged ? "reached" : "not reached", c.features, c.max_rhat, c.min_ess);
+    std::cout << line;
+  }
+}
+
+// The options fixed at creation, as given on the command line.
+ChainRunOptions fixed_options_of(const ChainArgs& a) {
+  ChainRunOptions o;
+  o.chains = a.chains;
+  o.thin = parse_count(a.thin, "--thin");
+  o.burn_in = parse_count(a.burn_in, "--burn-in");
+  o.seed = a.seed;
+  o.teleport_cover = a.teleport_cover;
+  o.teleport_rate = a.teleport_rate >= 0 ? a.teleport_rate : (a.teleport_cover >= 0 ? 0.01 : 0.0);
+  o.rev_rate = a.rev_rate;
+  o.cover_limit = a.cover_limit;
+  o.start = !a.start.empty() ? a.start : (a.teleport_cover >= 0 ? "exact" : "empty");
+  return o;
+}
+
+void run_chain_command(CLI::App* cmd, const ChainArgs& a) {
+  ChainRunOptions o = fixed_options_of(a);
+  if (a.resume) {
+    // The run keeps the options it was created with; repeating them is fine, changing is not.
+    const ChainRunOptions given = o;
+    o.fixed_from_json(ChainRun::open(a.output).options(), a.output);
+    const nlohmann::json stored_json = o.fixed_to_json(), given_json = given.fixed_to_json();
+    for (const auto& [flag, key] : kFixedOptions)
+      if (cmd->count(flag) && stored_json[key] != given_json[key])
+        throw InputError(std::string(flag) +
+                         " cannot be changed on --resume (the run was created "
+                         "with " +
+                         stored_json[key].dump() + ")");
+  }
+  if (!a.steps.empty()) o.steps = parse_count(a.steps, "--steps");
+  if (!a.max_time.empty()) o.max_seconds = parse_duration(a.max_time, "--max-time");
+  o.checkpoint_every =
+      a.checkpoint_every == "0" ? 0.0 : parse_duration(a.checkpoint_every, "--checkpoint-every");
+  o.until_rhat = a.until_rhat;
+  o.until_ess = a.until_ess;
+  const auto thread_limit = apply_threads(a.threads);
+  const ScoreTable table = load_scores(a.scores);
+  ChainSupport support(table, o, a.sampler);
+  ChainRunHooks hooks = support.hooks();
+  hooks.stop_signal = &g_stop_signal;
+  hooks.command_line = command_line();
+  ChainRunSummary summary;
+  {
+    g_stop_signal.store(0);
+    StopSignals signals;
+    summary = run_chains(table, a.output, o, hooks, a.resume);
+  }
+  if (summary.stop_reason == "signal")
+    std::cerr << "covey chain: stopped by "
+              << (summary.stop_signal == SIGINT ? "SIGINT" : "SIGTERM") << " at step "
+              << summary.steps << "; checkpoint written to " << a.output
+              << " (continue with --resume)\n";
+  if (a.json)
+    print_json(summary.to_json());
+  else
+    print_text(summary);
+}
+
+void setup_chain(CLI::App& app) {
+  auto* cmd = app.add_subcommand(
+      "chain",
+      "Hybrid structure MCMC: chains of local moves, REV and teleports from the exact "
+      "cover-bounded sampler, written to an HDF5 run file with checkpoints and resume");
+  auto a = std::make_shared<ChainArgs>();
+  cmd->add_option("SCORES", a->scores, "score table (HDF5 or .tsv)")->required();
+  cmd->add_option("-o,--output", a->output, "HDF5 run file to create (or continue with --resume)")
+      ->required();
+  cmd->add_option("--chains", a->chains, "number of chains (default 4)");
+  cmd->add_option("--steps", a->steps,
+                  "total steps per chain (e.g. 1e7); on --resume, the new total");
+  cmd->add_option("--thin", a->thin, "keep every t-th state (default 1000)");
+  cmd->add_option("--burn-in", a->burn_in, "steps discarded at the start (default 0)");
+  cmd->add_option("--seed", a->seed, "seed; chain c uses stream (seed, c) (default 1)");
+  add_threads_option(*cmd, a->threads);
+  cmd->add_option("--teleport-cover", a->teleport_cover,
+                  "k: teleport from the exact sampler of the cover-bounded class D_k");
+  cmd->add_option("--teleport-rate", a->teleport_rate,
+                  "teleport probability per step (default 0.01 with --teleport-cover)");
+  cmd->add_option("--teleport-sampler", a->sampler,
+                  "load the D_k sampler from FILE (saved by `covey cover`) instead of building it");
+  cmd->add_option("--rev-rate", a->rev_rate,
+                  "probability per step of a REV move, the edge reversal with parent resampling "
+                  "(default 1/15)");
+  cmd->add_option("--cover-limit", a->cover_limit,
+                  "k': restrict the target to the cover-bounded class D_k' (k' >= k)");
+  cmd->add_option("--start", a->start,
+                  "empty, exact (a D_k draw per chain; default with --teleport-cover) or a DAG "
+                  "FILE of from<TAB>to edge lines");
+  cmd->add_option("--checkpoint-every", a->checkpoint_every,
+                  "time between checkpoints, e.g. 90s, 10m (default 5m)");
+  cmd->add_flag("--resume", a->resume, "continue the run in -o FILE from its last checkpoint");
+  cmd->add_option("--until-rhat", a->until_rhat,
+                  "stop when every edge feature has R-hat below R (default 1.01 with --until-ess)");
+  cmd->add_option("--until-ess", a->until_ess,
+                  "... and bulk and tail ESS above E (default 400 with --until-rhat)");
+  cmd->add_option("--max-time", a->max_time, "stop after this wall time, e.g. 90s, 10m, 2h");
+  cmd->add_flag("--json", a->json, "print the summary as JSON");
+  cmd->callback([cmd, a] { run_chain_command(cmd, *a); });
+}
+
+const Registration chain_registration(50, setup_chain);
+
+}  // namespace
+}  // namespace covey::cli
