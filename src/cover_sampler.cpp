@@ -10,6 +10,7 @@
 #include <bit>
 #include <cmath>
 #include <cstdio>
+#include <limits>
 #include <numeric>
 #include <string>
 
@@ -34,7 +35,8 @@ UnitLayout UnitLayout::of(int m, int num_outside) {
   l.link_parent = l.leaf + no * p;
   l.inner = l.link_parent + no * m * p;
   l.final = l.inner + m * p;
-  l.total = l.final + s;
+  l.step_scale = l.final + s;
+  l.total = l.step_scale + no;
   return l;
 }
 
@@ -167,6 +169,7 @@ double build_unit(const CoverLocalScores& local, const UnitGeometry& g,
     }
     const Real top = *std::max_element(nxt, nxt + S);
     if (top == 0) return -INFINITY;
+    arena[lay.step_scale + i] = top;
     const Real inv = 1 / top;
     for (std::size_t s = 0; s < S; ++s) nxt[s] *= inv;
     log_scale += std::log(top);
@@ -403,7 +406,9 @@ int CoverSampler::num_variables() const {
   return impl_->n;
 }
 std::size_t CoverSampler::num_splits() const {
-  return static_cast<std::size_t>(count_candidate_splits(impl_->n, impl_->k));
+  const double count = count_candidate_splits(impl_->n, impl_->k);
+  return count >= 1.8e19 ? std::numeric_limits<std::size_t>::max()
+                         : static_cast<std::size_t>(count);
 }
 std::size_t CoverSampler::num_cover_sets() const {
   return impl_->covers.size();

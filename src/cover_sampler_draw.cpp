@@ -124,60 +124,49 @@ Dag SamplerData::draw_in_unit(std::size_t unit, Rng& rng) const {
                  [&](int t, unsigned q) { dag.parents[g.vertex[t]] = g.global(q); });
   }
 
-  Real sums[kMaxSubsets];
+  const Real* step_scale = base + lay.step_scale;
   for (int i = no - 1; i >= 0; --i) {
     const Real* prev = F + std::size_t(i) * S;
     const Real* lw = leaf + (std::size_t(i) << m);
     const int u = outside[i];
-    // Sum of prev over the states N with N_out \ z within N within N_out.
-    auto prev_sum = [&](unsigned t_prev, unsigned z) {
-      Real sum = 0;
-      const unsigned fixed = N & ~z;
-      for (unsigned x = z;; x = (x - 1) & z) {
-        sum += prev[t_prev | ((fixed | x) << m)];
-        if (x == 0) break;
-      }
-      return sum;
-    };
-    auto transition = [&](unsigned a, unsigned z) {
-      return a == 0 ? lw[z] : H[((std::size_t(i) * P + a) << m) | z];
-    };
-    // Which kind of vertex u is: a leaf (a = 0) or a link to the members a.
-    for (unsigned a = T;; a = (a - 1) & T) {
-      Real sum = 0;
-      for (unsigned z = N;; z = (z - 1) & N) {
-        const Real w = transition(a, z);
-        if (w != 0) sum += w * prev_sum(T & ~a, z);
-        if (z == 0) break;
-      }
-      sums[a] = sum;
-      if (a == 0) break;
-    }
-    sc.weights.clear();
-    sc.codes.clear();
-    for (unsigned a = T;; a = (a - 1) & T) {
-      sc.weights.push_back(sums[a]);
-      sc.codes.push_back(a);
-      if (a == 0) break;
-    }
-    const unsigned a = sc.codes[pick_index(sc.weights.data(), sc.weights.size(), rng)];
-    // Then the covered set z it adds and the previous covered set.
-    sc.weights.clear();
-    sc.codes.clear();
-    const unsigned t_prev = T & ~a;
-    for (unsigned z = N;; z = (z - 1) & N) {
-      const Real w = transition(a, z);
-      if (w != 0)
-        for (unsigned x = z;; x = (x - 1) & z) {
-          sc.weights.push_back(w * prev[t_prev | (((N & ~z) | x) << m)]);
-          sc.codes.push_back(z | (x << m));
-          if (x == 0) break;
+    // The predecessors of state (T, N): u is a leaf (a = 0) or a link to the members a within
+    // T, adding the covered set z within N, from a covered set (N \ z) + x with x within z.
+    // Their weights sum to F_{i+1}(T, N) times the factor it was divided by, so one scan in a
+    // fixed order (leaves first, the usual case) can stop at the chosen option.
+    const Real total = F[std::size_t(i + 1) * S + (T | (N << m))] * step_scale[i];
+    Real r = static_cast<Real>(uniform01(rng)) * total;
+    unsigned a = 0, z = 0, n_prev = 0;
+    bool found = false, any = false;
+    for (unsigned a_try = 0;;) {
+      const Real* row = a_try == 0 ? lw : H + ((std::size_t(i) * P + a_try) << m);
+      const unsigned t_prev = T & ~a_try;
+      for (unsigned z_try = N;; z_try = (z_try - 1) & N) {
+        const Real w = row[z_try];
+        if (w != 0) {
+          const unsigned fixed = N & ~z_try;
+          for (unsigned x = z_try;; x = (x - 1) & z_try) {
+            const Real option = w * prev[t_prev | ((fixed | x) << m)];
+            if (option > 0) {
+              a = a_try, z = z_try, n_prev = fixed | x, any = true;  // last positive so far
+              if (r < option) {
+                found = true;
+                break;
+              }
+              r -= option;
+            }
+            if (x == 0) break;
+          }
         }
-      if (z == 0) break;
+        if (found || z_try == 0) break;
+      }
+      if (found) break;
+      // next nonempty submask of T in increasing order
+      a_try = (a_try - T) & T;
+      if (a_try == 0) break;
     }
-    const unsigned code = sc.codes[pick_index(sc.weights.data(), sc.weights.size(), rng)];
-    const unsigned z = code & full, kept = code >> m;
-    const unsigned n_prev = (N & ~z) | kept;
+    // Rounding may leave r just past the last option: it is then the one taken.
+    if (!any) throw std::logic_error("cover sampler: a draw reached a state of weight 0");
+    const unsigned t_prev = T & ~a;
 
     if (a == 0) {
       dag.parents[u] = g.global(z);

@@ -20,6 +20,7 @@ struct UnitLayout {
   std::size_t link_parent;  // f_c(Q + u) per (outside vertex, position), P each (Q before c)
   std::size_t inner;        // f_c(Q) per position, with the order constraint applied
   std::size_t final;        // R[T, N]: weight of the non-link members' sets completing the cover
+  std::size_t step_scale;   // per outside vertex: the factor F_{i+1} was divided by
   std::size_t total;
   static UnitLayout of(int m, int num_outside);
 };

@@ -43,7 +43,7 @@ void run_draw(const DrawOptions& o) {
   }
   if (!o.save_sampler.empty()) sampler.save(o.save_sampler);
 
-  const CoverDrawBatch batch = draw_cover_batch(sampler, o.seed, o.count);
+  CoverDrawBatch batch = draw_cover_batch(sampler, o.seed, o.count);
   const auto estimate = estimate_log_total_weight(sampler.log_upper_bound(), o.count, batch.trials);
   const auto edges = edge_frequencies(batch.dags, table.num_variables());
   const double acceptance = double(o.count) / double(batch.trials);
@@ -59,8 +59,8 @@ void run_draw(const DrawOptions& o) {
     file.table_fingerprint = table.fingerprint();
     file.command_line = command_line();
     file.covey_version = kVersion;
-    file.dags = batch.dags;
     for (const Dag& d : batch.dags) file.log_weights.push_back(log_weight(table, d));
+    file.dags = std::move(batch.dags);  // not needed below: the edges are counted already
     write_cover_draws(o.output, file);
   }
 
