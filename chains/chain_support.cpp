@@ -2,6 +2,8 @@
 
 #include <cmath>
 
+#include "covey/cover_class.hpp"
+#include "covey/cover_sampler.hpp"
 #include "covey/diagnostics.hpp"
 #include "covey/error.hpp"
 
@@ -30,17 +32,64 @@ ConvergenceStatus edge_convergence(const ChainRun& run, double max_rhat, double 
   return status;
 }
 
-struct ChainSupport::Impl {
-  ChainRunHooks hooks;
+namespace {
+
+// D_k as a chain restriction or a teleport's support: exact membership by the bounded search
+// tree for a vertex cover of the moral graph.
+class CoverBoundedClass : public DagClass {
+ public:
+  explicit CoverBoundedClass(int k) : k_(k) {}
+  bool contains(const Dag& dag) const override { return in_cover_class(dag, k_); }
+
+ private:
+  int k_;
 };
 
-ChainSupport::ChainSupport(const ScoreTable& /*table*/, const ChainRunOptions& options,
-                           const std::string& /*sampler_path*/)
+// Teleport proposals: exact draws from w restricted to D_k (so w_p = w and a teleport is
+// accepted exactly when the current state lies in D_k).
+class CoverTeleport : public TeleportSource {
+ public:
+  explicit CoverTeleport(CoverSampler sampler)
+      : sampler_(std::move(sampler)), support_(sampler_.cover_bound()) {}
+  const DagClass& support() const override { return support_; }
+  Dag draw(Rng& rng) const override { return sampler_.draw(rng); }
+
+ private:
+  CoverSampler sampler_;
+  CoverBoundedClass support_;
+};
+
+}  // namespace
+
+struct ChainSupport::Impl {
+  ChainRunHooks hooks;
+  std::unique_ptr<CoverTeleport> teleport;
+  std::unique_ptr<CoverBoundedClass> restriction;
+};
+
+ChainSupport::ChainSupport(const ScoreTable& table, const ChainRunOptions& options,
+                           const std::string& sampler_path)
     : impl_(std::make_unique<Impl>()) {
-  // Teleports, --cover-limit and the convergence rule come from the cover and diagnostics
-  // modules, wired here once they are part of the build.
-  if (options.teleport_cover >= 0 || options.cover_limit >= 0)
-    throw InputError("--teleport-cover and --cover-limit need the cover-bounded sampler module");
+  if (options.teleport_cover >= 0 && options.cover_limit >= 0 &&
+      options.cover_limit < options.teleport_cover)
+    throw InputError("--cover-limit " + std::to_string(options.cover_limit) +
+                     " must be at least --teleport-cover " +
+                     std::to_string(options.teleport_cover) +
+                     " (teleports draw from D_k, which must lie inside the target class)");
+  if (options.teleport_cover >= 0) {
+    CoverSampler sampler = sampler_path.empty() ? CoverSampler::build(table, options.teleport_cover)
+                                                : CoverSampler::load(sampler_path, table);
+    if (sampler.cover_bound() != options.teleport_cover)
+      throw InputError(sampler_path + ": the saved sampler is for cover bound " +
+                       std::to_string(sampler.cover_bound()) + ", not --teleport-cover " +
+                       std::to_string(options.teleport_cover));
+    impl_->teleport = std::make_unique<CoverTeleport>(std::move(sampler));
+    impl_->hooks.teleport = impl_->teleport.get();
+  }
+  if (options.cover_limit >= 0) {
+    impl_->restriction = std::make_unique<CoverBoundedClass>(options.cover_limit);
+    impl_->hooks.restriction = impl_->restriction.get();
+  }
   if (options.until_enabled()) impl_->hooks.convergence = edge_convergence;
 }
 
