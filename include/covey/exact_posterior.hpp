@@ -13,6 +13,7 @@
 // estimates (ResourceError), never left to hang or to exhaust memory.
 #include <cstddef>
 #include <cstdint>
+#include <functional>
 #include <memory>
 #include <string>
 #include <vector>
@@ -104,5 +105,33 @@ class ExactEngine {
 // log Z by the sink recurrence alone (O(3^n) time, O(n 2^n) memory); `clamped` counts negative
 // intermediate sums. A cross-check of the layered route, and log Z for larger tables.
 double exact_log_total_weight_signed(const ScoreTable& table, long long* clamped = nullptr);
+
+}  // namespace covey
+
+namespace covey {
+
+// ---- Posterior mass of a class of DAGs (DESIGN section 9) ----
+
+struct ClassMass {
+  double estimate = 0;     // P(class | data) under the posterior over all DAGs of the table
+  double lo = 0, hi = 0;   // 95% interval (Wilson for draws; the estimate itself when exact)
+  std::string method;      // "enumeration" or "exact-draws"
+  std::size_t draws = 0;   // draws used (exact-draws)
+  std::size_t inside = 0;  // of which inside the class
+};
+
+using DagPredicate = std::function<bool(const Dag&)>;
+
+// Exact, by enumerating every DAG of the table (n <= 8; InputError above).
+ClassMass class_mass_by_enumeration(const ScoreTable& table, const DagPredicate& inside);
+// Estimated from exact independent draws, with the Wilson 95% interval.
+ClassMass class_mass_from_draws(const std::vector<Dag>& draws, const DagPredicate& inside);
+
+// The mass of the cover-bounded class D_k (membership by in_cover_class): by enumeration for
+// n <= kCoverMassEnumerationMax, else from `draws` (exact draws of this table).
+inline constexpr int kCoverMassEnumerationMax = 6;
+ClassMass cover_class_mass(const ScoreTable& table, int k, const std::vector<Dag>& draws);
+// Whether this build holds the cover-class module (see src/exact_class_mass.cpp).
+bool cover_class_available();
 
 }  // namespace covey

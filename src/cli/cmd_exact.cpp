@@ -4,6 +4,7 @@
 #include <cmath>
 #include <cstdio>
 #include <iostream>
+#include <optional>
 
 #include "command.hpp"
 #include "common.hpp"
@@ -27,6 +28,8 @@ struct ExactArgs {
   double max_memory_gib = 0;  // 0: half the physical memory
   double max_seconds = 3600;
   int top = 10;
+  int cover = -1;  // -1: no cover bound
+  std::size_t cover_draws = 10000;
 };
 
 struct Feature {
@@ -94,18 +97,30 @@ void run_exact(const ExactArgs& a) {
     throw InputError("--draws needs -o/--output, the HDF5 file to write the draws to");
   if (!a.output.empty() && a.draws == 0)
     throw InputError("-o/--output needs --draws N, the number of exact draws to write");
+  if (a.cover >= 0 && !cover_class_available())
+    throw Error("--cover: this covey build lacks the cover-class module (in_cover_class)");
   ExactOptions options;
   options.route = exact_route_from_string(a.route);
   options.limits = limits_of(a);
-  options.draws = a.draws > 0;
   const auto thread_limit = apply_threads(a.threads);
 
   const ScoreTable table = load_scores(a.scores);
+  // The mass of D_k is enumerated for small n and otherwise estimated from exact draws: the
+  // written ones, or --cover-draws of them when none are written.
+  const bool cover_from_draws = a.cover >= 0 && table.num_variables() > kCoverMassEnumerationMax;
+  options.draws = a.draws > 0 || cover_from_draws;
   const ExactEngine engine(table, options);
   const ExactPosterior& post = engine.posterior();
 
+  std::vector<Dag> dags;
+  if (a.draws > 0)
+    dags = engine.draw_many(a.draws, a.seed);
+  else if (cover_from_draws)
+    dags = engine.draw_many(a.cover_draws, a.seed);
+  std::optional<ClassMass> cover_mass;
+  if (a.cover >= 0) cover_mass = cover_class_mass(table, a.cover, dags);
+
   if (a.draws > 0) {
-    const std::vector<Dag> dags = engine.draw_many(a.draws, a.seed);
     std::vector<double> log_weights;
     log_weights.reserve(dags.size());
     for (const Dag& d : dags) log_weights.push_back(log_weight(table, d));
@@ -140,6 +155,22 @@ void run_exact(const ExactArgs& a) {
       out["draws"] = {{"file", a.output},
                       {"count", static_cast<unsigned long long>(a.draws)},
                       {"seed", static_cast<unsigned long long>(a.seed)}};
+    if (cover_mass) {
+      const ClassMass& m = *cover_mass;
+      out["mass_in_cover_class"] = {{"cover_bound", a.cover},
+                                    {"estimate", m.estimate},
+                                    {"ci95", {m.lo, m.hi}},
+                                    {"method", m.method},
+                                    {"draws", static_cast<unsigned long long>(m.draws)},
+                                    {"inside", static_cast<unsigned long long>(m.inside)}};
+      // log Z_k = log Z + log P(D_k | data); null when no DAG of the class has weight.
+      auto log_of = [&](double p) -> nlohmann::json {
+        if (!(p > 0)) return nullptr;
+        return post.log_total_weight + std::log(p);
+      };
+      out["log_cover_weight"] = log_of(m.estimate);
+      out["log_cover_weight_ci95"] = {log_of(m.lo), log_of(m.hi)};
+    }
     print_json(out);
     return;
   }
@@ -155,6 +186,22 @@ void run_exact(const ExactArgs& a) {
   print_top("ancestor relations", ancestors_of(post), table, "~>", a.top);
   if (a.draws > 0)
     std::cout << a.draws << " exact draws (seed " << a.seed << ") written to " << a.output << '\n';
+  if (cover_mass) {
+    const ClassMass& m = *cover_mass;
+    char text[200];
+    if (m.method == "enumeration")
+      std::snprintf(text, sizeof text, "%.6f (exact, by enumeration)", m.estimate);
+    else
+      std::snprintf(text, sizeof text, "%.6f (95%% interval %.6f to %.6f, %zu of %zu exact draws)",
+                    m.estimate, m.lo, m.hi, m.inside, m.draws);
+    std::cout << "posterior mass of D_" << a.cover << " (moral graph cover <= " << a.cover
+              << "): " << text << '\n';
+    if (m.estimate > 0) {
+      std::snprintf(text, sizeof text, "%.10g", post.log_total_weight + std::log(m.estimate));
+      std::cout << "log total weight of D_" << a.cover << " (log Z_k = log Z + log mass): " << text
+                << '\n';
+    }
+  }
 }
 
 void setup_exact(CLI::App& app) {
@@ -178,6 +225,13 @@ void setup_exact(CLI::App& app) {
       ->check(CLI::PositiveNumber);
   cmd->add_option("--top", args->top, "Features listed per kind in the text output (default 10)")
       ->check(CLI::NonNegativeNumber);
+  cmd->add_option("--cover", args->cover,
+                  "Also the posterior mass of D_k (moral graph vertex cover <= k) and log Z_k")
+      ->check(CLI::NonNegativeNumber);
+  cmd->add_option("--cover-draws", args->cover_draws,
+                  "Exact draws that estimate the D_k mass above 6 variables when --draws is not "
+                  "given (default 10000)")
+      ->check(CLI::PositiveNumber);
   add_threads_option(*cmd, args->threads);
   cmd->callback([args] { run_exact(*args); });
 }

@@ -1,0 +1,71 @@
+// Posterior mass of a class of DAGs under the posterior over all DAGs of a table: exact by
+// enumeration for small n, else the share of exact draws with a Wilson interval. For the
+// cover-bounded class D_k the membership test is in_cover_class (cover_class.hpp).
+#include <cmath>
+
+#include "covey/enumerate.hpp"
+#include "covey/error.hpp"
+#include "covey/exact_posterior.hpp"
+#include "covey/logmath.hpp"
+#include "covey/proportion.hpp"
+
+// TEMPORARY BRIDGE, to be removed when the cover-class module (branch `cover`, which defines
+// in_cover_class in src/cover_class.cpp) is merged: a weak reference lets this branch link
+// without that definition; cover_class_available() reports whether it is present. Once merged,
+// delete this declaration and make cover_class_available() return true (or drop it).
+namespace covey {
+bool in_cover_class(const Dag& dag, int k) __attribute__((weak));
+}  // namespace covey
+
+#include "covey/cover_class.hpp"
+
+namespace covey {
+
+ClassMass class_mass_by_enumeration(const ScoreTable& table, const DagPredicate& inside) {
+  LogSumAccumulator all, in;
+  std::size_t count_in = 0;
+  for_each_dag(table, [&](const Dag& d, double lw) {
+    all.add(lw);
+    if (inside(d)) {
+      in.add(lw);
+      ++count_in;
+    }
+  });
+  ClassMass m;
+  m.method = "enumeration";
+  m.inside = count_in;
+  m.estimate = in.value() == kNegInf ? 0.0 : std::exp(in.value() - all.value());
+  m.lo = m.hi = m.estimate;
+  return m;
+}
+
+ClassMass class_mass_from_draws(const std::vector<Dag>& draws, const DagPredicate& inside) {
+  ClassMass m;
+  m.method = "exact-draws";
+  m.draws = draws.size();
+  for (const Dag& d : draws) m.inside += inside(d) ? 1 : 0;
+  if (m.draws == 0) throw InputError("the mass of a class needs at least one exact draw");
+  m.estimate = static_cast<double>(m.inside) / static_cast<double>(m.draws);
+  const ProportionInterval ci = wilson_interval(m.inside, m.draws);
+  m.lo = ci.lo;
+  m.hi = ci.hi;
+  return m;
+}
+
+bool cover_class_available() {
+  return &in_cover_class != nullptr;
+}
+
+ClassMass cover_class_mass(const ScoreTable& table, int k, const std::vector<Dag>& draws) {
+  if (k < 0) throw InputError("--cover: the cover bound must be at least 0");
+  if (!cover_class_available())
+    throw Error(
+        "this covey build lacks the cover-class module (in_cover_class), so --cover is "
+        "not available");
+  const DagPredicate inside = [k](const Dag& d) { return in_cover_class(d, k); };
+  if (table.num_variables() <= kCoverMassEnumerationMax)
+    return class_mass_by_enumeration(table, inside);
+  return class_mass_from_draws(draws, inside);
+}
+
+}  // namespace covey
