@@ -9,14 +9,6 @@
 #include "covey/logmath.hpp"
 #include "covey/proportion.hpp"
 
-// TEMPORARY BRIDGE, to be removed when the cover-class module (branch `cover`, which defines
-// in_cover_class in src/cover_class.cpp) is merged: a weak reference lets this branch link
-// without that definition; cover_class_available() reports whether it is present. Once merged,
-// delete this declaration and make cover_class_available() return true (or drop it).
-namespace covey {
-bool in_cover_class(const Dag& dag, int k) __attribute__((weak));
-}  // namespace covey
-
 #include "covey/cover_class.hpp"
 
 namespace covey {
@@ -52,16 +44,8 @@ ClassMass class_mass_from_draws(const std::vector<Dag>& draws, const DagPredicat
   return m;
 }
 
-bool cover_class_available() {
-  return &in_cover_class != nullptr;
-}
-
 ClassMass cover_class_mass(const ScoreTable& table, int k, const std::vector<Dag>& draws) {
   if (k < 0) throw InputError("--cover: the cover bound must be at least 0");
-  if (!cover_class_available())
-    throw Error(
-        "this covey build lacks the cover-class module (in_cover_class), so --cover is "
-        "not available");
   const DagPredicate inside = [k](const Dag& d) { return in_cover_class(d, k); };
   if (table.num_variables() <= kCoverMassEnumerationMax)
     return class_mass_by_enumeration(table, inside);

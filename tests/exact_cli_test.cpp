@@ -131,12 +131,6 @@ TEST(ExactCli, CoverMassInJson) {
   EXPECT_EQ(bad.exit_code, 2) << bad.err;
   EXPECT_NE(bad.err.find("--cover"), std::string::npos) << bad.err;
   const auto r = run_covey("exact " + dir.file("t.h5") + " --cover 2 --json");
-  if (!cover_class_available()) {
-    // Until the cover-class module is in the build: a one-line refusal naming the option.
-    EXPECT_EQ(r.exit_code, 1);
-    EXPECT_NE(r.err.find("--cover"), std::string::npos) << r.err;
-    return;
-  }
   ASSERT_EQ(r.exit_code, 0) << r.err;
   const auto j = nlohmann::json::parse(r.out);
   // Source: the library's enumeration of every DAG of the table (n = 5 <= 6).

@@ -131,7 +131,5 @@ ClassMass class_mass_from_draws(const std::vector<Dag>& draws, const DagPredicat
 // n <= kCoverMassEnumerationMax, else from `draws` (exact draws of this table).
 inline constexpr int kCoverMassEnumerationMax = 6;
 ClassMass cover_class_mass(const ScoreTable& table, int k, const std::vector<Dag>& draws);
-// Whether this build holds the cover-class module (see src/exact_class_mass.cpp).
-bool cover_class_available();
 
 }  // namespace covey

@@ -97,8 +97,6 @@ void run_exact(const ExactArgs& a) {
     throw InputError("--draws needs -o/--output, the HDF5 file to write the draws to");
   if (!a.output.empty() && a.draws == 0)
     throw InputError("-o/--output needs --draws N, the number of exact draws to write");
-  if (a.cover >= 0 && !cover_class_available())
-    throw Error("--cover: this covey build lacks the cover-class module (in_cover_class)");
   ExactOptions options;
   options.route = exact_route_from_string(a.route);
   options.limits = limits_of(a);
