@@ -13,7 +13,12 @@
 #include "covey/error.hpp"
 #include "covey/plot.hpp"
 
-#if defined(__SANITIZE_ADDRESS__)
+#if defined(__has_feature)
+#if __has_feature(address_sanitizer)
+#define COVEY_UNDER_ASAN 1
+#endif
+#endif
+#if defined(__SANITIZE_ADDRESS__) || defined(COVEY_UNDER_ASAN)
 // Under AddressSanitizer: graphviz's text-layout plugin and the font libraries below it (pango,
 // fontconfig) keep allocations that they never free, and the "dot" layout loses the virtual
 // edges it makes to break a cycle; LeakSanitizer would report them at exit of every program

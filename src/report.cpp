@@ -33,7 +33,7 @@ const char* to_string(FeatureKind kind) {
   return "?";
 }
 
-std::string feature_label(const FeatureSummary& f, const std::vector<std::string>& names) {
+std::string feature_label(const ReportFeature& f, const std::vector<std::string>& names) {
   if (f.kind == FeatureKind::kScore) return "log score";
   auto name = [&](int i) {
     return i >= 0 && i < static_cast<int>(names.size()) ? names[i] : "#" + std::to_string(i);
@@ -55,14 +55,14 @@ bool ess_fails(double ess, double threshold) {
   return !std::isnan(ess) && !(ess > threshold);
 }
 
-bool fails(const FeatureSummary& f, const ReportData& d) {
+bool fails(const ReportFeature& f, const ReportData& d) {
   return rhat_fails(f.rhat, d.rhat_threshold) || ess_fails(f.ess_bulk, d.ess_threshold) ||
          ess_fails(f.ess_tail, d.ess_threshold);
 }
 
 // How far a feature is from passing, as a ratio to its threshold (>= 1 fails); -inf when none
 // of its diagnostics is defined. Orders the table of worst features.
-double badness(const FeatureSummary& f, const ReportData& d) {
+double badness(const ReportFeature& f, const ReportData& d) {
   double b = -INFINITY;
   if (!std::isnan(f.rhat)) b = std::max(b, (f.rhat - 1) / (d.rhat_threshold - 1));
   for (double ess : {f.ess_bulk, f.ess_tail})
@@ -681,11 +681,11 @@ std::string run_html(const ReportData& d) {
 }
 
 std::string worst_features_html(const ReportData& d, const ConvergenceVerdict& v) {
-  std::vector<const FeatureSummary*> order;
+  std::vector<const ReportFeature*> order;
   for (const auto& f : d.features)
     if (badness(f, d) > -INFINITY) order.push_back(&f);  // some diagnostic defined
   std::stable_sort(order.begin(), order.end(),
-                   [&](const FeatureSummary* a, const FeatureSummary* b) {
+                   [&](const ReportFeature* a, const ReportFeature* b) {
                      return badness(*a, d) > badness(*b, d);
                    });
   constexpr std::size_t kShown = 12;
@@ -703,7 +703,7 @@ std::string worst_features_html(const ReportData& d, const ConvergenceVerdict& v
     return std::string(fail ? "<td class=\"fail\">" : "<td>") + text + "</td>";
   };
   for (std::size_t i = 0; i < shown; ++i) {
-    const FeatureSummary& f = *order[i];
+    const ReportFeature& f = *order[i];
     const bool score = f.kind == FeatureKind::kScore;
     out += "<tr><td>" + html_escape(feature_label(f, d.variables)) + " <span class=\"kind\">" +
            to_string(f.kind) + "</span></td>";

@@ -88,7 +88,7 @@ inline ReportData synthetic_report_data(const SyntheticReportOptions& o = {}) {
   }
 
   // Diagnostics per feature.
-  auto diagnostics = [&](FeatureSummary& f, bool fail) {
+  auto diagnostics = [&](ReportFeature& f, bool fail) {
     f.rhat = 1.0 + std::abs(normal(rng)) * 0.0025;
     // Passing values stay clear of the threshold (ESS > 450), failing ones clear below it.
     f.ess_bulk = std::max(450.0, std::exp(std::log(1400.0) + 0.45 * normal(rng)));
@@ -109,7 +109,7 @@ inline ReportData synthetic_report_data(const SyntheticReportOptions& o = {}) {
     for (int u = 0; u < n; ++u)
       for (int v = 0; v < n; ++v) {
         if (u == v || (kind == FeatureKind::kAdjacency && v < u)) continue;
-        FeatureSummary f;
+        ReportFeature f;
         f.kind = kind;
         f.from = u;
         f.to = v;
@@ -125,7 +125,7 @@ inline ReportData synthetic_report_data(const SyntheticReportOptions& o = {}) {
         }
         d.features.push_back(f);
       }
-  FeatureSummary score;
+  ReportFeature score;
   score.kind = FeatureKind::kScore;
   score.probability = -1500.4;
   diagnostics(score, !o.converged);

@@ -26,8 +26,8 @@ using testing_util::synthetic_report_data;
 using testing_util::SyntheticReportOptions;
 using testing_util::TempDir;
 
-FeatureSummary feature(double rhat, double bulk, double tail) {
-  FeatureSummary f;
+ReportFeature feature(double rhat, double bulk, double tail) {
+  ReportFeature f;
   f.kind = FeatureKind::kEdge;
   f.from = 0;
   f.to = 1;
@@ -38,7 +38,7 @@ FeatureSummary feature(double rhat, double bulk, double tail) {
   return f;
 }
 
-ReportData two_variables(std::vector<FeatureSummary> features) {
+ReportData two_variables(std::vector<ReportFeature> features) {
   ReportData d;
   d.variables = {"a", "b"};
   d.features = std::move(features);
@@ -81,7 +81,7 @@ TEST(Verdict, UndefinedDiagnosticsAreCountedNotPassedOrFailed) {
 
 TEST(Report, FeatureLabelsNameTheRelation) {
   const std::vector<std::string> names = {"smoker", "cancer"};
-  FeatureSummary f;
+  ReportFeature f;
   f.from = 0;
   f.to = 1;
   f.kind = FeatureKind::kEdge;

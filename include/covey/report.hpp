@@ -22,7 +22,7 @@ inline constexpr double kUndefined = std::numeric_limits<double>::quiet_NaN();
 enum class FeatureKind { kEdge, kAdjacency, kAncestor, kScore };
 const char* to_string(FeatureKind kind);  // "edge", "adjacency", "ancestor", "score"
 
-struct FeatureSummary {
+struct ReportFeature {
   FeatureKind kind = FeatureKind::kEdge;
   int from = -1, to = -1;  // variable indices (u -> v, u - v, u ~> v); -1 for the log score
   // Posterior mean of the feature's indicator; for kScore the posterior mean log score.
@@ -70,7 +70,7 @@ struct ReportData {
   std::string source;  // where the results come from (e.g. the run file), shown under the title
   std::vector<std::string> variables;
   std::vector<ChainTrace> traces;  // one per chain
-  std::vector<FeatureSummary> features;
+  std::vector<ReportFeature> features;
   std::vector<std::vector<double>> edge_probability;  // [from][to], n x n (diagonal NaN) or empty
   std::optional<Comparison> comparison;
   RunFacts run;
@@ -94,7 +94,7 @@ struct ConvergenceVerdict {
 ConvergenceVerdict assess_convergence(const ReportData& data);
 
 // A feature's name for people, e.g. "smoker → cancer", "age — income", "log score".
-std::string feature_label(const FeatureSummary& feature, const std::vector<std::string>& names);
+std::string feature_label(const ReportFeature& feature, const std::vector<std::string>& names);
 
 // The fixed caution shown on every report.
 extern const char* const kCausalCaution;
