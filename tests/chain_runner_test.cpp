@@ -283,7 +283,10 @@ std::string write_table(const TempDir& dir, int n, int d, std::uint64_t seed) {
 TEST(ChainCli, KillNineThenResumeEqualsStraightRun) {
   TempDir dir;
   const std::string scores = write_table(dir, 8, 3, 31);
-  const std::string common = scores + " --chains 2 --thin 50 --seed 5 --steps 4e6 --json";
+  // Long enough that a fast machine cannot finish before the kill (the kill comes after the
+  // second checkpoint, 0.2 s in); the step count is checked below.
+  const std::uint64_t steps = 20'000'000;
+  const std::string common = scores + " --chains 2 --thin 500 --seed 5 --steps 2e7 --json";
   // Straight run.
   auto r = run_covey("chain " + common + " -o " + dir.file("straight.h5"));
   ASSERT_EQ(r.exit_code, 0) << r.err;
@@ -302,7 +305,7 @@ TEST(ChainCli, KillNineThenResumeEqualsStraightRun) {
     std::this_thread::sleep_for(std::chrono::milliseconds(20));
     try {
       checkpointed =
-          std::filesystem::exists(killed) && ChainRun::open(killed).num_checkpoints() >= 3;
+          std::filesystem::exists(killed) && ChainRun::open(killed).num_checkpoints() >= 2;
     } catch (const InputError&) {
     }
   }
@@ -312,11 +315,11 @@ TEST(ChainCli, KillNineThenResumeEqualsStraightRun) {
   waitpid(pid, &status, 0);
   ASSERT_TRUE(WIFSIGNALED(status)) << "the run finished before it was killed";
   const ChainRun partial = ChainRun::open(killed);  // the last checkpoint survived
-  EXPECT_LT(partial.steps(), 4'000'000u);
+  EXPECT_LT(partial.steps(), steps);
   r = run_covey("chain " + common + " --resume -o " + killed);
   ASSERT_EQ(r.exit_code, 0) << r.err;
   EXPECT_EQ(nlohmann::json::parse(r.out)["session_steps"].get<std::uint64_t>(),
-            4'000'000u - partial.steps());
+            steps - partial.steps());
   expect_same_traces(ChainRun::open(dir.file("straight.h5")), ChainRun::open(killed));
   // No temporary file is left beside the output.
   for (const auto& e : std::filesystem::directory_iterator(dir.path()))
