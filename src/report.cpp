@@ -19,19 +19,6 @@ const char* const kCausalCaution =
     "Learned structure shows statistical dependence, not proven cause. Decisions affecting "
     "safety or health rest with qualified people and local rules.";
 
-const char* to_string(FeatureKind kind) {
-  switch (kind) {
-    case FeatureKind::kEdge:
-      return "edge";
-    case FeatureKind::kAdjacency:
-      return "adjacency";
-    case FeatureKind::kAncestor:
-      return "ancestor";
-    case FeatureKind::kScore:
-      return "score";
-  }
-  return "?";
-}
 
 std::string feature_label(const ReportFeature& f, const std::vector<std::string>& names) {
   if (f.kind == FeatureKind::kScore) return "log score";

@@ -80,12 +80,17 @@ class ChainRun {
   double elapsed_seconds_ = 0;
 };
 
-// Graph features of all chains' thinned draws as indicator series, in the chains x draws
-// chain-major layout of the diagnostics (draw t of chain c at [c * iterations + t]). Holds the
-// packed draws in memory; the accessors are const and safe to call from several threads.
+// Graph features of the thinned draws of one run, or of several runs of the same table taken
+// together (their chains side by side, e.g. the per-rank files of one distributed run), as
+// indicator series in the chains x draws chain-major layout of the diagnostics (draw t of chain
+// c at [c * iterations + t]). Runs with different numbers of draws are cut to the shortest.
+// Holds the packed draws in memory; the accessors are const and safe to call from several
+// threads.
 class RunFeatures {
  public:
-  explicit RunFeatures(const ChainRun& run);
+  explicit RunFeatures(const ChainRun& run, bool with_ancestors = false);
+  // Throws InputError naming the file when a run was made from another table than the first.
+  explicit RunFeatures(const std::vector<ChainRun>& runs, bool with_ancestors = false);
 
   int chains() const { return chains_; }
   int iterations() const { return static_cast<int>(iterations_); }
@@ -95,16 +100,33 @@ class RunFeatures {
   std::vector<std::pair<int, int>> edges_seen() const;
   void edge(int from, int to, std::span<double> out) const;   // 1 when from -> to
   void adjacency(int a, int b, std::span<double> out) const;  // 1 when a -> b or b -> a
+  // 1 when a directed path from -> ... -> to exists (needs with_ancestors, else Error).
+  void ancestor(int from, int to, std::span<double> out) const;
   void log_score(std::span<double> out) const;
+  // 1 when the draw lies in the cover-bounded class D_k (n <= 64).
+  void in_cover_class(int k, std::span<double> out) const;
+  // Per chain, the draw positions at which a tour between teleport regenerations starts (the
+  // first kept draw at or after each regeneration step); the input of regenerative_mean(),
+  // which leaves out the draws before the first start and the unfinished last tour.
+  const std::vector<std::vector<std::size_t>>& tour_starts() const { return tour_starts_; }
+  std::size_t regenerations() const { return regenerations_; }
 
  private:
+  void append(const ChainRun& run);
+  void compute_ancestors();
   bool has_edge(std::size_t row, int from, int to) const {
     return (rows_[row * stride_ + std::size_t(to) * words_ + (from >> 6)] >> (from & 63)) & 1U;
   }
+  bool has_path(std::size_t row, int from, int to) const {
+    return (ancestors_[row * stride_ + std::size_t(to) * words_ + (from >> 6)] >> (from & 63)) & 1U;
+  }
   int chains_ = 0, n_ = 0, words_ = 0;
   std::size_t iterations_ = 0, stride_ = 0;
-  std::vector<std::uint64_t> rows_;  // all chains' draws, chain-major
+  std::vector<std::uint64_t> rows_;       // all chains' draws, chain-major
+  std::vector<std::uint64_t> ancestors_;  // per draw and node: its ancestors (with_ancestors)
   std::vector<double> log_scores_;
+  std::vector<std::vector<std::size_t>> tour_starts_;
+  std::size_t regenerations_ = 0;
 };
 
 }  // namespace covey

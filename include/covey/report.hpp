@@ -15,12 +15,11 @@
 #include <utility>
 #include <vector>
 
+#include "covey/features.hpp"
+
 namespace covey {
 
 inline constexpr double kUndefined = std::numeric_limits<double>::quiet_NaN();
-
-enum class FeatureKind { kEdge, kAdjacency, kAncestor, kScore };
-const char* to_string(FeatureKind kind);  // "edge", "adjacency", "ancestor", "score"
 
 struct ReportFeature {
   FeatureKind kind = FeatureKind::kEdge;

@@ -194,7 +194,8 @@ void setup_chain(CLI::App& app) {
   cmd->add_option("--teleport-rate", a->teleport_rate,
                   "teleport probability per step (default 0.01 with --teleport-cover)");
   cmd->add_option("--teleport-sampler", a->sampler,
-                  "load the D_k sampler from FILE (saved by `covey draw --save-sampler`) instead of building it");
+                  "load the D_k sampler from FILE (saved by `covey draw --save-sampler`) instead "
+                  "of building it");
   cmd->add_option("--rev-rate", a->rev_rate,
                   "probability per step of a REV move, the edge reversal with parent resampling "
                   "(default 1/15)");

@@ -1,6 +1,6 @@
 // `covey check`: convergence diagnostics (split R-hat, bulk and tail ESS, MCSE) of MCMC draws,
-// worst first, and a verdict against thresholds. The positional arguments are input files;
-// --draws reads them as CSV draws of named quantities.
+// worst first, and a verdict against thresholds. The positional arguments are chain-run files
+// (taken together: their chains side by side), or with --draws one CSV of named quantities.
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
@@ -15,6 +15,8 @@
 #include "covey/draws_csv.hpp"
 #include "covey/error.hpp"
 #include "covey/progress.hpp"
+#include "covey/report.hpp"
+#include "covey/run_diagnostics.hpp"
 
 namespace covey::cli {
 namespace {
@@ -22,6 +24,8 @@ namespace {
 struct CheckOptions {
   std::vector<std::string> files;
   bool draws = false;
+  std::string features = "edges,adjacencies,ancestors,score";
+  std::size_t top = 20;
   bool json = false;
   bool strict = false;
   Thresholds thresholds;
@@ -34,10 +38,12 @@ struct CheckedInput {
   int chains = 0;
   int iterations = 0;
   std::string plural = "features";         // the report's word for the features
-  std::string mean_key = "mean";           // JSON key of the feature mean ("probability" for 0/1)
   std::vector<nlohmann::json> labels;      // {"kind": ..., and "name" or "from"/"to"}
+  std::vector<std::string> mean_keys;      // JSON key of each mean ("probability" for 0/1)
   std::vector<std::string> display_names;  // for the text table
   std::vector<FeatureSummary> summaries;
+  std::vector<double> regenerative_se;  // empty, or one per feature (NaN: not available)
+  std::size_t regenerations = 0, tours = 0;
 };
 
 CheckedInput check_draws_csv(const std::string& path) {
@@ -49,6 +55,7 @@ CheckedInput check_draws_csv(const std::string& path) {
   in.plural = "quantities";
   for (const std::string& name : table.names) {
     in.labels.push_back({{"kind", "quantity"}, {"name", name}});
+    in.mean_keys.push_back("mean");
     in.display_names.push_back(name);
   }
   Progress progress("check: diagnostics");
@@ -62,35 +69,52 @@ CheckedInput check_draws_csv(const std::string& path) {
   return in;
 }
 
+CheckedInput check_runs(const CheckOptions& options) {
+  const FeatureKinds kinds = parse_feature_kinds(options.features, "--features");
+  for (const std::string& file : options.files)
+    if (file.size() > 4 && file.compare(file.size() - 4, 4, ".csv") == 0)
+      throw InputError(file + ": CSV is read as draws with --draws (covey check --draws FILE.csv)");
+  const std::vector<ChainRun> runs = open_runs(options.files);
+  const RunFeatures draws(runs, kinds.ancestors);
+  const std::vector<FeatureId> features = list_features(draws.num_variables(), kinds);
+  Progress progress("check: diagnostics");
+  const auto total = static_cast<double>(features.size());
+  const RunDiagnostics d = diagnose_run(draws, features, [&progress, total](std::size_t done) {
+    progress.update(static_cast<double>(done), total);
+  });
+  CheckedInput in;
+  for (const std::string& file : options.files) in.source += (in.source.empty() ? "" : ", ") + file;
+  in.chains = d.chains;
+  in.iterations = d.iterations;
+  in.summaries = d.summaries;
+  in.regenerations = d.regenerations;
+  in.tours = d.tours;
+  if (d.tours >= 2) in.regenerative_se = d.regenerative_se;
+  const std::vector<std::string>& names = runs.front().variables();
+  for (const FeatureId& f : features) {
+    nlohmann::json label = {{"kind", to_string(f.kind)}};
+    if (f.kind != FeatureKind::kScore) {
+      label["from"] = names[std::size_t(f.from)];
+      label["to"] = names[std::size_t(f.to)];
+    }
+    in.labels.push_back(std::move(label));
+    in.mean_keys.push_back(f.kind == FeatureKind::kScore ? "mean" : "probability");
+    in.display_names.push_back(feature_label({f.kind, f.from, f.to}, names));
+  }
+  return in;
+}
+
 CheckedInput check_input(const CheckOptions& options) {
-  if (!options.draws)
-    throw InputError(
-        "check: give the draws as CSV with --draws FILE.csv (columns chain, "
-        "iteration and one per quantity)");
+  if (!options.draws) return check_runs(options);
   if (options.files.size() != 1)
     throw InputError("check --draws: expected one CSV file, got " +
                      std::to_string(options.files.size()));
   return check_draws_csv(options.files[0]);
 }
 
-// JSON has no NaN or infinity: undefined values are null, infinite ones the string "inf".
-nlohmann::json json_number(double x) {
-  if (std::isnan(x)) return nullptr;
-  if (std::isinf(x)) return x > 0 ? "inf" : "-inf";
-  return x;
-}
-
-std::string format(const char* spec, double x) {
-  if (std::isnan(x)) return "undef";
-  if (std::isinf(x)) return x > 0 ? "inf" : "-inf";
-  char buffer[64];
-  std::snprintf(buffer, sizeof buffer, spec, x);
-  return buffer;
-}
-
 std::string threshold_text(const Thresholds& t) {
-  return "R-hat < " + format("%g", t.max_rhat) + " and bulk and tail ESS > " +
-         format("%g", t.min_ess);
+  return "R-hat < " + format_number("%g", t.max_rhat) + " and bulk and tail ESS > " +
+         format_number("%g", t.min_ess);
 }
 
 std::string verdict_line(const CheckedInput& in, const Verdict& v, const Thresholds& t) {
@@ -124,6 +148,8 @@ nlohmann::json report_json(const CheckedInput& in, const std::vector<std::size_t
   out["min_ess_bulk"] = json_number(v.min_ess_bulk);
   out["min_ess_tail"] = json_number(v.min_ess_tail);
   out["thresholds"] = {{"rhat", t.max_rhat}, {"ess", t.min_ess}};
+  if (in.regenerations > 0)
+    out["regeneration"] = {{"regenerations", in.regenerations}, {"complete_tours", in.tours}};
   out["verdict"] = {{"converged", v.converged()},
                     {"passing", v.passing},
                     {"failing", v.failing},
@@ -132,38 +158,69 @@ nlohmann::json report_json(const CheckedInput& in, const std::vector<std::size_t
   for (std::size_t i : order) {
     const FeatureSummary& s = in.summaries[i];
     nlohmann::json f = in.labels[i];
-    f[in.mean_key] = json_number(s.mean);
+    f[in.mean_keys[i]] = json_number(s.mean);
     f["rhat"] = json_number(s.rhat);
     f["ess_bulk"] = json_number(s.ess_bulk);
     f["ess_tail"] = json_number(s.ess_tail);
     f["ess_mean"] = json_number(s.ess_mean);
     f["mcse"] = json_number(s.mcse);
+    if (!in.regenerative_se.empty()) f["regenerative_se"] = json_number(in.regenerative_se[i]);
     f["status"] = to_string(assess(s, t));
     out["features"].push_back(std::move(f));
   }
   return out;
 }
 
-void print_report(const CheckedInput& in, const std::vector<std::size_t>& order, const Verdict& v,
-                  const Thresholds& t) {
+// The text table lists the assessed features worst first; the undefined ones (mostly features
+// constant in every draw, such as edges never proposed successfully) are summarized in one
+// line, since dozens of identical "undef" rows would hide the features that matter.
+void print_report(const CheckedInput& in, const std::vector<std::size_t>& worst, const Verdict& v,
+                  const Thresholds& t, std::size_t top) {
+  std::vector<std::size_t> order, undefined;
+  for (std::size_t i : worst)
+    (assess(in.summaries[i], t) == FeatureStatus::kUndefined ? undefined : order).push_back(i);
+  const std::size_t shown = top == 0 ? order.size() : std::min(top, order.size());
   std::cout << in.source << ": " << in.chains << " chains x " << in.iterations << " draws, "
-            << in.summaries.size() << " " << in.plural << " (worst first)\n";
+            << in.summaries.size() << " " << in.plural << " (worst first";
+  if (shown < order.size())
+    std::cout << ", " << shown << " of " << order.size() << " assessed shown";
+  std::cout << ")\n";
+  if (in.regenerations > 0)
+    std::cout << "teleport regenerations: " << in.regenerations << " (" << in.tours
+              << " complete tours)"
+              << (in.regenerative_se.empty() ? "" : "; regen_se: regenerative standard error")
+              << "\n";
   std::size_t width = 8;
-  for (const std::string& name : in.display_names) width = std::max(width, name.size());
+  for (std::size_t k = 0; k < shown; ++k)
+    width = std::max(width, display_width(in.display_names[order[k]]));
+  const bool regen = !in.regenerative_se.empty();
   const auto row = [&](const std::string& name, const std::string& mean, const std::string& rhat,
                        const std::string& bulk, const std::string& tail, const std::string& mcse,
-                       const std::string& status) {
-    std::cout << std::left << std::setw(static_cast<int>(width)) << name << std::right << ' '
-              << std::setw(12) << mean << ' ' << std::setw(8) << rhat << ' ' << std::setw(9) << bulk
-              << ' ' << std::setw(9) << tail << ' ' << std::setw(10) << mcse << "  " << status
-              << '\n';
+                       const std::string& regen_se, const std::string& status) {
+    std::cout << pad_right(name, width) << ' ' << std::setw(12) << mean << ' ' << std::setw(8)
+              << rhat << ' ' << std::setw(9) << bulk << ' ' << std::setw(9) << tail << ' '
+              << std::setw(10) << mcse;
+    if (regen) std::cout << ' ' << std::setw(10) << regen_se;
+    std::cout << "  " << status << '\n';
   };
-  row("name", in.mean_key, "R-hat", "ess_bulk", "ess_tail", "mcse", "status");
-  for (std::size_t i : order) {
+  row("name", "mean", "R-hat", "ess_bulk", "ess_tail", "mcse", "regen_se", "status");
+  for (std::size_t k = 0; k < shown; ++k) {
+    const std::size_t i = order[k];
     const FeatureSummary& s = in.summaries[i];
-    row(in.display_names[i], format("%.6g", s.mean), format("%.4f", s.rhat),
-        format("%.0f", s.ess_bulk), format("%.0f", s.ess_tail), format("%.3g", s.mcse),
+    row(in.display_names[i], format_number("%.6g", s.mean), format_number("%.4f", s.rhat),
+        format_number("%.0f", s.ess_bulk), format_number("%.0f", s.ess_tail),
+        format_number("%.3g", s.mcse), regen ? format_number("%.3g", in.regenerative_se[i]) : "",
         to_string(assess(s, t)));
+  }
+  if (shown < order.size())
+    std::cout << "... " << order.size() - shown << " more (all with --top 0 or --json)\n";
+  if (!undefined.empty()) {
+    std::cout << undefined.size() << " " << in.plural
+              << " with undefined R-hat or ESS (constant in every draw), not assessed, e.g. ";
+    for (std::size_t k = 0; k < std::min<std::size_t>(3, undefined.size()); ++k)
+      std::cout << (k ? ", " : "") << in.display_names[undefined[k]] << " = "
+                << format_number("%.6g", in.summaries[undefined[k]].mean);
+    std::cout << "\n";
   }
   std::cout << verdict_line(in, v, t) << "\n";
 }
@@ -172,10 +229,19 @@ void setup_check(CLI::App& app) {
   auto* cmd = app.add_subcommand(
       "check",
       "Convergence diagnostics of MCMC draws: split R-hat, bulk and tail ESS and MCSE per "
-      "feature (Vehtari et al. 2021), worst first, and a verdict against thresholds");
+      "feature (Vehtari et al. 2021), worst first, and a verdict against thresholds; for chain "
+      "runs with teleports also the regenerative standard error");
   auto options = std::make_shared<CheckOptions>();
-  cmd->add_option("FILES", options->files, "input files (with --draws: one CSV of draws)")
+  cmd->add_option("FILES", options->files,
+                  "chain-run files of `covey chain` (several: their chains taken together), or "
+                  "with --draws one CSV of draws")
       ->required();
+  cmd->add_option("--features", options->features,
+                  "Feature kinds of a chain run, comma-separated: edges, adjacencies, ancestors, "
+                  "score")
+      ->capture_default_str();
+  cmd->add_option("--top", options->top, "Features shown in the text output, worst first (0: all)")
+      ->capture_default_str();
   cmd->add_flag("--draws", options->draws,
                 "Read FILES as CSV draws: a header with columns chain, iteration and one column "
                 "per quantity, then one row per draw");
@@ -191,7 +257,7 @@ void setup_check(CLI::App& app) {
   cmd->callback([options] {
     if (!(options->thresholds.max_rhat > 1))
       throw InputError("check: --rhat must exceed 1, got " +
-                       format("%g", options->thresholds.max_rhat));
+                       format_number("%g", options->thresholds.max_rhat));
     const auto limit = apply_threads(options->threads);
     const CheckedInput in = check_input(*options);
     const Thresholds& t = options->thresholds;
@@ -200,7 +266,7 @@ void setup_check(CLI::App& app) {
     if (options->json)
       print_json(report_json(in, order, verdict, t));
     else
-      print_report(in, order, verdict, t);
+      print_report(in, order, verdict, t, options->top);
     if (options->strict && !verdict.converged())
       throw CommandExit(
           4, "check --strict: thresholds not met (" + threshold_text(t) + "); exit status 4");

@@ -55,17 +55,19 @@ void setup_info(CLI::App& app) {
     out["variables"] = nlohmann::json::array();
     for (int v = 0; v < table.num_variables(); ++v) {
       const Variable& var = table.variables()[v];
-      out["variables"].push_back({{"name", var.name},
-                                  {"kind", m.score == "imported" ? "imported" : to_string(var.kind)},
-                                  {"levels", var.levels},
-                                  {"candidate_parents", table.candidates(v).size()},
-                                  {"parent_sets", table.num_parent_sets(v)}});
+      out["variables"].push_back(
+          {{"name", var.name},
+           {"kind", m.score == "imported" ? "imported" : to_string(var.kind)},
+           {"levels", var.levels},
+           {"candidate_parents", table.candidates(v).size()},
+           {"parent_sets", table.num_parent_sets(v)}});
     }
     if (*json) return print_json(out);
     std::cout << *input << ": " << table.num_variables() << " variables, "
               << table.total_parent_sets() << " parent sets, score " << m.score << ", prior "
               << m.prior << ", " << table.memory_bytes() / 1024.0 / 1024.0 << " MiB\n";
-    if (m.num_rows >= 0) std::cout << "scored from " << m.num_rows << " rows of " << m.source << "\n";
+    if (m.num_rows >= 0)
+      std::cout << "scored from " << m.num_rows << " rows of " << m.source << "\n";
     if (!m.parameters.empty()) std::cout << "parameters: " << m.parameters.dump() << "\n";
     std::cout << "variable\tkind\tlevels\tcandidates\tparent_sets\n";
     for (const auto& v : out["variables"])

@@ -1,5 +1,7 @@
 #include "common.hpp"
 
+#include <cmath>
+#include <cstdio>
 #include <iostream>
 #include <thread>
 
@@ -11,7 +13,9 @@ std::string& stored_command_line() {
 }
 }  // namespace
 
-const std::string& command_line() { return stored_command_line(); }
+const std::string& command_line() {
+  return stored_command_line();
+}
 
 void set_command_line(int argc, char** argv) {
   std::string line;
@@ -23,7 +27,8 @@ void set_command_line(int argc, char** argv) {
 }
 
 void add_threads_option(CLI::App& cmd, int& threads) {
-  cmd.add_option("--threads", threads, "Worker threads (0 = all cores); results do not depend on it")
+  cmd.add_option("--threads", threads,
+                 "Worker threads (0 = all cores); results do not depend on it")
       ->check(CLI::NonNegativeNumber);
 }
 
@@ -33,6 +38,33 @@ std::unique_ptr<tbb::global_control> apply_threads(int threads) {
                                                static_cast<std::size_t>(threads));
 }
 
-void print_json(const nlohmann::json& value) { std::cout << value.dump(2) << "\n"; }
+void print_json(const nlohmann::json& value) {
+  std::cout << value.dump(2) << "\n";
+}
+
+nlohmann::json json_number(double x) {
+  if (std::isnan(x)) return nullptr;
+  if (std::isinf(x)) return x > 0 ? "inf" : "-inf";
+  return x;
+}
+
+std::string format_number(const char* spec, double x) {
+  if (std::isnan(x)) return "undef";
+  if (std::isinf(x)) return x > 0 ? "inf" : "-inf";
+  char buffer[64];
+  std::snprintf(buffer, sizeof buffer, spec, x);
+  return buffer;
+}
+
+std::size_t display_width(const std::string& text) {
+  std::size_t width = 0;
+  for (const char c : text) width += (static_cast<unsigned char>(c) & 0xC0) != 0x80;
+  return width;
+}
+
+std::string pad_right(const std::string& text, std::size_t width) {
+  const std::size_t w = display_width(text);
+  return w >= width ? text : text + std::string(width - w, ' ');
+}
 
 }  // namespace covey::cli

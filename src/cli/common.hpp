@@ -18,6 +18,16 @@ void set_command_line(int argc, char** argv);
 void add_threads_option(CLI::App& cmd, int& threads);
 std::unique_ptr<tbb::global_control> apply_threads(int threads);
 
+// JSON has no NaN or infinity: undefined values are null, infinite ones the string "inf".
+nlohmann::json json_number(double x);
+// printf-formatted number, "undef" for NaN and "inf"/"-inf" for infinities.
+std::string format_number(const char* spec, double x);
+
+// Columns a text takes on a terminal (UTF-8: continuation bytes take none; names hold arrows
+// such as "→"), and the text padded with spaces to `width` columns.
+std::size_t display_width(const std::string& text);
+std::string pad_right(const std::string& text, std::size_t width);
+
 // Prints JSON to stdout, two-space indented, with a trailing newline.
 void print_json(const nlohmann::json& value);
 

@@ -1,0 +1,173 @@
+#include "covey/run_diagnostics.hpp"
+
+#include <cmath>
+#include <cstdio>
+#include <numeric>
+
+#include "covey/error.hpp"
+#include "covey/structure_chain.hpp"
+
+namespace covey {
+
+std::vector<ChainRun> open_runs(const std::vector<std::string>& paths) {
+  if (paths.empty()) throw InputError("no run file given");
+  std::vector<ChainRun> runs;
+  runs.reserve(paths.size());
+  for (const std::string& path : paths) runs.push_back(ChainRun::open(path));
+  return runs;
+}
+
+namespace {
+
+void fill_feature(const RunFeatures& draws, const FeatureId& f, std::span<double> values) {
+  switch (f.kind) {
+    case FeatureKind::kEdge:
+      draws.edge(f.from, f.to, values);
+      return;
+    case FeatureKind::kAdjacency:
+      draws.adjacency(f.from, f.to, values);
+      return;
+    case FeatureKind::kAncestor:
+      draws.ancestor(f.from, f.to, values);
+      return;
+    case FeatureKind::kScore:
+      draws.log_score(values);
+      return;
+  }
+}
+
+std::size_t complete_tours(const std::vector<std::vector<std::size_t>>& starts) {
+  std::size_t tours = 0;
+  for (const auto& s : starts) tours += s.size() > 1 ? s.size() - 1 : 0;
+  return tours;
+}
+
+}  // namespace
+
+RunDiagnostics diagnose_run(const RunFeatures& draws, const std::vector<FeatureId>& features,
+                            const ProgressCallback& progress) {
+  check_draws_shape(draws.chains(), draws.iterations(), "run");
+  RunDiagnostics out;
+  out.chains = draws.chains();
+  out.iterations = draws.iterations();
+  out.regenerations = draws.regenerations();
+  out.tours = complete_tours(draws.tour_starts());
+  out.features = features;
+  out.regenerative_se.assign(features.size(), std::nan(""));
+  const bool regenerative = out.tours >= 2;
+  // The regenerative estimate is computed beside the summary from the same series; each index
+  // is written by one task only.
+  out.summaries = summarize_features(
+      features.size(), draws.chains(), draws.iterations(),
+      [&](std::size_t i, std::span<double> values) {
+        fill_feature(draws, features[i], values);
+        if (!regenerative) return;
+        const DrawsView view{values, draws.chains(), draws.iterations()};
+        out.regenerative_se[i] = regenerative_mean(view, draws.tour_starts()).standard_error;
+      },
+      progress);
+  return out;
+}
+
+namespace {
+
+std::string option_text(const nlohmann::json& value) {
+  if (value.is_string()) return value.get<std::string>();
+  if (value.is_number_float()) {
+    char buffer[32];
+    std::snprintf(buffer, sizeof buffer, "%.4g", value.get<double>());
+    return buffer;
+  }
+  return value.dump();
+}
+
+RunFacts run_facts(const std::vector<ChainRun>& runs, const RunDiagnostics& d) {
+  RunFacts facts;
+  facts.chains = d.chains;
+  facts.draws_per_chain = d.iterations;
+  facts.steps_per_chain = static_cast<std::int64_t>(runs.front().steps());
+  MoveCounts total;
+  std::int64_t regenerations = 0;
+  bool teleports = false;
+  for (const ChainRun& run : runs) {
+    for (int c = 0; c < run.num_chains(); ++c) {
+      const ChainCheckpoint cp = run.checkpoint(c);
+      total += cp.counts;
+      regenerations += static_cast<std::int64_t>(cp.regenerations);
+    }
+    teleports = teleports || run.options().value("teleport_rate", 0.0) > 0;
+  }
+  for (int m = 0; m < kNumMoves; ++m) {
+    if (total.proposed[m] == 0) continue;
+    facts.acceptance.push_back({move_name(m), static_cast<std::int64_t>(total.proposed[m]),
+                                static_cast<std::int64_t>(total.accepted[m])});
+  }
+  facts.regenerations = teleports ? regenerations : -1;
+  double seconds = 0;
+  for (const ChainRun& run : runs) seconds += run.elapsed_seconds();
+  char buffer[64];
+  std::snprintf(buffer, sizeof buffer, "%.1f s", seconds);
+  facts.extra.push_back({"sampling time (all files)", buffer});
+  facts.extra.push_back({"run files", std::to_string(runs.size())});
+  const auto& o = runs.front().options();
+  for (const char* key : {"thin", "burn_in", "seed", "rev_rate", "teleport_rate", "teleport_cover",
+                          "cover_limit", "start"})
+    if (o.contains(key)) facts.extra.push_back({key, option_text(o[key])});
+  return facts;
+}
+
+std::vector<std::vector<double>> edge_matrix(const RunDiagnostics& d, int n) {
+  std::vector<std::vector<double>> m(std::size_t(n), std::vector<double>(std::size_t(n), 0.0));
+  for (int v = 0; v < n; ++v) m[std::size_t(v)][std::size_t(v)] = std::nan("");
+  for (std::size_t i = 0; i < d.features.size(); ++i)
+    if (d.features[i].kind == FeatureKind::kEdge)
+      m[std::size_t(d.features[i].from)][std::size_t(d.features[i].to)] = d.summaries[i].mean;
+  return m;
+}
+
+}  // namespace
+
+ReportData report_data_from_runs(const std::vector<ChainRun>& runs, const RunFeatures& draws,
+                                 const RunDiagnostics& d, const Thresholds& thresholds) {
+  ReportData data;
+  data.variables = runs.front().variables();
+  for (const ChainRun& run : runs) {
+    data.source += (data.source.empty() ? "" : ", ") + run.path();
+    for (int c = 0; c < run.num_chains(); ++c) {
+      ChainTrace trace;
+      trace.steps = run.draw_steps(c);
+      trace.log_scores = run.log_scores(c);
+      trace.steps.resize(std::size_t(draws.iterations()));
+      trace.log_scores.resize(std::size_t(draws.iterations()));
+      data.traces.push_back(std::move(trace));
+    }
+  }
+  for (std::size_t i = 0; i < d.features.size(); ++i) {
+    ReportFeature f;
+    f.kind = d.features[i].kind;
+    f.from = d.features[i].from;
+    f.to = d.features[i].to;
+    const FeatureSummary& s = d.summaries[i];
+    f.probability = s.mean;
+    f.rhat = s.rhat;
+    f.ess_bulk = s.ess_bulk;
+    f.ess_tail = s.ess_tail;
+    f.mcse = s.mcse;
+    data.features.push_back(f);
+  }
+  data.edge_probability = edge_matrix(d, draws.num_variables());
+  data.run = run_facts(runs, d);
+  data.rhat_threshold = thresholds.max_rhat;
+  data.ess_threshold = thresholds.min_ess;
+  const Verdict verdict = judge(d.summaries, thresholds);
+  if (verdict.passing + verdict.failing > 0 && !verdict.converged())
+    data.cautions.push_back(std::to_string(verdict.failing) +
+                            " features fail the convergence thresholds: the probabilities "
+                            "shown are not yet reliable; run the chains longer.");
+  if (d.chains < 4)
+    data.cautions.push_back("Only " + std::to_string(d.chains) +
+                            " chains: R-hat is more reliable with 4 or more.");
+  return data;
+}
+
+}  // namespace covey

@@ -1,0 +1,158 @@
+// Graph features of chain-run draws (include/covey/chain_run_file.hpp, RunFeatures): edge,
+// adjacency and ancestor indicators, the log score, membership in D_k, and the tours between
+// teleport regenerations.
+#include <tbb/blocked_range.h>
+#include <tbb/parallel_for.h>
+
+#include <inttypes.h>
+#include <algorithm>
+#include <bit>
+#include <cstdio>
+
+#include "covey/chain_run_file.hpp"
+#include "covey/cover_class.hpp"
+#include "covey/dag.hpp"
+#include "covey/error.hpp"
+
+namespace covey {
+
+RunFeatures::RunFeatures(const ChainRun& run, bool with_ancestors)
+    : RunFeatures(std::vector<ChainRun>{run}, with_ancestors) {}
+
+RunFeatures::RunFeatures(const std::vector<ChainRun>& runs, bool with_ancestors) {
+  if (runs.empty()) throw Error("RunFeatures: no run given");
+  const ChainRun& first = runs.front();
+  n_ = first.num_variables();
+  words_ = first.words_per_node();
+  stride_ = std::size_t(n_) * words_;
+  iterations_ = first.num_draws();
+  std::size_t total_chains = 0;
+  for (const ChainRun& run : runs) {
+    if (run.variables() != first.variables() ||
+        run.table_fingerprint() != first.table_fingerprint())
+      throw InputError(run.path() + ": made from another score table than " + first.path() +
+                       " (variables or table fingerprint differ)");
+    iterations_ = std::min<std::size_t>(iterations_, run.num_draws());
+    total_chains += std::size_t(run.num_chains());
+  }
+  rows_.reserve(total_chains * iterations_ * stride_);
+  log_scores_.reserve(total_chains * iterations_);
+  for (const ChainRun& run : runs) append(run);
+  if (with_ancestors) compute_ancestors();
+}
+
+void RunFeatures::append(const ChainRun& run) {
+  for (int c = 0; c < run.num_chains(); ++c) {
+    const auto rows = run.draws(c);
+    rows_.insert(rows_.end(), rows.begin(), rows.begin() + std::ptrdiff_t(iterations_ * stride_));
+    const auto scores = run.log_scores(c);
+    log_scores_.insert(log_scores_.end(), scores.begin(),
+                       scores.begin() + std::ptrdiff_t(iterations_));
+    // A tour starts at the first kept draw at or after a regeneration step: the state there is
+    // a function of the exact draw and of later randomness only.
+    const auto steps = run.draw_steps(c);
+    const auto kept_end = steps.begin() + std::ptrdiff_t(iterations_);
+    std::vector<std::size_t> starts;
+    for (const std::int64_t r : run.regenerations(c)) {
+      const auto at = std::lower_bound(steps.begin(), kept_end, r);
+      const auto position = static_cast<std::size_t>(at - steps.begin());
+      if (starts.empty() || starts.back() != position) starts.push_back(position);
+      ++regenerations_;
+    }
+    tour_starts_.push_back(std::move(starts));
+    ++chains_;
+  }
+}
+
+// Ancestor sets by a fixed point per draw: anc(v) = pa(v) | union of anc(u) over u in anc(v).
+// Sweeping the nodes repeatedly converges within the length of the longest path.
+void RunFeatures::compute_ancestors() {
+  const std::size_t draws = std::size_t(chains_) * iterations_;
+  ancestors_ = rows_;
+  tbb::parallel_for(tbb::blocked_range<std::size_t>(0, draws), [&](const auto& range) {
+    std::vector<std::uint64_t> merged(static_cast<std::size_t>(words_));
+    for (std::size_t r = range.begin(); r != range.end(); ++r) {
+      std::uint64_t* anc = ancestors_.data() + r * stride_;
+      for (bool changed = true; changed;) {
+        changed = false;
+        for (int v = 0; v < n_; ++v) {
+          std::uint64_t* own = anc + std::size_t(v) * words_;
+          std::copy(own, own + words_, merged.begin());
+          for (int w = 0; w < words_; ++w)
+            for (std::uint64_t m = own[w]; m; m &= m - 1) {
+              const int u = w * 64 + std::countr_zero(m);
+              const std::uint64_t* theirs = anc + std::size_t(u) * words_;
+              for (int x = 0; x < words_; ++x) merged[std::size_t(x)] |= theirs[x];
+            }
+          if (!std::equal(merged.begin(), merged.end(), own)) {
+            std::copy(merged.begin(), merged.end(), own);
+            changed = true;
+          }
+        }
+      }
+    }
+  });
+}
+
+std::vector<std::pair<int, int>> RunFeatures::edges_seen() const {
+  std::vector<std::uint64_t> any(stride_, 0);
+  const std::size_t total = std::size_t(chains_) * iterations_;
+  for (std::size_t r = 0; r < total; ++r)
+    for (std::size_t w = 0; w < stride_; ++w) any[w] |= rows_[r * stride_ + w];
+  std::vector<std::pair<int, int>> out;
+  for (int to = 0; to < n_; ++to)
+    for (int w = 0; w < words_; ++w)
+      for (std::uint64_t m = any[std::size_t(to) * words_ + w]; m; m &= m - 1)
+        out.emplace_back(w * 64 + std::countr_zero(m), to);
+  std::sort(out.begin(), out.end());
+  return out;
+}
+
+namespace {
+void check_output_size(std::span<double> out, std::size_t expected) {
+  if (out.size() != expected) throw Error("RunFeatures: output size must be chains * draws");
+}
+}  // namespace
+
+void RunFeatures::edge(int from, int to, std::span<double> out) const {
+  const std::size_t total = std::size_t(chains_) * iterations_;
+  check_output_size(out, total);
+  for (std::size_t r = 0; r < total; ++r) out[r] = has_edge(r, from, to) ? 1.0 : 0.0;
+}
+
+void RunFeatures::adjacency(int a, int b, std::span<double> out) const {
+  const std::size_t total = std::size_t(chains_) * iterations_;
+  check_output_size(out, total);
+  for (std::size_t r = 0; r < total; ++r)
+    out[r] = (has_edge(r, a, b) || has_edge(r, b, a)) ? 1.0 : 0.0;
+}
+
+void RunFeatures::ancestor(int from, int to, std::span<double> out) const {
+  if (ancestors_.empty() && !rows_.empty()) throw Error("RunFeatures: built without ancestor sets");
+  const std::size_t total = std::size_t(chains_) * iterations_;
+  check_output_size(out, total);
+  for (std::size_t r = 0; r < total; ++r) out[r] = has_path(r, from, to) ? 1.0 : 0.0;
+}
+
+void RunFeatures::log_score(std::span<double> out) const {
+  check_output_size(out, log_scores_.size());
+  std::copy(log_scores_.begin(), log_scores_.end(), out.begin());
+}
+
+void RunFeatures::in_cover_class(int k, std::span<double> out) const {
+  if (n_ > 64 || words_ != 1)
+    throw InputError("membership in D_k is tested for at most 64 variables, the run has " +
+                     std::to_string(n_));
+  const std::size_t total = std::size_t(chains_) * iterations_;
+  check_output_size(out, total);
+  tbb::parallel_for(tbb::blocked_range<std::size_t>(0, total), [&](const auto& range) {
+    Dag dag(n_);
+    for (std::size_t r = range.begin(); r != range.end(); ++r) {
+      std::copy(rows_.begin() + std::ptrdiff_t(r * stride_),
+                rows_.begin() + std::ptrdiff_t((r + 1) * stride_), dag.parents.begin());
+      out[r] = covey::in_cover_class(dag, k) ? 1.0 : 0.0;
+    }
+  });
+}
+
+}  // namespace covey

@@ -1,0 +1,43 @@
+#pragma once
+// Convergence diagnostics of chain runs (DESIGN section 10): for every feature of the selected
+// kinds, over all chains of one or more run files of the same table, its posterior mean (a
+// probability for an indicator), rank-normalized split R-hat, bulk and tail ESS and MCSE
+// (diagnostics.hpp); where teleports regenerated the chains, also the regenerative standard
+// error over the tours between regenerations. Also the report model of a run (report.hpp).
+#include <string>
+#include <vector>
+
+#include "covey/chain_run_file.hpp"
+#include "covey/diagnostics.hpp"
+#include "covey/features.hpp"
+#include "covey/report.hpp"
+
+namespace covey {
+
+// Opens every run file (InputError naming the file); see RunFeatures for the checks that they
+// belong together.
+std::vector<ChainRun> open_runs(const std::vector<std::string>& paths);
+
+struct RunDiagnostics {
+  int chains = 0;
+  int iterations = 0;  // kept draws per chain
+  std::size_t regenerations = 0;
+  std::size_t tours = 0;  // complete tours between regenerations, all chains
+  std::vector<FeatureId> features;
+  std::vector<FeatureSummary> summaries;  // one per feature
+  // Regenerative standard error of each feature's mean (NaN when fewer than 2 complete tours).
+  std::vector<double> regenerative_se;
+};
+
+// Throws InputError when a run holds fewer draws per chain than the diagnostics need.
+RunDiagnostics diagnose_run(const RunFeatures& draws, const std::vector<FeatureId>& features,
+                            const ProgressCallback& progress = {});
+
+// The report model of the runs: traces, every feature's diagnostics, the edge-probability
+// matrix, the run facts (chains, steps, acceptance by move, regenerations) and run-specific
+// cautions (not converged, undefined features, few tours). `diagnostics` must hold the edge
+// features of `draws` (and may hold others).
+ReportData report_data_from_runs(const std::vector<ChainRun>& runs, const RunFeatures& draws,
+                                 const RunDiagnostics& diagnostics, const Thresholds& thresholds);
+
+}  // namespace covey
