@@ -6,16 +6,17 @@
 set -euo pipefail
 here=$(cd "$(dirname "$0")" && pwd)
 root=$(dirname "$here")
-covey=${COVEY:-$root/build/covey}
-out=${OUT:-$root/out/demo}
+cd "$root"  # paths in the output stay short and the same on every machine
+covey=${COVEY:-build/covey}
+out=${OUT:-out/demo}
 mkdir -p "$out"
-data=$here/orchard_inspections.csv
-truth=$here/orchard_inspections_truth.tsv
+data=examples/orchard_inspections.csv
+truth=examples/orchard_inspections_truth.tsv
 step() { printf '\n== %s\n' "$*"; }
 
 step "1/8 score: BDeu local scores of the 12 inspection variables (max in-degree 3)"
 "$covey" score "$data" -o "$out/scores.h5" --max-indegree 3
-"$covey" info "$out/scores.h5" | head -4
+"$covey" info "$out/scores.h5"
 
 step "2/8 best: the highest-scoring DAG whose moral graph has a vertex cover of size <= 3"
 "$covey" best "$out/scores.h5" --cover 3 --dot "$out/best.dot"
