@@ -5,6 +5,7 @@
 #include <numeric>
 
 #include "covey/error.hpp"
+#include "covey/progress.hpp"
 #include "covey/structure_chain.hpp"
 
 namespace covey {
@@ -67,6 +68,18 @@ RunDiagnostics diagnose_run(const RunFeatures& draws, const std::vector<FeatureI
       },
       progress);
   return out;
+}
+
+RunDiagnostics diagnose_run_with_progress(const RunFeatures& draws,
+                                          const std::vector<FeatureId>& features,
+                                          const std::string& label) {
+  Progress progress(label);
+  const auto total = static_cast<double>(features.size());
+  RunDiagnostics d = diagnose_run(draws, features, [&progress, total](std::size_t done) {
+    progress.update(static_cast<double>(done), total);
+  });
+  progress.finish();
+  return d;
 }
 
 namespace {

@@ -167,18 +167,16 @@ std::unique_ptr<Impl> load_exact_table(const std::string& path, const CompareOpt
   return p;
 }
 
-std::unique_ptr<Impl> load_cover_draws(const std::string& path, const CompareOptions& o) {
+// The fields every draws file has (CoverDrawsFile or DrawsFile), then the frequencies.
+template <class File>
+std::unique_ptr<Impl> from_draws(PosteriorSource source, File file, std::string label,
+                                 const CompareOptions& o) {
   auto p = std::make_unique<Impl>();
-  p->source = PosteriorSource::kCoverDraws;
-  CoverDrawsFile file = read_cover_draws(path);
+  p->source = source;
   p->variables = file.variables;
   p->n = static_cast<int>(file.variables.size());
   p->fingerprint = file.table_fingerprint;
-  p->cover_bound = file.cover_bound;
-  p->label = "exact draws from D_" + std::to_string(file.cover_bound) + " (" + path + ", " +
-             std::to_string(file.dags.size()) + " draws)";
-  p->log_weight = PosteriorEstimate::LogWeight{file.total_weight.log_estimate,
-                                               file.total_weight.log_lo, file.total_weight.log_hi};
+  p->label = std::move(label);
   size_features(*p);
   estimates_from_draws(*p, file.dags, o.kinds.ancestors);
   p->dags = std::move(file.dags);
@@ -186,19 +184,23 @@ std::unique_ptr<Impl> load_cover_draws(const std::string& path, const CompareOpt
   return p;
 }
 
-std::unique_ptr<Impl> load_exact_draws(const std::string& path, const CompareOptions& o) {
-  auto p = std::make_unique<Impl>();
-  p->source = PosteriorSource::kExactDraws;
-  DrawsFile file = read_draws(path);
-  p->variables = file.variables;
-  p->n = static_cast<int>(file.variables.size());
-  p->fingerprint = file.table_fingerprint;
-  p->label = "exact draws, all DAGs (" + path + ", " + std::to_string(file.dags.size()) + " draws)";
-  size_features(*p);
-  estimates_from_draws(*p, file.dags, o.kinds.ancestors);
-  p->dags = std::move(file.dags);
-  p->options = o;
+std::unique_ptr<Impl> load_cover_draws(const std::string& path, const CompareOptions& o) {
+  CoverDrawsFile file = read_cover_draws(path);
+  const int k = file.cover_bound;
+  const auto weight = file.total_weight;
+  std::string label = "exact draws from D_" + std::to_string(k) + " (" + path + ", " +
+                      std::to_string(file.dags.size()) + " draws)";
+  auto p = from_draws(PosteriorSource::kCoverDraws, std::move(file), std::move(label), o);
+  p->cover_bound = k;
+  p->log_weight = PosteriorEstimate::LogWeight{weight.log_estimate, weight.log_lo, weight.log_hi};
   return p;
+}
+
+std::unique_ptr<Impl> load_exact_draws(const std::string& path, const CompareOptions& o) {
+  DrawsFile file = read_draws(path);
+  std::string label =
+      "exact draws, all DAGs (" + path + ", " + std::to_string(file.dags.size()) + " draws)";
+  return from_draws(PosteriorSource::kExactDraws, std::move(file), std::move(label), o);
 }
 
 std::unique_ptr<Impl> load_chain_runs(const std::vector<std::string>& paths,

@@ -32,6 +32,10 @@ struct RunDiagnostics {
 // Throws InputError when a run holds fewer draws per chain than the diagnostics need.
 RunDiagnostics diagnose_run(const RunFeatures& draws, const std::vector<FeatureId>& features,
                             const ProgressCallback& progress = {});
+// The same, showing a progress line labelled `label` on a terminal.
+RunDiagnostics diagnose_run_with_progress(const RunFeatures& draws,
+                                          const std::vector<FeatureId>& features,
+                                          const std::string& label);
 
 // The report model of the runs: traces, every feature's diagnostics, the edge-probability
 // matrix, the run facts (chains, steps, acceptance by move, regenerations) and run-specific

@@ -77,11 +77,7 @@ CheckedInput check_runs(const CheckOptions& options) {
   const std::vector<ChainRun> runs = open_runs(options.files);
   const RunFeatures draws(runs, kinds.ancestors);
   const std::vector<FeatureId> features = list_features(draws.num_variables(), kinds);
-  Progress progress("check: diagnostics");
-  const auto total = static_cast<double>(features.size());
-  const RunDiagnostics d = diagnose_run(draws, features, [&progress, total](std::size_t done) {
-    progress.update(static_cast<double>(done), total);
-  });
+  const RunDiagnostics d = diagnose_run_with_progress(draws, features, "check: diagnostics");
   CheckedInput in;
   for (const std::string& file : options.files) in.source += (in.source.empty() ? "" : ", ") + file;
   in.chains = d.chains;

@@ -93,12 +93,7 @@ void setup_report(CLI::App& app) {
     }
     const RunFeatures draws(runs, kinds.ancestors);
     const std::vector<FeatureId> features = list_features(draws.num_variables(), kinds);
-    Progress progress("report: diagnostics");
-    const auto total = static_cast<double>(features.size());
-    const RunDiagnostics d = diagnose_run(draws, features, [&progress, total](std::size_t done) {
-      progress.update(static_cast<double>(done), total);
-    });
-    progress.finish();
+    const RunDiagnostics d = diagnose_run_with_progress(draws, features, "report: diagnostics");
     ReportData data = report_data_from_runs(runs, draws, d, o->thresholds);
     if (!o->title.empty()) data.title = o->title;
     data.consensus_threshold = o->consensus;
