@@ -11,6 +11,7 @@
 #include "covey/error.hpp"
 #include "covey/h5.hpp"
 #include "covey/progress.hpp"
+#include "covey/proportion.hpp"
 #include "covey/version.hpp"
 
 namespace covey {
@@ -46,14 +47,11 @@ CoverDrawBatch draw_cover_batch(const CoverSampler& sampler, std::uint64_t seed,
 LogTotalWeightEstimate estimate_log_total_weight(double log_upper_bound, std::uint64_t accepted,
                                                  std::uint64_t trials) {
   if (trials == 0 || accepted > trials) throw Error("total-weight estimate: no trials");
-  const double z = 1.959963984540054;  // standard normal 97.5% quantile
-  const double t = double(trials), p = double(accepted) / t, z2 = z * z;
-  const double denom = 1 + z2 / t;
-  const double center = (p + z2 / (2 * t)) / denom;
-  const double half = z * std::sqrt(p * (1 - p) / t + z2 / (4 * t * t)) / denom;
+  const double p = double(accepted) / double(trials);
+  const ProportionInterval ci = wilson_interval(accepted, trials);
   LogTotalWeightEstimate e;
   e.log_estimate = accepted ? log_upper_bound + std::log(p) : -INFINITY;
-  const double lo = center - half, hi = std::min(1.0, center + half);
+  const double lo = ci.lo, hi = ci.hi;
   e.log_lo = lo > 0 ? log_upper_bound + std::log(lo) : -INFINITY;
   e.log_hi = log_upper_bound + std::log(hi);
   return e;

@@ -11,6 +11,7 @@
 //    a little larger; its cancellation error is bounded in docs/exact-engine.md.
 // The work is estimated before it starts; a problem beyond the limits is refused with the
 // estimates (ResourceError), never left to hang or to exhaust memory.
+#include <algorithm>
 #include <cstddef>
 #include <cstdint>
 #include <functional>
@@ -70,7 +71,8 @@ struct ExactPosterior {
   long long clamped = 0;  // signed route: negative sums clamped to 0
 
   double edge(int from, int to) const { return edge_probability[from * num_variables + to]; }
-  double adjacency(int a, int b) const { return edge(a, b) + edge(b, a); }
+  // The two directions exclude each other; their sum can pass 1 only by rounding.
+  double adjacency(int a, int b) const { return std::min(1.0, edge(a, b) + edge(b, a)); }
   double ancestor(int from, int to) const {
     return ancestor_probability[from * num_variables + to];
   }
