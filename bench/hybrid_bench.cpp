@@ -47,8 +47,8 @@ constexpr std::size_t kExactDraws = 20000;  // for the mass of D_2 (n = 12 > enu
 constexpr int kChains = 4;
 constexpr std::uint64_t kThin = 100;
 constexpr double kSecondsPerConfiguration = 7;
-constexpr double kCommonEdge = 0.01;   // edges with exact probability in [1%, 99%]
-constexpr double kRevRate = 1.0 / 15;  // the library default
+constexpr double kCommonEdge = 0.01;    // edges with exact probability in [1%, 99%]
+constexpr double kRevRate = 1.0 / 15;   // the library default
 constexpr double kTeleportRate = 0.01;  // the CLI default (0.05 measured lower)
 
 double seconds_since(std::chrono::steady_clock::time_point start) {
