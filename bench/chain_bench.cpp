@@ -4,6 +4,8 @@
 // Counters: proposals_per_second and ratio_to_target (>= 1 meets the target).
 #include <benchmark/benchmark.h>
 
+#include "bench_tables.hpp"
+
 #include <algorithm>
 #include <bit>
 #include <boost/random/normal_distribution.hpp>
@@ -16,33 +18,11 @@
 
 namespace {
 
-// Every subset of size <= d of `num_candidates` random candidates, with log scores
-// Normal(0, 1) - penalty * |S| (sparse, realistic acceptance rates around a few percent).
+// `num_candidates` random candidates per node, log scores Normal(0, 1) - penalty * |S| (sparse,
+// realistic acceptance rates around a few percent).
 covey::ScoreTable make_table(int n, int num_candidates, int d, double penalty) {
   covey::Rng rng = covey::make_stream(42, static_cast<std::uint64_t>(n));
-  boost::random::normal_distribution<double> normal(0.0, 1.0);
-  std::vector<covey::Variable> vars;
-  for (int v = 0; v < n; ++v)
-    vars.push_back({"X" + std::to_string(v), covey::VariableKind::kDiscrete, {}});
-  std::vector<covey::NodeScores> nodes(n);
-  for (int v = 0; v < n; ++v) {
-    std::vector<int> others;
-    for (int u = 0; u < n; ++u)
-      if (u != v) others.push_back(u);
-    for (int i = 0; i < num_candidates; ++i) {
-      const auto j = i + covey::uniform_below(rng, others.size() - i);
-      std::swap(others[i], others[j]);
-      nodes[v].candidates.push_back(others[i]);
-    }
-    std::function<void(int, covey::ParentMask)> subsets = [&](int start, covey::ParentMask m) {
-      nodes[v].masks.push_back(m);
-      nodes[v].log_scores.push_back(normal(rng) - penalty * std::popcount(m));
-      if (std::popcount(m) == d) return;
-      for (int b = start; b < num_candidates; ++b) subsets(b + 1, m | (covey::ParentMask{1} << b));
-    };
-    subsets(0, 0);
-  }
-  return covey::ScoreTable(std::move(vars), std::move(nodes));
+  return covey::bench::random_bench_table({n, num_candidates, d, 1.0, penalty}, rng);
 }
 
 void run_chain(benchmark::State& state, int n, int num_candidates, double rev_rate, double target) {

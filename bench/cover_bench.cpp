@@ -5,6 +5,8 @@
 // target as counters (time ratios below 1 and rate ratios above 1 meet the target).
 #include <benchmark/benchmark.h>
 
+#include "bench_tables.hpp"
+
 #include <boost/random/normal_distribution.hpp>
 #include <chrono>
 #include <functional>
@@ -18,25 +20,8 @@
 namespace {
 
 covey::ScoreTable random_table(int n, int d, std::uint64_t seed) {
-  std::vector<covey::Variable> vars;
-  for (int v = 0; v < n; ++v)
-    vars.push_back({"X" + std::to_string(v), covey::VariableKind::kDiscrete, {}});
-  std::vector<covey::NodeScores> nodes(n);
   covey::Rng rng = covey::make_stream(seed, 0);
-  boost::random::normal_distribution<double> normal(0.0, 1.2);
-  for (int v = 0; v < n; ++v) {
-    for (int u = 0; u < n; ++u)
-      if (u != v) nodes[v].candidates.push_back(u);
-    std::function<void(int, covey::ParentMask, int)> rec = [&](int start, covey::ParentMask m,
-                                                               int size) {
-      nodes[v].masks.push_back(m);
-      nodes[v].log_scores.push_back(normal(rng) - 0.5 * size);
-      if (size == d) return;
-      for (int i = start; i < n - 1; ++i) rec(i + 1, m | (covey::ParentMask{1} << i), size + 1);
-    };
-    rec(0, 0, 0);
-  }
-  return covey::ScoreTable(std::move(vars), std::move(nodes));
+  return covey::bench::random_bench_table({n, -1, d, 1.2, 0.5}, rng);
 }
 
 double seconds_since(std::chrono::steady_clock::time_point start) {

@@ -1,6 +1,8 @@
 // Score-table lookups: the inner operation of every MCMC proposal (O(1) expected).
 #include <benchmark/benchmark.h>
 
+#include "bench_tables.hpp"
+
 #include <functional>
 #include <vector>
 
@@ -10,24 +12,8 @@
 namespace {
 
 covey::ScoreTable make_table(int n, int d) {
-  std::vector<covey::Variable> vars;
-  for (int v = 0; v < n; ++v) vars.push_back({"X" + std::to_string(v), covey::VariableKind::kDiscrete, {}});
-  std::vector<covey::NodeScores> nodes(n);
   covey::Rng rng = covey::make_stream(1, 0);
-  for (int v = 0; v < n; ++v) {
-    for (int u = 0; u < n; ++u)
-      if (u != v) nodes[v].candidates.push_back(u);
-    // all subsets of size <= d of the n-1 candidates, by enumerating combinations
-    std::vector<int> idx;
-    std::function<void(int, covey::ParentMask)> rec = [&](int start, covey::ParentMask m) {
-      nodes[v].masks.push_back(m);
-      nodes[v].log_scores.push_back(covey::uniform01(rng));
-      if (__builtin_popcountll(m) == d) return;
-      for (int i = start; i < n - 1; ++i) rec(i + 1, m | (covey::ParentMask{1} << i));
-    };
-    rec(0, 0);
-  }
-  return covey::ScoreTable(std::move(vars), std::move(nodes));
+  return covey::bench::random_bench_table({n, -1, d, 1.0, 0.0}, rng);
 }
 
 void BM_ScoreLookup(benchmark::State& state) {
