@@ -23,25 +23,6 @@ namespace covey {
 namespace chain_file {
 namespace {
 
-std::string hex(std::uint64_t f) {
-  char buf[32];
-  std::snprintf(buf, sizeof buf, "%016" PRIx64, f);
-  return buf;
-}
-
-std::uint64_t parse_hex(const std::string& text, const std::string& path) {
-  std::size_t used = 0;
-  std::uint64_t value = 0;
-  try {
-    value = std::stoull(text, &used, 16);
-  } catch (const std::exception&) {
-    used = 0;
-  }
-  if (text.empty() || used != text.size())
-    throw InputError(path + ": corrupt table_fingerprint attribute '" + text + "'");
-  return value;
-}
-
 std::uint64_t unix_time_ms() {
   return static_cast<std::uint64_t>(std::chrono::duration_cast<std::chrono::milliseconds>(
                                         std::chrono::system_clock::now().time_since_epoch())
@@ -150,7 +131,7 @@ void create(const std::string& path, const Header& header, const std::vector<Cha
     h5::set_attr(file, "format_version", kChainRunFormatVersion);
     h5::set_attr(file, "covey_version", std::string(kVersion));
     h5::set_attr(file, "command_line", header.session.value("command_line", std::string()));
-    h5::set_attr(file, "table_fingerprint", hex(header.fingerprint));
+    h5::set_attr(file, "table_fingerprint", format_fingerprint(header.fingerprint));
     h5::set_attr(file, "num_variables", static_cast<long long>(header.variables.size()));
     h5::set_attr(file, "words_per_node", static_cast<long long>(header.words_per_node));
     h5::set_attr(file, "num_chains", static_cast<long long>(header.num_chains));
@@ -249,7 +230,7 @@ ChainRun ChainRun::open(const std::string& path) {
       throw InputError(path + ": chain-run format version " + std::to_string(version) +
                        " is not supported (this covey reads version " +
                        std::to_string(kChainRunFormatVersion) + ")");
-    run.fingerprint_ = parse_hex(h5::get_attr_string(file, "table_fingerprint"), path);
+    run.fingerprint_ = parse_fingerprint(h5::get_attr_string(file, "table_fingerprint"), path);
     run.num_chains_ = static_cast<int>(h5::get_attr_int(file, "num_chains"));
     run.words_ = static_cast<int>(h5::get_attr_int(file, "words_per_node"));
     run.options_ = h5::get_attr_json(file, "options");
@@ -356,7 +337,8 @@ void ChainRun::check_table(const ScoreTable& table) const {
   for (int v = 0; same && v < table.num_variables(); ++v) same = table.name(v) == variables_[v];
   if (!same)
     throw InputError(path_ + ": the run was made from a different score table (fingerprint " +
-                     hex(fingerprint_) + ", this table " + hex(table.fingerprint()) + ")");
+                     format_fingerprint(fingerprint_) + ", this table " +
+                     format_fingerprint(table.fingerprint()) + ")");
 }
 
 }  // namespace covey

@@ -132,12 +132,6 @@ void estimates_from_draws(Impl& p, const std::vector<Dag>& dags, bool ancestors)
   p.has_ancestors = ancestors;
 }
 
-std::string fingerprint_text(std::uint64_t f) {
-  char buffer[32];
-  std::snprintf(buffer, sizeof buffer, "%016" PRIx64, f);
-  return buffer;
-}
-
 std::unique_ptr<Impl> load_exact_table(const std::string& path, const CompareOptions& o) {
   auto p = std::make_unique<Impl>();
   p->source = PosteriorSource::kExactTable;
@@ -369,8 +363,8 @@ PosteriorComparison compare_posteriors(const PosteriorEstimate& a, const Posteri
     throw InputError(
         "compare: the two results were made from different score tables "
         "(fingerprints " +
-        fingerprint_text(a.table_fingerprint()) + " and " +
-        fingerprint_text(b.table_fingerprint()) + ")");
+        format_fingerprint(a.table_fingerprint()) + " and " +
+        format_fingerprint(b.table_fingerprint()) + ")");
   PosteriorComparison out;
   out.label_a = a.label();
   out.label_b = b.label();

@@ -130,10 +130,7 @@ CoverDrawsFile read_cover_draws(const std::string& path) {
     d.total_weight.log_estimate = h5::get_attr_double(file, "log_total_weight");
     d.total_weight.log_lo = h5::get_attr_double(file, "log_total_weight_ci95_lo");
     d.total_weight.log_hi = h5::get_attr_double(file, "log_total_weight_ci95_hi");
-    const std::string fp = h5::get_attr_string(file, "table_fingerprint");
-    char* end = nullptr;
-    d.table_fingerprint = std::strtoull(fp.c_str(), &end, 16);
-    if (fp.empty() || *end != '\0') throw InputError(path + ": malformed table_fingerprint");
+    d.table_fingerprint = parse_fingerprint(h5::get_attr_string(file, "table_fingerprint"), path);
     d.command_line = h5::get_attr_string(file, "command_line");
     d.covey_version = h5::get_attr_string(file, "covey_version");
     d.variables = h5::read_strings(file.openGroup("variables"), "names");

@@ -21,17 +21,7 @@ constexpr long long kSamplerFormatVersion = 1;
 static_assert(std::numeric_limits<long double>::digits <= 64,
               "the sampler file stores long double mantissas in 64 bits");
 
-std::string hex64(std::uint64_t x) {
-  char buf[32];
-  std::snprintf(buf, sizeof buf, "%016" PRIx64, x);
-  return buf;
-}
-
 }  // namespace
-
-std::string format_fingerprint(std::uint64_t fingerprint) {
-  return hex64(fingerprint);
-}
 
 void CoverSampler::save(const std::string& path) const {
   const Impl& d = *impl_;
@@ -42,7 +32,7 @@ void CoverSampler::save(const std::string& path) const {
     h5::set_attr(file, "format_version", kSamplerFormatVersion);
     h5::set_attr(file, "cover_bound", static_cast<long long>(d.k));
     h5::set_attr(file, "num_variables", static_cast<long long>(d.n));
-    h5::set_attr(file, "table_fingerprint", hex64(d.fingerprint));
+    h5::set_attr(file, "table_fingerprint", format_fingerprint(d.fingerprint));
     h5::set_attr(file, "log_upper_bound", d.log_u);
     h5::set_attr(file, "covey_version", std::string(kVersion));
     std::vector<std::uint64_t> covers;
@@ -87,9 +77,10 @@ CoverSampler CoverSampler::load(const std::string& path, const ScoreTable& table
       throw InputError(path + ": written by a newer covey");
     const std::string fingerprint = h5::get_attr_string(file, "table_fingerprint");
     if (h5::get_attr_int(file, "num_variables") != table.num_variables() ||
-        fingerprint != hex64(table.fingerprint()))
+        fingerprint != format_fingerprint(table.fingerprint()))
       throw InputError(path + ": the sampler was built from a different score table (fingerprint " +
-                       fingerprint + ", this table has " + hex64(table.fingerprint()) + ")");
+                       fingerprint + ", this table has " + format_fingerprint(table.fingerprint()) +
+                       ")");
     d.n = table.num_variables();
     d.k = static_cast<int>(h5::get_attr_int(file, "cover_bound"));
     check_cover_bound(table, d.k, (path + ": cover bound").c_str());

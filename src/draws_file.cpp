@@ -15,25 +15,6 @@ namespace {
 constexpr const char* kFormatName = "covey-draws";
 constexpr long long kFormatVersion = 1;
 
-std::string hex_fingerprint(std::uint64_t f) {
-  char buf[32];
-  std::snprintf(buf, sizeof buf, "%016" PRIx64, f);
-  return buf;
-}
-
-std::uint64_t parse_fingerprint(const std::string& text, const std::string& path) {
-  std::size_t used = 0;
-  std::uint64_t value = 0;
-  try {
-    value = std::stoull(text, &used, 16);
-  } catch (const std::exception&) {
-    used = 0;
-  }
-  if (text.empty() || used != text.size())
-    throw InputError(path + ": corrupt table_fingerprint attribute '" + text + "'");
-  return value;
-}
-
 // Scalar JSON values become attributes of their own (readable with h5dump); everything else is
 // in the `attributes` JSON text.
 void write_scalar_attributes(H5::H5File& file, const nlohmann::json& attributes) {
@@ -85,7 +66,7 @@ void write_draws(const std::string& path, const ScoreTable& table, const std::ve
     h5::set_attr(file, "format_version", kFormatVersion);
     h5::set_attr(file, "num_variables", static_cast<long long>(n));
     h5::set_attr(file, "num_draws", static_cast<long long>(dags.size()));
-    h5::set_attr(file, "table_fingerprint", hex_fingerprint(table.fingerprint()));
+    h5::set_attr(file, "table_fingerprint", format_fingerprint(table.fingerprint()));
     write_scalar_attributes(file, attrs);
     h5::set_attr_json(file, "attributes", attrs);
     H5::Group vars = file.createGroup("variables");
@@ -158,8 +139,8 @@ void check_draws_match_table(const DrawsFile& draws, const ScoreTable& table,
     throw InputError(path + ": the draws are over other variables than the score table");
   if (draws.table_fingerprint != table.fingerprint())
     throw InputError(path + ": the draws were made from a different score table (fingerprint " +
-                     hex_fingerprint(draws.table_fingerprint) + ", table " +
-                     hex_fingerprint(table.fingerprint()) + ")");
+                     format_fingerprint(draws.table_fingerprint) + ", table " +
+                     format_fingerprint(table.fingerprint()) + ")");
 }
 
 }  // namespace covey

@@ -2,7 +2,9 @@
 
 #include <algorithm>
 #include <bit>
+#include <cinttypes>
 #include <cmath>
+#include <cstdio>
 #include <numeric>
 #include <unordered_set>
 
@@ -144,7 +146,8 @@ std::vector<ParentMask> ScoreTable::global_parent_sets(int v) const {
 
 std::vector<int> ScoreTable::parents_of(int v, ParentMask local) const {
   std::vector<int> out;
-  for (ParentMask m = local; m; m &= m - 1) out.push_back(nodes_[v].candidates[std::countr_zero(m)]);
+  for (ParentMask m = local; m; m &= m - 1)
+    out.push_back(nodes_[v].candidates[std::countr_zero(m)]);
   std::sort(out.begin(), out.end());
   return out;
 }
@@ -185,6 +188,25 @@ std::size_t ScoreTable::estimate_bytes(int num_variables, std::size_t total_pare
   // masks + scores + hash slots (load <= 1/2, so up to 4 slots per set) + position matrix.
   return total_parent_sets * (sizeof(ParentMask) + sizeof(double) + 4 * sizeof(std::int32_t)) +
          std::size_t(num_variables) * num_variables * sizeof(std::int16_t);
+}
+
+std::string format_fingerprint(std::uint64_t fingerprint) {
+  char buf[32];
+  std::snprintf(buf, sizeof buf, "%016" PRIx64, fingerprint);
+  return buf;
+}
+
+std::uint64_t parse_fingerprint(const std::string& text, const std::string& path) {
+  std::size_t used = 0;
+  std::uint64_t value = 0;
+  try {
+    value = std::stoull(text, &used, 16);
+  } catch (const std::exception&) {
+    used = 0;
+  }
+  if (text.empty() || used != text.size())
+    throw InputError(path + ": corrupt table_fingerprint attribute '" + text + "'");
+  return value;
 }
 
 }  // namespace covey

@@ -84,9 +84,6 @@ class CoverSampler {
   std::unique_ptr<Impl> impl_;
 };
 
-// A table fingerprint as stored in files: 16 lowercase hex digits.
-std::string format_fingerprint(std::uint64_t fingerprint);
-
 // Number of candidate splits for n variables and bound k: sum over c <= k, l <= c of
 // C(n, c) C(n - c, l).
 double count_candidate_splits(int n, int k);

@@ -108,4 +108,9 @@ class ScoreTable {
   ScoreMetadata metadata_;
 };
 
+// A table fingerprint as stored in files: 16 lowercase hex digits; and back, with InputError
+// naming `path` when the text is not one.
+std::string format_fingerprint(std::uint64_t fingerprint);
+std::uint64_t parse_fingerprint(const std::string& text, const std::string& path);
+
 }  // namespace covey
