@@ -16,7 +16,7 @@ namespace {
 
 int g_rank = 0;
 int g_size = 1;
-bool g_active = false;
+[[maybe_unused]] bool g_active = false;
 
 [[maybe_unused]] bool started_by_launcher() {
   for (const char* name : {"OMPI_COMM_WORLD_SIZE", "PMIX_RANK", "PMI_SIZE", "PMI_RANK"})
@@ -55,6 +55,8 @@ Session::~Session() {
   g_active = false;
   g_rank = 0;
   g_size = 1;
+#else
+  (void)initialised_;
 #endif
 }
 

@@ -37,8 +37,9 @@ using testing_util::TempDir;
 // (often not permitted in containers). The same flags are in docs/cluster.md.
 std::string mpirun(int ranks) {
   const std::string launcher = COVEY_MPIRUN;
-  if (launcher.empty()) ADD_FAILURE() << "built with MPI but mpirun was not found at configure time";
-  return "OMPI_MCA_btl_vader_single_copy_mechanism=none " + launcher +
+  if (launcher.empty())
+    ADD_FAILURE() << "built with MPI but mpirun was not found at configure time";
+  return "env OMPI_MCA_btl_vader_single_copy_mechanism=none " + launcher +
          " --allow-run-as-root --oversubscribe --bind-to none --mca btl self,vader -np " +
          std::to_string(ranks) + " ";
 }
@@ -149,10 +150,10 @@ TEST(MpiChain, KilledRankThenResumeEqualsStraightRun) {
   ASSERT_EQ(r.exit_code, 0) << r.err;
   // The same run; every rank records its process id (exec keeps it), and rank 1 gets SIGKILL.
   const std::string killed = dir.file("killed.h5");
-  const pid_t job = spawn_shell(
-      "exec " + mpirun(3) + "sh -c 'echo $$ > " + dir.path() +
-      "/pid.$OMPI_COMM_WORLD_RANK; exec " + COVEY_BINARY + " chain " + common +
-      " --checkpoint-every 0.1s -o " + killed + "' >/dev/null 2>&1");
+  const pid_t job =
+      spawn_shell("exec " + mpirun(3) + "sh -c 'echo $$ > " + dir.path() +
+                  "/pid.$OMPI_COMM_WORLD_RANK; exec " + COVEY_BINARY + " chain " + common +
+                  " --checkpoint-every 0.1s -o " + killed + "' >/dev/null 2>&1");
   ASSERT_GT(job, 0);
   const bool checkpointed = wait_for([&] {
     for (const std::string& f : run_member_files(killed))
@@ -197,7 +198,8 @@ TEST(MpiChain, ConvergenceStopIsCollective) {
   // A cap far beyond what convergence needs; checks every 0.2 s.
   auto r = run_shell(mpirun(3) + COVEY_BINARY + " chain " + scores +
                      " --chains 4 --thin 20 --seed 3 --steps 2e8 --until-rhat 1.05 "
-                     "--until-ess 200 --checkpoint-every 0.2s --json -o " + manifest);
+                     "--until-ess 200 --checkpoint-every 0.2s --json -o " +
+                     manifest);
   ASSERT_EQ(r.exit_code, 0) << r.err;
   const auto j = nlohmann::json::parse(r.out);
   EXPECT_EQ(j["stop_reason"], "converged");
@@ -226,14 +228,13 @@ TEST(MpiChain, SigtermToOneRankStopsEveryRankAtOneStep) {
   const std::string scores = write_table(dir, 8, 3, 29);
   const std::string run = dir.file("sig.h5");
   const std::string args = scores + " --chains 3 --thin 500 --seed 2 --steps 1e9 --json";
-  const pid_t job = spawn_shell("exec " + mpirun(3) + "sh -c 'echo $$ > " + dir.path() +
-                                "/pid.$OMPI_COMM_WORLD_RANK; exec " + COVEY_BINARY + " chain " +
-                                args + " -o " + run + "' >" + dir.file("out.json") + " 2>" +
-                                dir.file("err.txt"));
+  const pid_t job =
+      spawn_shell("exec " + mpirun(3) + "sh -c 'echo $$ > " + dir.path() +
+                  "/pid.$OMPI_COMM_WORLD_RANK; exec " + COVEY_BINARY + " chain " + args + " -o " +
+                  run + "' >" + dir.file("out.json") + " 2>" + dir.file("err.txt"));
   ASSERT_GT(job, 0);
-  const bool started = wait_for([&] {
-    return std::filesystem::exists(dir.file("pid.2")) && std::filesystem::exists(run);
-  });
+  const bool started = wait_for(
+      [&] { return std::filesystem::exists(dir.file("pid.2")) && std::filesystem::exists(run); });
   if (!started) kill(job, SIGKILL);
   ASSERT_TRUE(started);
   // Only rank 2 sees the signal; the collective stop flag ends all ranks cleanly.
