@@ -34,12 +34,16 @@ using testing_util::TempDir;
 
 // OpenMPI in a container as root: --allow-run-as-root, --oversubscribe (3 ranks on 2 cores),
 // shared memory and self transports only, no CPU binding, no single-copy kernel mechanism
-// (often not permitted in containers). The same flags are in docs/cluster.md.
+// (often not permitted in containers). The same flags are in docs/cluster.md. Under the
+// sanitizer build, LeakSanitizer is off for the ranks: OpenMPI leaves allocations of its
+// plugins (unloaded at MPI_Finalize, so no suppression can name them) at exit; covey's own code
+// paths are leak-checked by the single-process tests.
 std::string mpirun(int ranks) {
   const std::string launcher = COVEY_MPIRUN;
   if (launcher.empty())
     ADD_FAILURE() << "built with MPI but mpirun was not found at configure time";
-  return "env OMPI_MCA_btl_vader_single_copy_mechanism=none " + launcher +
+  return "env OMPI_MCA_btl_vader_single_copy_mechanism=none ASAN_OPTIONS=detect_leaks=0 " +
+         launcher +
          " --allow-run-as-root --oversubscribe --bind-to none --mca btl self,vader -np " +
          std::to_string(ranks) + " ";
 }
@@ -75,7 +79,10 @@ void expect_members_equal_single(const std::string& manifest, const ChainRun& si
     const ChainRun member = ChainRun::open(file);
     EXPECT_EQ(member.steps(), single.steps()) << file;
     EXPECT_EQ(member.num_draws(), single.num_draws()) << file;
-    EXPECT_EQ(member.options(), single.options()) << file;
+    // The options fixed at creation (the stopping options are the first session's).
+    for (const char* key : {"chains", "thin", "burn_in", "seed", "rev_rate", "teleport_rate",
+                            "teleport_cover", "cover_limit", "start"})
+      EXPECT_EQ(member.options()[key], single.options()[key]) << file << " " << key;
     for (int c = 0; c < member.num_chains(); ++c) {
       const int g = member.global_chains()[std::size_t(c)];
       EXPECT_EQ(g, next++) << file;
@@ -183,10 +190,7 @@ TEST(MpiChain, KilledRankThenResumeEqualsStraightRun) {
     EXPECT_EQ(x.num_draws(), y.num_draws());
     for (int c = 0; c < x.num_chains(); ++c) expect_same_chain(x, c, y, c);
   }
-  // And both equal the run in one process.
-  r = run_covey("chain " + common + " -o " + dir.file("one.h5"));
-  ASSERT_EQ(r.exit_code, 0) << r.err;
-  expect_members_equal_single(killed, ChainRun::open(dir.file("one.h5")));
+  // (The straight MPI run equals the run in one process: ThreeRanksEqualOneProcessChainByChain.)
   for (const auto& e : std::filesystem::directory_iterator(dir.path()))
     EXPECT_EQ(e.path().filename().string().find(".tmp-"), std::string::npos) << e.path();
 }
