@@ -227,6 +227,28 @@ TEST(MpiChain, ConvergenceStopIsCollective) {
   EXPECT_DOUBLE_EQ(again.min_ess, j["convergence"]["min_ess"].get<double>());
 }
 
+TEST(MpiChain, MaxTimeStopsEveryRankAtOneStep) {
+  TempDir dir;
+  const std::string scores = write_table(dir, 8, 3, 37);
+  const std::string run = dir.file("timed.h5");
+  // Ranks 1 and 2 have two chains each and rank 0 one: the ranks run at different speeds,
+  // yet the agreed clock stops them at one step.
+  auto r =
+      run_shell(mpirun(3) + COVEY_BINARY + " chain " + scores +
+                " --chains 5 --thin 1000 --seed 8 --steps 1e12 --max-time 1s --json -o " + run);
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  const auto j = nlohmann::json::parse(r.out);
+  EXPECT_EQ(j["stop_reason"], "max-time");
+  // (The slowest clock decides; rank 0's own session can be a little shorter.)
+  EXPECT_GT(j["seconds"].get<double>(), 0.5);
+  for (const std::string& f : run_member_files(run)) {
+    const ChainRun m = ChainRun::open(f);
+    EXPECT_EQ(m.steps(), j["steps"].get<std::uint64_t>()) << f;
+    EXPECT_EQ(m.num_draws(), j["draws"].get<std::uint64_t>()) << f;
+    EXPECT_GT(m.steps(), 0u) << f;
+  }
+}
+
 TEST(MpiChain, SigtermToOneRankStopsEveryRankAtOneStep) {
   TempDir dir;
   const std::string scores = write_table(dir, 8, 3, 29);
