@@ -287,7 +287,10 @@ class Runner {
         write_checkpoint(prior_elapsed_ + seconds_since(session_start));
         const double write_time = seconds_since(tc);
         checkpoint_seconds_ += write_time;
-        interval = std::max(o_.checkpoint_every, write_time / kMaxCheckpointShare);
+        // Spaced by the slowest rank's write (the largest member file).
+        std::vector<double> slowest{write_time};
+        mpi::allreduce_max(slowest);
+        interval = std::max(o_.checkpoint_every, slowest[0] / kMaxCheckpointShare);
         last_checkpoint = Clock::now();
         if (reason.empty() && o_.until_enabled()) {
           summary.convergence = check_convergence();
