@@ -184,7 +184,9 @@ void setup_chain(CLI::App& app) {
       "cover-bounded sampler, written to an HDF5 run file with checkpoints and resume");
   auto a = std::make_shared<ChainArgs>();
   cmd->add_option("SCORES", a->scores, "score table (HDF5 or .tsv)")->required();
-  cmd->add_option("-o,--output", a->output, "HDF5 run file to create (or continue with --resume)")
+  cmd->add_option("-o,--output", a->output,
+                  "HDF5 run file to create (or continue with --resume); under mpirun the "
+                  "manifest, with the ranks' files RUN.rank<r>.h5 beside it (docs/cluster.md)")
       ->required();
   cmd->add_option("--chains", a->chains, "number of chains (default 4)");
   cmd->add_option("--steps", a->steps,
