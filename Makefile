@@ -5,7 +5,8 @@
 DEBIAN_PACKAGES := cmake g++ make pkg-config libeigen3-dev libboost-random-dev libtbb-dev \
   libhdf5-dev hdf5-tools libcli11-dev nlohmann-json3-dev libgtest-dev libbenchmark-dev \
   python3 python3-numpy python3-scipy python3-h5py r-base-core r-cran-posterior \
-  libcairo2-dev graphviz libgraphviz-dev fonts-dejavu-core chromium clang
+  libcairo2-dev graphviz libgraphviz-dev fonts-dejavu-core chromium clang \
+  openmpi-bin libopenmpi-dev
 JOBS ?= $(shell nproc 2>/dev/null || echo 2)
 SUDO := $(shell [ "$$(id -u)" -eq 0 ] || echo sudo)
 CMAKE_FLAGS ?=

@@ -135,6 +135,16 @@ void create(const std::string& path, const Header& header, const std::vector<Cha
     h5::set_attr(file, "num_variables", static_cast<long long>(header.variables.size()));
     h5::set_attr(file, "words_per_node", static_cast<long long>(header.words_per_node));
     h5::set_attr(file, "num_chains", static_cast<long long>(header.num_chains));
+    std::vector<int> global = header.global_chains;
+    if (global.empty())
+      for (int c = 0; c < header.num_chains; ++c) global.push_back(c);
+    if (static_cast<int>(global.size()) != header.num_chains)
+      throw Error("chain_file::create: one global index per chain is needed");
+    h5::set_attr_json(file, "global_chains", global);
+    if (header.mpi_rank >= 0) {
+      h5::set_attr(file, "mpi_rank", static_cast<long long>(header.mpi_rank));
+      h5::set_attr(file, "mpi_ranks", static_cast<long long>(header.mpi_ranks));
+    }
     if (header.options.contains("seed"))
       h5::set_attr(file, "seed", std::to_string(header.options["seed"].get<std::uint64_t>()));
     h5::set_attr_json(file, "options", header.options);
@@ -151,7 +161,7 @@ void create(const std::string& path, const Header& header, const std::vector<Cha
     const std::size_t width = header.variables.size() * header.words_per_node;
     for (int c = 0; c < header.num_chains; ++c) {
       H5::Group g = file.createGroup(chain_group_name(c));
-      h5::set_attr(g, "chain", static_cast<long long>(c));
+      h5::set_attr(g, "chain", static_cast<long long>(global[c]));
       h5::create_rows(g, kDraws, width, draw_chunk_rows(width));
       h5::create_series_double(g, kLogScores);
       h5::create_series_int64(g, kDrawSteps);
@@ -182,6 +192,42 @@ void append_checkpoint(const std::string& path, const std::vector<ChainBlock>& b
       replace_attr(file, "sessions", sessions.dump());
     }
     append_blocks(file, blocks, steps, elapsed_seconds);
+    file.close();
+  });
+  out.commit();
+}
+
+std::string member_path(const std::string& path, int rank) {
+  const std::filesystem::path p(path);
+  std::filesystem::path name = p.stem();
+  name += ".rank" + std::to_string(rank);
+  name += p.extension();
+  return (p.parent_path() / name).string();
+}
+
+void write_manifest(const std::string& path, const std::vector<std::string>& members,
+                    const std::vector<std::vector<int>>& chains, const Header& header) {
+  nlohmann::json list = nlohmann::json::array();
+  int total = 0;
+  for (std::size_t r = 0; r < members.size(); ++r) {
+    list.push_back({{"file", std::filesystem::path(members[r]).filename().string()},
+                    {"rank", r},
+                    {"chains", chains[r]}});
+    total += static_cast<int>(chains[r].size());
+  }
+  AtomicOutput out(path);
+  h5::guard(path, [&] {
+    H5::H5File file = h5::create(out.temp_path());
+    h5::set_attr(file, "format", std::string(kChainManifestFormat));
+    h5::set_attr(file, "format_version", kChainManifestFormatVersion);
+    h5::set_attr(file, "covey_version", std::string(kVersion));
+    h5::set_attr(file, "command_line", header.session.value("command_line", std::string()));
+    h5::set_attr(file, "table_fingerprint", format_fingerprint(header.fingerprint));
+    h5::set_attr(file, "num_variables", static_cast<long long>(header.variables.size()));
+    h5::set_attr(file, "num_chains", static_cast<long long>(total));
+    h5::set_attr(file, "num_ranks", static_cast<long long>(members.size()));
+    h5::set_attr_json(file, "options", header.options);
+    h5::set_attr_json(file, "members", list);
     file.close();
   });
   out.commit();
@@ -234,11 +280,27 @@ ChainRun ChainRun::open(const std::string& path) {
     run.num_chains_ = static_cast<int>(h5::get_attr_int(file, "num_chains"));
     run.words_ = static_cast<int>(h5::get_attr_int(file, "words_per_node"));
     run.options_ = h5::get_attr_json(file, "options");
+    if (h5::has_attr(file, "global_chains")) {
+      try {
+        run.global_chains_ = h5::get_attr_json(file, "global_chains").get<std::vector<int>>();
+      } catch (const nlohmann::json::exception&) {
+        throw InputError(path + ": corrupt global_chains attribute");
+      }
+      if (static_cast<int>(run.global_chains_.size()) != run.num_chains_)
+        throw InputError(path + ": global_chains does not list every chain");
+    } else {
+      for (int c = 0; c < run.num_chains_; ++c) run.global_chains_.push_back(c);
+    }
+    if (h5::has_attr(file, "mpi_rank")) {
+      run.attributes_["mpi_rank"] = h5::get_attr_int(file, "mpi_rank");
+      run.attributes_["mpi_ranks"] = h5::get_attr_int(file, "mpi_ranks");
+    }
     for (const char* name :
          {"format", "covey_version", "command_line", "table_fingerprint", "seed"})
       if (h5::has_attr(file, name)) run.attributes_[name] = h5::get_attr_string(file, name);
     run.attributes_["format_version"] = version;
     run.attributes_["num_chains"] = run.num_chains_;
+    run.attributes_["global_chains"] = run.global_chains_;
     run.attributes_["words_per_node"] = run.words_;
     run.attributes_["options"] = run.options_;
     run.attributes_["sessions"] = h5::get_attr_json(file, "sessions");
@@ -339,6 +401,86 @@ void ChainRun::check_table(const ScoreTable& table) const {
     throw InputError(path_ + ": the run was made from a different score table (fingerprint " +
                      format_fingerprint(fingerprint_) + ", this table " +
                      format_fingerprint(table.fingerprint()) + ")");
+}
+
+// ---- Manifests of MPI runs --------------------------------------------------------------
+
+bool is_run_manifest(const std::string& path) {
+  std::error_code ec;
+  if (!std::filesystem::is_regular_file(path, ec)) return false;
+  try {
+    if (!h5::is_hdf5(path)) return false;
+    return h5::guard(path, [&] {
+      H5::H5File file = h5::open_read(path);
+      return h5::has_attr(file, "format") &&
+             h5::get_attr_string(file, "format") == kChainManifestFormat;
+    });
+  } catch (const std::exception&) {
+    return false;
+  }
+}
+
+RunManifest read_run_manifest(const std::string& path) {
+  RunManifest m;
+  m.path = path;
+  const std::filesystem::path dir = std::filesystem::path(path).parent_path();
+  h5::guard(path, [&] {
+    H5::H5File file = h5::open_read(path);
+    if (!h5::has_attr(file, "format") ||
+        h5::get_attr_string(file, "format") != kChainManifestFormat)
+      throw InputError(path + ": not a covey chain-run manifest");
+    const long long version = h5::get_attr_int(file, "format_version");
+    if (version != kChainManifestFormatVersion)
+      throw InputError(path + ": manifest format version " + std::to_string(version) +
+                       " is not supported (this covey reads version " +
+                       std::to_string(kChainManifestFormatVersion) + ")");
+    m.options = h5::get_attr_json(file, "options");
+    const long long total = h5::get_attr_int(file, "num_chains");
+    const nlohmann::json list = h5::get_attr_json(file, "members");
+    if (!list.is_array() || list.empty())
+      throw InputError(path + ": corrupt manifest (no member list)");
+    std::vector<char> seen(std::size_t(std::max(0LL, total)), 0);
+    int next = 0;
+    for (const auto& entry : list) {
+      std::string name;
+      std::vector<int> chains;
+      try {
+        name = entry.at("file").get<std::string>();
+        chains = entry.at("chains").get<std::vector<int>>();
+      } catch (const nlohmann::json::exception&) {
+        throw InputError(path + ": corrupt manifest entry " + entry.dump());
+      }
+      if (name.empty() || name.find('/') != std::string::npos || chains.empty())
+        throw InputError(path + ": corrupt manifest entry " + entry.dump());
+      for (int c : chains) {
+        // Members hold consecutive blocks of chains in rank order.
+        if (c != next || c >= total || seen[std::size_t(c)])
+          throw InputError(path + ": corrupt manifest (chain " + std::to_string(c) +
+                           " out of order in " + name + ")");
+        seen[std::size_t(c)] = 1;
+        ++next;
+      }
+      m.members.push_back((dir / name).string());
+      m.chains.push_back(std::move(chains));
+    }
+    if (next != total)
+      throw InputError(path + ": corrupt manifest (members hold " + std::to_string(next) + " of " +
+                       std::to_string(total) + " chains)");
+    m.num_chains = static_cast<int>(total);
+  });
+  return m;
+}
+
+std::vector<std::string> run_member_files(const std::string& path) {
+  if (!is_run_manifest(path)) return {path};
+  const RunManifest m = read_run_manifest(path);
+  for (std::size_t r = 0; r < m.members.size(); ++r) {
+    std::error_code ec;
+    if (!std::filesystem::is_regular_file(m.members[r], ec))
+      throw InputError(path + ": member file " + m.members[r] + " of rank " + std::to_string(r) +
+                       " is missing (keep the rank files beside the manifest)");
+  }
+  return m.members;
 }
 
 }  // namespace covey

@@ -23,6 +23,10 @@ struct Header {
   int num_chains = 0;
   nlohmann::json options;  // run options (stored as the `options` JSON attribute)
   nlohmann::json session;  // this session's provenance (command line, version, start step)
+  // Run-wide chain index of each chain (empty: 0..num_chains-1), and for a member of an MPI run
+  // its rank and the number of ranks (-1: not a member).
+  std::vector<int> global_chains;
+  int mpi_rank = -1, mpi_ranks = -1;
 };
 
 // What one chain adds at a checkpoint, and its state there.
@@ -43,6 +47,14 @@ void create(const std::string& path, const Header& header, const std::vector<Cha
 void append_checkpoint(const std::string& path, const std::vector<ChainBlock>& blocks,
                        std::uint64_t steps, double elapsed_seconds,
                        const nlohmann::json* new_session = nullptr);
+
+// Writes the manifest of an MPI run (rank 0, after every member exists). `members` are paths as
+// the ranks write them; the manifest stores them relative to its own folder.
+void write_manifest(const std::string& path, const std::vector<std::string>& members,
+                    const std::vector<std::vector<int>>& chains, const Header& header);
+
+// The member file of rank `rank` of an MPI run written to `path`: RUN.h5 -> RUN.rank<r>.h5.
+std::string member_path(const std::string& path, int rank);
 
 // Removes temporary files of this target left by killed covey processes (".NAME.tmp-PID-*"
 // whose process no longer exists).

@@ -13,6 +13,7 @@
 #include "chain_file_writer.hpp"
 #include "covey/edge_constraints.hpp"
 #include "covey/error.hpp"
+#include "covey/mpi_context.hpp"
 #include "covey/random.hpp"
 #include "covey/version.hpp"
 
@@ -99,7 +100,19 @@ class Runner {
  public:
   Runner(const ScoreTable& table, const std::string& path, const ChainRunOptions& options,
          const ChainRunHooks& hooks)
-      : table_(table), path_(path), o_(options), hooks_(hooks) {
+      : table_(table), path_(path), member_(path), o_(options), hooks_(hooks) {
+    rank_ = mpi::rank();
+    ranks_ = mpi::size();
+    if (ranks_ > 1) {
+      if (o_.chains < ranks_)
+        throw InputError("--chains " + std::to_string(o_.chains) + " is fewer than the " +
+                         std::to_string(ranks_) + " MPI ranks; give every rank at least one chain");
+      member_ = chain_file::member_path(path_, rank_);
+    }
+    // Rank r runs the block [first_chain(r), first_chain(r + 1)) of the chains.
+    first_ = first_chain(rank_);
+    local_ = first_chain(rank_ + 1) - first_;
+    if (rank_ != 0) hooks_.progress = false;
     width_ = std::size_t(table.num_variables()) * ((table.num_variables() + 63) / 64);
     config_.rev_rate = o_.rev_rate;
     config_.teleport_rate = o_.teleport_rate;
@@ -112,12 +125,13 @@ class Runner {
   }
 
   void start_new() {
-    chain_file::remove_stale_temporaries(path_);
+    chain_file::remove_stale_temporaries(member_);
     std::vector<std::uint64_t> file_start;
     if (o_.start != "empty" && o_.start != "exact") file_start = read_start_dag(o_.start, table_);
-    for (int c = 0; c < o_.chains; ++c) {
+    for (int c = 0; c < local_; ++c) {
       auto slot = std::make_unique<Slot>(table_, config_);
-      slot->rng = make_stream(o_.seed, static_cast<std::uint64_t>(c));
+      // The stream of the global chain: the trace does not depend on which rank runs it.
+      slot->rng = make_stream(o_.seed, static_cast<std::uint64_t>(first_ + c));
       if (o_.start == "empty") {
         if (!slot->chain.empty_graph_allowed())
           throw InputError(
@@ -139,12 +153,30 @@ class Runner {
     for (const auto& v : table_.variables()) header.variables.push_back(v.name);
     header.fingerprint = table_.fingerprint();
     header.words_per_node = (table_.num_variables() + 63) / 64;
-    header.num_chains = o_.chains;
+    header.num_chains = local_;
+    for (int c = 0; c < local_; ++c) header.global_chains.push_back(first_ + c);
+    if (ranks_ > 1) {
+      header.mpi_rank = rank_;
+      header.mpi_ranks = ranks_;
+    }
     header.options = o_.fixed_to_json();
     session_["start_step"] = 0;
     header.session = session_;
     const auto t = Clock::now();
-    chain_file::create(path_, header, blocks(), 0, 0.0);
+    chain_file::create(member_, header, blocks(), 0, 0.0);
+    if (ranks_ > 1) {
+      // The manifest only once every member exists.
+      mpi::barrier();
+      if (rank_ == 0) {
+        std::vector<std::string> members;
+        std::vector<std::vector<int>> chains(ranks_);
+        for (int r = 0; r < ranks_; ++r) {
+          members.push_back(chain_file::member_path(path_, r));
+          for (int c = first_chain(r); c < first_chain(r + 1); ++c) chains[r].push_back(c);
+        }
+        chain_file::write_manifest(path_, members, chains, header);
+      }
+    }
     checkpoint_seconds_ += seconds_since(t);
     clear_pending();
     checkpoints_ = 1;
@@ -152,19 +184,40 @@ class Runner {
   }
 
   void resume() {
-    chain_file::remove_stale_temporaries(path_);
-    const ChainRun run = ChainRun::open(path_);
+    if (ranks_ > 1) {
+      if (!is_run_manifest(path_))
+        throw InputError(path_ + ": not the manifest of an MPI run (the run was made by one " +
+                         "process; resume it without mpirun)");
+      const RunManifest m = read_run_manifest(path_);
+      if (static_cast<int>(m.members.size()) != ranks_)
+        throw InputError(path_ + ": the run was made by " + std::to_string(m.members.size()) +
+                         " MPI ranks; resume it with mpirun -np " +
+                         std::to_string(m.members.size()));
+      if (m.num_chains != o_.chains) throw Error("run_chains: chain count differs from manifest");
+      member_ = run_member_files(path_)[std::size_t(rank_)];
+    } else if (is_run_manifest(path_)) {
+      const RunManifest m = read_run_manifest(path_);
+      throw InputError(path_ + ": the run was made by " + std::to_string(m.members.size()) +
+                       " MPI ranks; resume it with mpirun -np " + std::to_string(m.members.size()));
+    }
+    chain_file::remove_stale_temporaries(member_);
+    const ChainRun run = ChainRun::open(member_);
     run.check_table(table_);
-    if (run.num_chains() != o_.chains) throw Error("run_chains: chain count differs from file");
+    std::vector<int> expected;
+    for (int c = 0; c < local_; ++c) expected.push_back(first_ + c);
+    if (run.num_chains() != local_ || run.global_chains() != expected)
+      throw InputError(member_ + ": holds chains " + nlohmann::json(run.global_chains()).dump() +
+                       ", not the chains " + nlohmann::json(expected).dump() + " of rank " +
+                       std::to_string(rank_));
     steps_ = run.steps();
     draws_ = run.num_draws();
     checkpoints_ = run.num_checkpoints();
     prior_elapsed_ = run.elapsed_seconds();
-    for (int c = 0; c < o_.chains; ++c) {
+    for (int c = 0; c < local_; ++c) {
       const ChainCheckpoint cp = run.checkpoint(c);
       auto slot = std::make_unique<Slot>(table_, config_);
       slot->chain.set_parents(cp.parents,
-                              path_ + ": checkpoint state of chain " + std::to_string(c));
+                              member_ + ": checkpoint state of chain " + std::to_string(c));
       slot->chain.set_counts(cp.counts);
       slot->rng = load_stream(cp.rng_state);
       slot->regenerations = cp.regenerations;
@@ -172,13 +225,24 @@ class Runner {
     }
     session_["start_step"] = steps_;
     session_recorded_ = false;
+    // A rank killed during a checkpoint can leave the members one checkpoint apart: the ranks
+    // behind first run up to the furthest member's step (a chain's trajectory depends only on
+    // its step count, so this is the same as having checkpointed there) and checkpoint.
+    std::vector<double> furthest{double(steps_)};
+    mpi::allreduce_max(furthest);
+    const auto target = static_cast<std::uint64_t>(furthest[0]);
+    if (steps_ < target) {
+      run_segment(target - steps_);
+      steps_ = target;
+      write_checkpoint(prior_elapsed_);
+    }
   }
 
   ChainRunSummary run() {
     const auto session_start = Clock::now();
     Progress progress("chain", hooks_.progress);
-    MoveCounts at_start;
-    for (const auto& s : slots_) at_start += s->chain.counts();
+    MoveCounts at_start_local;
+    for (const auto& s : slots_) at_start_local += s->chain.counts();
     const std::uint64_t steps_at_start = steps_;
     std::uint64_t segment = 1000;
     auto last_checkpoint = Clock::now();
@@ -195,24 +259,38 @@ class Runner {
       steps_ += len;
       // Segment length for about kSegmentSeconds (does not affect the trajectories).
       const double factor = std::clamp(kSegmentSeconds / std::max(took, 1e-6), 0.25, 4.0);
-      segment = std::max<std::uint64_t>(100, static_cast<std::uint64_t>(double(len) * factor));
+      const auto next =
+          std::max<std::uint64_t>(100, static_cast<std::uint64_t>(double(len) * factor));
 
-      if (hooks_.stop_signal && hooks_.stop_signal->load() != 0) {
+      // Every decision is collective: the ranks combine their signal, clock, checkpoint due
+      // and segment length (the slowest rank's) so that all take the same branch at the same
+      // step (a no-op with one rank).
+      std::vector<double> shared{
+          hooks_.stop_signal ? double(hooks_.stop_signal->load()) : 0.0,
+          seconds_since(session_start),
+          seconds_since(last_checkpoint) >= interval || pending_bytes() > kMaxPendingBytes ? 1.0
+                                                                                           : 0.0,
+          -double(next)};
+      mpi::allreduce_max(shared);
+      segment = static_cast<std::uint64_t>(-shared[3]);
+      if (shared[0] != 0) {
         reason = "signal";
-        summary.stop_signal = hooks_.stop_signal->load();
+        summary.stop_signal = static_cast<int>(shared[0]);
       } else if (o_.steps > 0 && steps_ >= o_.steps) {
         reason = "steps";
-      } else if (o_.max_seconds > 0 && seconds_since(session_start) >= o_.max_seconds) {
+      } else if (o_.max_seconds > 0 && shared[1] >= o_.max_seconds) {
         reason = "max-time";
       }
-      const bool due =
-          seconds_since(last_checkpoint) >= interval || pending_bytes() > kMaxPendingBytes;
+      const bool due = shared[2] != 0;
       if (due || !reason.empty()) {
         const auto tc = Clock::now();
         write_checkpoint(prior_elapsed_ + seconds_since(session_start));
         const double write_time = seconds_since(tc);
         checkpoint_seconds_ += write_time;
-        interval = std::max(o_.checkpoint_every, write_time / kMaxCheckpointShare);
+        // Spaced by the slowest rank's write (the largest member file).
+        std::vector<double> slowest{write_time};
+        mpi::allreduce_max(slowest);
+        interval = std::max(o_.checkpoint_every, slowest[0] / kMaxCheckpointShare);
         last_checkpoint = Clock::now();
         if (reason.empty() && o_.until_enabled()) {
           summary.convergence = check_convergence();
@@ -236,11 +314,25 @@ class Runner {
     summary.checkpoints = checkpoints_;
     summary.seconds = seconds_since(session_start);
     summary.checkpoint_seconds = checkpoint_seconds_;
-    for (const auto& s : slots_) {
-      summary.counts += s->chain.counts();
-      summary.regenerations.push_back(s->regenerations);
+    // Counts of the whole run: every rank's chains (sums over the ranks).
+    std::vector<std::uint64_t> totals(2 * kNumMoves + 1 + std::size_t(o_.chains), 0);
+    MoveCounts local;
+    for (std::size_t c = 0; c < slots_.size(); ++c) {
+      local += slots_[c]->chain.counts();
+      totals[2 * kNumMoves + 1 + std::size_t(first_) + c] = slots_[c]->regenerations;
     }
-    summary.session_proposals = summary.counts.total_proposed() - at_start.total_proposed();
+    for (int m = 0; m < kNumMoves; ++m) {
+      totals[2 * m] = local.proposed[m];
+      totals[2 * m + 1] = local.accepted[m];
+    }
+    totals[2 * kNumMoves] = local.total_proposed() - at_start_local.total_proposed();
+    mpi::allreduce_sum(totals);
+    for (int m = 0; m < kNumMoves; ++m) {
+      summary.counts.proposed[m] = totals[2 * m];
+      summary.counts.accepted[m] = totals[2 * m + 1];
+    }
+    summary.regenerations.assign(totals.begin() + 2 * kNumMoves + 1, totals.end());
+    summary.session_proposals = totals[2 * kNumMoves];
     summary.stop_reason = reason;
     return summary;
   }
@@ -310,7 +402,7 @@ class Runner {
   void write_checkpoint(double elapsed) {
     auto b = blocks();
     const std::uint64_t added = b.empty() ? 0 : b[0].log_scores.size();
-    chain_file::append_checkpoint(path_, b, steps_, elapsed,
+    chain_file::append_checkpoint(member_, b, steps_, elapsed,
                                   session_recorded_ ? nullptr : &session_);
     session_recorded_ = true;
     draws_ += added;
@@ -318,10 +410,32 @@ class Runner {
     clear_pending();
   }
 
+  // Collective over MPI: after every rank's checkpoint, rank 0 reads all members (the files
+  // are on a folder every rank can reach, as the manifest requires), judges all chains' draws
+  // together exactly as one process would, and sends the verdict to every rank.
   ConvergenceStatus check_convergence() {
-    const ChainRun run = ChainRun::open(path_);
-    return hooks_.convergence(run, o_.until_rhat > 0 ? o_.until_rhat : 1.01,
-                              o_.until_ess > 0 ? o_.until_ess : 400);
+    const double rhat = o_.until_rhat > 0 ? o_.until_rhat : 1.01;
+    const double ess = o_.until_ess > 0 ? o_.until_ess : 400;
+    if (ranks_ == 1) return hooks_.convergence(RunFeatures(ChainRun::open(path_)), rhat, ess);
+    mpi::barrier();
+    std::vector<double> verdict(6, 0.0);
+    if (rank_ == 0) {
+      std::vector<ChainRun> runs;
+      for (int r = 0; r < ranks_; ++r)
+        runs.push_back(ChainRun::open(r == 0 ? member_ : chain_file::member_path(path_, r)));
+      const ConvergenceStatus s = hooks_.convergence(RunFeatures(runs), rhat, ess);
+      verdict = {s.converged ? 1.0 : 0.0, s.max_rhat,        s.min_ess,
+                 double(s.features),      double(s.failing), double(s.undefined)};
+    }
+    mpi::broadcast(verdict);
+    ConvergenceStatus s;
+    s.converged = verdict[0] != 0;
+    s.max_rhat = verdict[1];
+    s.min_ess = verdict[2];
+    s.features = static_cast<std::size_t>(verdict[3]);
+    s.failing = static_cast<std::size_t>(verdict[4]);
+    s.undefined = static_cast<std::size_t>(verdict[5]);
+    return s;
   }
 
   void show_progress(Progress& progress, Clock::time_point start, std::uint64_t steps_at_start) {
@@ -331,8 +445,9 @@ class Runner {
       total += s->chain.counts();
       regen += s->regenerations;
     }
-    const double rate =
-        double(steps_ - steps_at_start) * double(o_.chains) / std::max(seconds_since(start), 1e-9);
+    // Rank 0 shows its own chains' rate times the ranks (every rank runs as many steps).
+    const double rate = double(steps_ - steps_at_start) * double(local_) * double(ranks_) /
+                        std::max(seconds_since(start), 1e-9);
     std::string status = human(rate) + " steps/s  accept";
     for (int m = 0; m < kNumMoves; ++m)
       if (total.proposed[m])
@@ -344,8 +459,14 @@ class Runner {
     progress.update(double(steps_), o_.steps > 0 ? double(o_.steps) : 0.0, status);
   }
 
+  int first_chain(int rank) const {
+    return static_cast<int>(std::int64_t(rank) * o_.chains / ranks_);
+  }
+
   const ScoreTable& table_;
-  std::string path_;
+  std::string path_;    // the -o path: the run file, or the manifest of an MPI run
+  std::string member_;  // the run file this rank writes (path_ with one rank)
+  int rank_ = 0, ranks_ = 1, first_ = 0, local_ = 0;
   ChainRunOptions o_;
   ChainRunHooks hooks_;
   ChainConfig config_;

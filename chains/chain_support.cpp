@@ -9,10 +9,9 @@
 
 namespace covey {
 
-ConvergenceStatus edge_convergence(const ChainRun& run, double max_rhat, double min_ess) {
+ConvergenceStatus edge_convergence(const RunFeatures& features, double max_rhat, double min_ess) {
   ConvergenceStatus status;
-  if (run.num_draws() < std::uint64_t(kMinDrawsPerChain)) return status;  // too few to judge
-  const RunFeatures features(run);
+  if (features.iterations() < kMinDrawsPerChain) return status;  // too few to judge
   const auto edges = features.edges_seen();
   status.features = edges.size();
   if (edges.empty()) return status;

@@ -14,7 +14,9 @@ std::vector<ChainRun> open_runs(const std::vector<std::string>& paths) {
   if (paths.empty()) throw InputError("no run file given");
   std::vector<ChainRun> runs;
   runs.reserve(paths.size());
-  for (const std::string& path : paths) runs.push_back(ChainRun::open(path));
+  // A manifest of a distributed run stands for its per-rank member files.
+  for (const std::string& path : paths)
+    for (const std::string& member : run_member_files(path)) runs.push_back(ChainRun::open(member));
   return runs;
 }
 

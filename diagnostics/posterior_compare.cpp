@@ -56,7 +56,8 @@ PosteriorSource detect_posterior_source(const std::string& path) {
         h5::has_attr(file, "format") ? h5::get_attr_string(file, "format") : std::string();
     const std::string kind =
         h5::has_attr(file, "kind") ? h5::get_attr_string(file, "kind") : std::string();
-    if (format == kChainRunFormat) return PosteriorSource::kChainRun;
+    if (format == kChainRunFormat || format == kChainManifestFormat)
+      return PosteriorSource::kChainRun;
     if (format == "covey-scores") return PosteriorSource::kExactTable;
     if (format == "covey-draws") return PosteriorSource::kExactDraws;
     if (kind == "cover-draws") return PosteriorSource::kCoverDraws;

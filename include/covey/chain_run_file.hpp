@@ -20,6 +20,10 @@ namespace covey {
 
 inline constexpr const char* kChainRunFormat = "covey-chain-run";
 inline constexpr long long kChainRunFormatVersion = 1;
+// A run made by several MPI ranks: each rank writes a run file of its own chains (a "member"),
+// and a small manifest at the -o path lists them (docs/file-formats.md, "Chain runs over MPI").
+inline constexpr const char* kChainManifestFormat = "covey-chain-manifest";
+inline constexpr long long kChainManifestFormatVersion = 1;
 
 // One chain at a checkpoint: everything needed to continue it bit for bit.
 struct ChainCheckpoint {
@@ -38,6 +42,10 @@ class ChainRun {
 
   const std::string& path() const { return path_; }
   int num_chains() const { return num_chains_; }
+  // The run-wide index of each chain of this file: 0..num_chains()-1 for a single-process run;
+  // in a member file of an MPI run, the chains that rank ran (local chain c is global chain
+  // global_chains()[c], and its random stream is make_stream(seed, global_chains()[c])).
+  const std::vector<int>& global_chains() const { return global_chains_; }
   int num_variables() const { return static_cast<int>(variables_.size()); }
   int words_per_node() const { return words_; }
   const std::vector<std::string>& variables() const { return variables_; }
@@ -71,6 +79,7 @@ class ChainRun {
 
   std::string path_;
   int num_chains_ = 0;
+  std::vector<int> global_chains_;
   int words_ = 0;
   std::vector<std::string> variables_;
   std::uint64_t fingerprint_ = 0;
@@ -79,6 +88,24 @@ class ChainRun {
   std::size_t num_checkpoints_ = 0;
   double elapsed_seconds_ = 0;
 };
+
+// The manifest of an MPI run (written by rank 0 beside the member files).
+struct RunManifest {
+  std::string path;
+  int num_chains = 0;                    // over all members
+  std::vector<std::string> members;      // member run files, resolved against the manifest's folder
+  std::vector<std::vector<int>> chains;  // the global chain indices each member holds
+  nlohmann::json options;                // the run options (as in each member)
+};
+
+// True when `path` is a readable HDF5 file whose format attribute names a manifest.
+bool is_run_manifest(const std::string& path);
+// Reads a manifest (InputError naming the file when it is broken).
+RunManifest read_run_manifest(const std::string& path);
+// The run files that make up the run at `path`: the members a manifest lists, in global chain
+// order (InputError on a broken manifest or a missing member), or {path} for anything else (a
+// plain run file; ChainRun::open then reports a file that is not one).
+std::vector<std::string> run_member_files(const std::string& path);
 
 // Graph features of the thinned draws of one run, or of several runs of the same table taken
 // together (their chains side by side, e.g. the per-rank files of one distributed run), as

@@ -57,8 +57,9 @@ struct ConvergenceStatus {
   std::size_t features = 0, failing = 0, undefined = 0;
   nlohmann::json to_json() const;
 };
+// Judges the draws of all chains (over MPI: of every rank's chains, read by rank 0).
 using ConvergenceCheck =
-    std::function<ConvergenceStatus(const ChainRun& run, double max_rhat, double min_ess)>;
+    std::function<ConvergenceStatus(const RunFeatures& run, double max_rhat, double min_ess)>;
 
 struct ChainRunHooks {
   const TeleportSource* teleport = nullptr;       // exact D_k sampler: teleports and start "exact"
@@ -90,6 +91,13 @@ struct ChainRunSummary {
 
 // Creates `path` (or, with resume, continues the run in it) and runs until a stopping rule
 // holds. Throws InputError for inconsistent options (naming the option).
+//
+// Under MPI with P > 1 ranks (include/covey/mpi_context.hpp, docs/cluster.md) every rank calls
+// this with the same arguments: rank r runs a block of the chains (still with the streams
+// make_stream(seed, global chain)) and writes them to its member file (RUN.rank<r>.h5 beside
+// `path`), rank 0 writes the manifest at `path`; stopping decisions (steps, time, signals,
+// convergence) and checkpoints are collective, so every member ends at the same step. The
+// summary describes the whole run on every rank.
 ChainRunSummary run_chains(const ScoreTable& table, const std::string& path,
                            const ChainRunOptions& options, const ChainRunHooks& hooks, bool resume);
 

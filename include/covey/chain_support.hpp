@@ -13,7 +13,7 @@ namespace covey {
 // indicator over all chains' stored draws. Edges constant across all draws (never or always
 // present) have undefined diagnostics and are reported as such, not assessed; the run counts
 // as converged when every assessed edge passes and at least one could be assessed.
-ConvergenceStatus edge_convergence(const ChainRun& run, double max_rhat, double min_ess);
+ConvergenceStatus edge_convergence(const RunFeatures& features, double max_rhat, double min_ess);
 
 class ChainSupport {
  public:

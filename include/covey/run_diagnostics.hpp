@@ -14,8 +14,9 @@
 
 namespace covey {
 
-// Opens every run file (InputError naming the file); see RunFeatures for the checks that they
-// belong together.
+// Opens every run file (InputError naming the file), a manifest of a distributed run standing
+// for its member files (run_member_files); see RunFeatures for the checks that they belong
+// together.
 std::vector<ChainRun> open_runs(const std::vector<std::string>& paths);
 
 struct RunDiagnostics {

@@ -11,6 +11,7 @@
 #include "covey/chain_runner.hpp"
 #include "covey/chain_support.hpp"
 #include "covey/error.hpp"
+#include "covey/mpi_context.hpp"
 #include "covey/score_io.hpp"
 
 namespace covey::cli {
@@ -135,7 +136,9 @@ void run_chain_command(CLI::App* cmd, const ChainArgs& a) {
   if (a.resume) {
     // The run keeps the options it was created with; repeating them is fine, changing is not.
     const ChainRunOptions given = o;
-    o.fixed_from_json(ChainRun::open(a.output).options(), a.output);
+    // (An MPI run keeps them in every member; the first one stands for the run.)
+    const std::string first = run_member_files(a.output).front();
+    o.fixed_from_json(ChainRun::open(first).options(), first);
     const nlohmann::json stored_json = o.fixed_to_json(), given_json = given.fixed_to_json();
     for (const auto& [flag, key] : kFixedOptions)
       if (cmd->count(flag) && stored_json[key] != given_json[key])
@@ -162,6 +165,7 @@ void run_chain_command(CLI::App* cmd, const ChainArgs& a) {
     StopSignals signals;
     summary = run_chains(table, a.output, o, hooks, a.resume);
   }
+  if (mpi::rank() != 0) return;  // rank 0 reports for the whole run
   if (summary.stop_reason == "signal")
     std::cerr << "covey chain: stopped by "
               << (summary.stop_signal == SIGINT ? "SIGINT" : "SIGTERM") << " at step "
@@ -180,7 +184,9 @@ void setup_chain(CLI::App& app) {
       "cover-bounded sampler, written to an HDF5 run file with checkpoints and resume");
   auto a = std::make_shared<ChainArgs>();
   cmd->add_option("SCORES", a->scores, "score table (HDF5 or .tsv)")->required();
-  cmd->add_option("-o,--output", a->output, "HDF5 run file to create (or continue with --resume)")
+  cmd->add_option("-o,--output", a->output,
+                  "HDF5 run file to create (or continue with --resume); under mpirun the "
+                  "manifest, with the ranks' files RUN.rank<r>.h5 beside it (docs/cluster.md)")
       ->required();
   cmd->add_option("--chains", a->chains, "number of chains (default 4)");
   cmd->add_option("--steps", a->steps,
@@ -213,7 +219,21 @@ void setup_chain(CLI::App& app) {
                   "... and bulk and tail ESS above E (default 400 with --until-rhat)");
   cmd->add_option("--max-time", a->max_time, "stop after this wall time, e.g. 90s, 10m, 2h");
   cmd->add_flag("--json", a->json, "print the summary as JSON");
-  cmd->callback([cmd, a] { run_chain_command(cmd, *a); });
+  cmd->callback([cmd, a] {
+    // Under mpirun every rank runs this command (docs/cluster.md); without a launcher the
+    // session is a no-op and the run is the single-process one.
+    mpi::Session session;
+    if (mpi::size() == 1) return run_chain_command(cmd, *a);
+    try {
+      run_chain_command(cmd, *a);
+    } catch (const std::exception& e) {
+      // One rank's error must end the job: the others would wait in a collective forever.
+      std::cerr << "covey: error: " << e.what() << " (MPI rank " << mpi::rank() << " of "
+                << mpi::size() << ")\n";
+      std::cerr.flush();
+      mpi::abort(dynamic_cast<const ResourceError*>(&e) ? 3 : 1);
+    }
+  });
 }
 
 const Registration chain_registration(50, setup_chain);
