@@ -199,6 +199,26 @@ void StructureChain::load_state(const std::vector<ParentMask>& local, const std:
   rebuild_ancestors();
 }
 
+// A teleport draw comes from the cover sampler of this table: acyclic, every parent set in the
+// table, and inside any --cover-limit class (which must contain the teleport class). Teleports
+// are the most expensive move, so they skip load_state's checks and allocations; a violated
+// guarantee is an internal error, never a silent wrong state.
+void StructureChain::load_teleport_draw(const Dag& next) {
+  if (next.size() != n_) throw Error("teleport draw: wrong number of variables");
+  for (int v = 0; v < n_; ++v) {
+    ParentMask local = 0;
+    const long idx =
+        table_->to_local(v, next.parents[v], local) ? table_->find(v, local) : long{-1};
+    if (idx < 0) throw Error("teleport draw: a parent set is not in the score table");
+    local_[v] = local;
+    score_[v] = table_->log_scores(v)[idx];
+  }
+  dag_.parents = next.parents;
+  num_edges_ = 0;
+  for (ParentMask m : local_) num_edges_ += std::popcount(m);
+  rebuild_ancestors();
+}
+
 void StructureChain::rebuild_ancestors() {
   for (int v = 0; v < n_; ++v) {
     mark_[v] = 1;
@@ -634,9 +654,7 @@ bool StructureChain::teleport(Rng& rng) {
     const double log_ratio = log_weight(*table_, next) - log_score();
     if (!accept(rng, log_ratio) || !in_restriction(next)) return false;
   }
-  std::vector<ParentMask> local(n_, 0);
-  for (int v = 0; v < n_; ++v) table_->to_local(v, next.parents[v], local[v]);
-  load_state(local, "teleport draw");
+  load_teleport_draw(next);
   ++counts_.accepted[int(Move::kTeleport)];
   return !drop;
 }

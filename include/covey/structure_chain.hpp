@@ -138,6 +138,8 @@ class StructureChain {
   bool in_restriction(const Dag& dag) const;
 
   void load_state(const std::vector<ParentMask>& local, const std::string& what);
+  // Moves to an accepted teleport draw without load_state's validation and allocations.
+  void load_teleport_draw(const Dag& next);
   void rebuild_ancestors();
   // Ancestor sets of `root` and all its (current) descendants, recomputed from the parent masks.
   void recompute_ancestors_below(int root);
