@@ -11,7 +11,9 @@ namespace {
 struct QuietErrors {
   QuietErrors() { H5::Exception::dontPrint(); }
 };
-void quiet() { static QuietErrors once; }
+void quiet() {
+  static QuietErrors once;
+}
 
 H5::StrType string_type() {
   H5::StrType t(H5::PredType::C_S1, H5T_VARIABLE);
@@ -91,6 +93,36 @@ void append_growing(H5::Group& group, const std::string& name, const std::vector
 
 }  // namespace
 
+namespace {
+
+// Collects the descriptions of the current thread's HDF5 error stack.
+herr_t collect_error(unsigned, const H5E_error2_t* err, void* data) {
+  if (err && err->desc) static_cast<std::string*>(data)->append(err->desc).append("\n");
+  return 0;
+}
+
+}  // namespace
+
+void throw_hdf5_error(const std::string& path, const H5::Exception& e) {
+  std::string stack;
+  H5Ewalk2(H5E_DEFAULT, H5E_WALK_DOWNWARD, collect_error, &stack);
+  auto has = [&](const char* what) { return stack.find(what) != std::string::npos; };
+  if (has("checksum") || has("Fletcher32") || has("fletcher32"))
+    throw InputError(path +
+                     ": corrupted: a dataset failed its Fletcher32 checksum (the file was "
+                     "damaged after it was written; use an intact copy)");
+  if (has("No space left on device") || has("File too large") || has("Disk quota exceeded"))
+    throw ResourceError(path +
+                        ": cannot write: the disk is full or the file size limit was reached "
+                        "(the output was not replaced; free space and run again)");
+  if (has("truncated file"))
+    throw InputError(path +
+                     ": truncated: the file is shorter than its HDF5 structure says (an "
+                     "interrupted copy or a full disk?)");
+  throw InputError(path + ": HDF5 error in " + e.getFuncName() + ": " + e.getDetailMsg() +
+                   " (the file may be truncated, corrupted or not written by covey)");
+}
+
 H5::H5File open_read(const std::string& path) {
   quiet();
   {
@@ -131,7 +163,8 @@ void set_attr(H5::H5Object& obj, const std::string& name, const std::string& val
 
 void set_attr(H5::H5Object& obj, const std::string& name, long long value) {
   quiet();
-  H5::Attribute a = obj.createAttribute(name, H5::PredType::NATIVE_LLONG, H5::DataSpace(H5S_SCALAR));
+  H5::Attribute a =
+      obj.createAttribute(name, H5::PredType::NATIVE_LLONG, H5::DataSpace(H5S_SCALAR));
   a.write(H5::PredType::NATIVE_LLONG, &value);
 }
 
@@ -161,7 +194,8 @@ long long get_attr_int(const H5::H5Object& obj, const std::string& name) {
   quiet();
   if (!obj.attrExists(name)) throw InputError("missing attribute '" + name + "'");
   H5::Attribute a = obj.openAttribute(name);
-  if (a.getTypeClass() != H5T_INTEGER) throw InputError("attribute '" + name + "' is not an integer");
+  if (a.getTypeClass() != H5T_INTEGER)
+    throw InputError("attribute '" + name + "' is not an integer");
   long long v = 0;
   a.read(H5::PredType::NATIVE_LLONG, &v);
   return v;

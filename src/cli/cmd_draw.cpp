@@ -10,6 +10,7 @@
 #include "covey/cover_draws.hpp"
 #include "covey/cover_sampler.hpp"
 #include "covey/error.hpp"
+#include "covey/memory.hpp"
 #include "covey/score_io.hpp"
 #include "covey/version.hpp"
 
@@ -31,6 +32,7 @@ void run_draw(const DrawOptions& o) {
   for (const std::string& path : {o.output, o.save_sampler})
     if (!path.empty()) AtomicOutput probe(path);
   const ScoreTable table = load_scores(o.scores);
+  require_draws_memory(static_cast<double>(o.count), table.num_variables(), "--count");
   CoverSampler sampler;
   if (!o.load_sampler.empty()) {
     sampler = CoverSampler::load(o.load_sampler, table);

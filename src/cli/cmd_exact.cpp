@@ -11,6 +11,7 @@
 #include "covey/draws_file.hpp"
 #include "covey/error.hpp"
 #include "covey/exact_posterior.hpp"
+#include "covey/memory.hpp"
 #include "covey/score_io.hpp"
 #include "covey/version.hpp"
 
@@ -107,6 +108,11 @@ void run_exact(const ExactArgs& a) {
   // written ones, or --cover-draws of them when none are written.
   const bool cover_from_draws = a.cover >= 0 && table.num_variables() > kCoverMassEnumerationMax;
   options.draws = a.draws > 0 || cover_from_draws;
+  if (a.draws > 0)
+    require_draws_memory(static_cast<double>(a.draws), table.num_variables(), "--draws");
+  else if (cover_from_draws)
+    require_draws_memory(static_cast<double>(a.cover_draws), table.num_variables(),
+                         "--cover-draws");
   const ExactEngine engine(table, options);
   const ExactPosterior& post = engine.posterior();
 
