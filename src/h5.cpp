@@ -8,8 +8,30 @@
 namespace covey::h5 {
 namespace {
 
+// The descriptions of the error stacks of the failing HDF5 calls since the last guard() began. The
+// C++ API throws only after its cleanup (closing temporaries), which clears the stack, so the stack
+// is captured by the library's automatic error handler, called as the failing call returns.
+std::string& last_error_stack() {
+  static std::string stack;
+  return stack;
+}
+
+herr_t collect_error(unsigned, const H5E_error2_t* err, void* data) {
+  if (err && err->desc) static_cast<std::string*>(data)->append(err->desc).append("\n");
+  return 0;
+}
+
+herr_t capture_error_stack(hid_t stack, void*) {
+  if (last_error_stack().size() > 65536) return 0;  // enough to classify the failure
+  H5Ewalk2(stack, H5E_WALK_DOWNWARD, collect_error, &last_error_stack());
+  return 0;
+}
+
 struct QuietErrors {
-  QuietErrors() { H5::Exception::dontPrint(); }
+  QuietErrors() {
+    H5::Exception::dontPrint();
+    H5Eset_auto2(H5E_DEFAULT, capture_error_stack, nullptr);
+  }
 };
 void quiet() {
   static QuietErrors once;
@@ -25,9 +47,11 @@ H5::StrType string_type() {
 H5::DSetCreatPropList filtered_props(int rank, const hsize_t* chunk) {
   H5::DSetCreatPropList props;
   props.setChunk(rank, chunk);
-  props.setFletcher32();
+  // Fletcher32 last: the checksum covers the stored (compressed) bytes, so any damaged byte of a
+  // chunk is reported as a checksum failure before decompression is attempted.
   props.setShuffle();
   props.setDeflate(4);
+  props.setFletcher32();
   return props;
 }
 
@@ -93,23 +117,21 @@ void append_growing(H5::Group& group, const std::string& name, const std::vector
 
 }  // namespace
 
-namespace {
-
-// Collects the descriptions of the current thread's HDF5 error stack.
-herr_t collect_error(unsigned, const H5E_error2_t* err, void* data) {
-  if (err && err->desc) static_cast<std::string*>(data)->append(err->desc).append("\n");
-  return 0;
+void clear_error_stack() {
+  last_error_stack().clear();
 }
 
-}  // namespace
-
 void throw_hdf5_error(const std::string& path, const H5::Exception& e) {
-  std::string stack;
-  H5Ewalk2(H5E_DEFAULT, H5E_WALK_DOWNWARD, collect_error, &stack);
+  const std::string stack = last_error_stack();
+  last_error_stack().clear();
   auto has = [&](const char* what) { return stack.find(what) != std::string::npos; };
   if (has("checksum") || has("Fletcher32") || has("fletcher32"))
     throw InputError(path +
                      ": corrupted: a dataset failed its Fletcher32 checksum (the file was "
+                     "damaged after it was written; use an intact copy)");
+  if (has("inflate() failed"))
+    throw InputError(path +
+                     ": corrupted: a compressed dataset chunk cannot be decoded (the file was "
                      "damaged after it was written; use an intact copy)");
   if (has("No space left on device") || has("File too large") || has("Disk quota exceeded"))
     throw ResourceError(path +

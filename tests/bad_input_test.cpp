@@ -12,11 +12,13 @@
 
 #include <H5Cpp.h>
 
+#include <algorithm>
 #include <filesystem>
 #include <fstream>
 #include <functional>
 #include <map>
 #include <regex>
+#include <set>
 #include <sstream>
 
 #include "covey/score_io.hpp"
@@ -172,9 +174,18 @@ class Inputs {
     preparers_["seven.tsv"] = [this] {
       write_scores_tsv(testing_util::random_full_table(7, 2, 4243), dir_.file("seven.tsv"));
     };
-    // 40 variables with in-degree <= 1: a small table far beyond the exact engines.
+    // 40 variables with in-degree <= 1 (every single parent allowed): a small table, far beyond
+    // the exact engines.
     preparers_["wide.tsv"] = [this] {
-      write_scores_tsv(testing_util::random_full_table(40, 1, 7), dir_.file("wide.tsv"));
+      std::string t = "variables";
+      for (int v = 0; v < 40; ++v) t += "\tV" + std::to_string(v);
+      t += "\nnode\tparents\tlog_score\n";
+      for (int v = 0; v < 40; ++v) {
+        t += "V" + std::to_string(v) + "\t\t-1\n";
+        for (int u = 0; u < 40; ++u)
+          if (u != v) t += "V" + std::to_string(v) + "\tV" + std::to_string(u) + "\t-2\n";
+      }
+      write_file(dir_.file("wide.tsv"), t);
     };
     preparers_["run.h5"] = [this] {
       run_ok("chain " + file("scores.tsv") + " --chains 2 --steps 4000 --thin 10 --seed 3 -o " +

@@ -8,6 +8,7 @@
 #include <tbb/global_control.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <chrono>
 #include <cmath>
 #include <filesystem>

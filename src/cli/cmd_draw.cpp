@@ -119,9 +119,7 @@ void setup_draw(CLI::App& app) {
                   "cover bound k (0 <= k < number of variables): draw DAGs whose moral graph "
                   "has a vertex cover of at most k vertices")
       ->required();
-  cmd->add_option("--count", o->count, "number of exact draws")
-      ->required()
-      ->check(CLI::PositiveNumber);
+  cmd->add_option("--count", o->count, "number of exact draws")->required()->check(kPositive);
   cmd->add_option("--seed", o->seed, "random seed (default 1); results do not depend on --threads")
       ->check(CLI::Range(std::uint64_t{0}, std::uint64_t{9223372036854775807ULL}));
   cmd->add_option("-o,--output", o->output, "HDF5 file for the draws (see docs/file-formats.md)");

@@ -215,7 +215,7 @@ void setup_exact(CLI::App& app) {
   cmd->add_option("SCORES", args->scores, "score table (HDF5 or .tsv)")->required();
   cmd->add_flag("--json", args->json, "Print JSON");
   cmd->add_option("--draws", args->draws, "Exact independent draws to write (needs -o)")
-      ->check(CLI::PositiveNumber);
+      ->check(kPositive);
   cmd->add_option("--seed", args->seed, "Seed of the draws (default 1)");
   cmd->add_option("-o,--output", args->output, "HDF5 file for the draws (kind exact-draws)");
   cmd->add_option("--route", args->route,
@@ -223,19 +223,19 @@ void setup_exact(CLI::App& app) {
                   "memory)");
   cmd->add_option("--max-memory", args->max_memory_gib,
                   "Refuse when the estimated memory exceeds this many GiB (default: half the RAM)")
-      ->check(CLI::NonNegativeNumber);
+      ->check(kNonNegative);
   cmd->add_option("--max-seconds", args->max_seconds,
                   "Refuse when the estimated single-core time exceeds this (default 3600)")
-      ->check(CLI::PositiveNumber);
+      ->check(kPositive);
   cmd->add_option("--top", args->top, "Features listed per kind in the text output (default 10)")
-      ->check(CLI::NonNegativeNumber);
+      ->check(kNonNegative);
   cmd->add_option("--cover", args->cover,
                   "Also the posterior mass of D_k (moral graph vertex cover <= k) and log Z_k")
-      ->check(CLI::NonNegativeNumber);
+      ->check(kNonNegative);
   cmd->add_option("--cover-draws", args->cover_draws,
                   "Exact draws that estimate the D_k mass above 6 variables when --draws is not "
                   "given (default 10000)")
-      ->check(CLI::PositiveNumber);
+      ->check(kPositive);
   add_threads_option(*cmd, args->threads);
   cmd->callback([args] { run_exact(*args); });
 }

@@ -4,6 +4,23 @@
 #include <thread>
 
 namespace covey::cli {
+
+namespace {
+CLI::Validator number_check(const char* name, bool allow_zero) {
+  return CLI::Validator(
+      [allow_zero](std::string& text) -> std::string {
+        double value = 0;
+        if (!CLI::detail::lexical_cast(text, value)) return "'" + text + "' is not a number";
+        if (allow_zero ? value >= 0 : value > 0) return {};
+        return std::string(allow_zero ? "must be at least 0" : "must be positive") + " (got " +
+               text + ")";
+      },
+      name, name);
+}
+}  // namespace
+
+const CLI::Validator kPositive = number_check("POSITIVE", false);
+const CLI::Validator kNonNegative = number_check("NONNEGATIVE", true);
 namespace {
 std::string& stored_command_line() {
   static std::string line;
@@ -11,7 +28,9 @@ std::string& stored_command_line() {
 }
 }  // namespace
 
-const std::string& command_line() { return stored_command_line(); }
+const std::string& command_line() {
+  return stored_command_line();
+}
 
 void set_command_line(int argc, char** argv) {
   std::string line;
@@ -23,8 +42,9 @@ void set_command_line(int argc, char** argv) {
 }
 
 void add_threads_option(CLI::App& cmd, int& threads) {
-  cmd.add_option("--threads", threads, "Worker threads (0 = all cores); results do not depend on it")
-      ->check(CLI::NonNegativeNumber);
+  cmd.add_option("--threads", threads,
+                 "Worker threads (0 = all cores); results do not depend on it")
+      ->check(kNonNegative);
 }
 
 std::unique_ptr<tbb::global_control> apply_threads(int threads) {
@@ -33,6 +53,8 @@ std::unique_ptr<tbb::global_control> apply_threads(int threads) {
                                                static_cast<std::size_t>(threads));
 }
 
-void print_json(const nlohmann::json& value) { std::cout << value.dump(2) << "\n"; }
+void print_json(const nlohmann::json& value) {
+  std::cout << value.dump(2) << "\n";
+}
 
 }  // namespace covey::cli
