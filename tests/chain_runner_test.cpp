@@ -370,7 +370,9 @@ TEST(ChainCli, TenRandomKillsThenResumeEqualsStraightRun) {
     ASSERT_GE(pid, 0);
     // The first session is killed only once its run file exists (before that there is nothing
     // to resume); later ones at any moment, also before their first checkpoint.
-    if (!resume) ASSERT_TRUE(wait_for_checkpoints(run, 1, 30)) << "no run file written";
+    if (!resume) {
+      ASSERT_TRUE(wait_for_checkpoints(run, 1, 30)) << "no run file written";
+    }
     std::this_thread::sleep_for(std::chrono::milliseconds(delay_ms(moments)));
     if (kill_nine(pid)) ++kills;
     // Whatever the moment, the file is the complete last checkpoint, never older work.
@@ -382,7 +384,10 @@ TEST(ChainCli, TenRandomKillsThenResumeEqualsStraightRun) {
   r = run_covey("chain " + common + " --resume -o " + run);
   ASSERT_EQ(r.exit_code, 0) << r.err;
   expect_same_traces(ChainRun::open(dir.file("straight.h5")), ChainRun::open(run));
-  EXPECT_EQ(ChainRun::open(run).attributes()["sessions"].size(), 11u);
+  // A session is recorded with its first checkpoint: those killed before it left no trace.
+  const std::size_t sessions = ChainRun::open(run).attributes()["sessions"].size();
+  EXPECT_GE(sessions, 2u);
+  EXPECT_LE(sessions, 11u);
   expect_no_temporaries(dir, "run.h5");
 }
 
