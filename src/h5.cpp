@@ -4,6 +4,7 @@
 #include <fstream>
 
 #include "covey/error.hpp"
+#include "covey/memory.hpp"
 
 namespace covey::h5 {
 namespace {
@@ -80,7 +81,11 @@ std::vector<T> read_numeric(const H5::Group& group, const std::string& name,
   std::vector<hsize_t> dims(std::max(rank, 1), 0);
   if (rank > 0) space.getSimpleExtentDims(dims.data());
   hsize_t total = 1;
-  for (int i = 0; i < rank; ++i) total *= dims[i];
+  double bytes = sizeof(T);
+  for (int i = 0; i < rank; ++i) total *= dims[i], bytes *= static_cast<double>(dims[i]);
+  // A corrupt or hand-made file may declare a dataset far larger than it stores.
+  require_memory(bytes, 0, "dataset '" + name + "'",
+                 "the file declares more values than memory holds (corrupt?)");
   std::vector<T> out(total);
   if (total) ds.read(out.data(), type);
   return out;
