@@ -11,7 +11,7 @@ JOBS ?= $(shell nproc 2>/dev/null || echo 2)
 SUDO := $(shell [ "$$(id -u)" -eq 0 ] || echo sudo)
 CMAKE_FLAGS ?=
 
-.PHONY: deps build build-asan test unit-test asan-test demo bench format cli-docs clean
+.PHONY: deps build build-asan test unit-test asan-test fuzz-smoke fuzz demo bench format cli-docs clean
 
 deps:
 	@missing=$$(for p in $(DEBIAN_PACKAGES); do \
@@ -29,8 +29,8 @@ build: deps
 
 # The sanitizer build uses clang, whose libFuzzer the fuzz targets also need.
 build-asan: deps
-	CC=clang CXX=clang++ cmake -S . -B build-asan -DCMAKE_BUILD_TYPE=RelWithDebInfo -DCOVEY_SANITIZE=ON $(CMAKE_FLAGS) >/dev/null
-	cmake --build build-asan -j $(JOBS) --target covey covey_tests
+	CC=clang CXX=clang++ cmake -S . -B build-asan -DCMAKE_BUILD_TYPE=RelWithDebInfo -DCOVEY_SANITIZE=ON -DCOVEY_FUZZ=ON $(CMAKE_FLAGS) >/dev/null
+	cmake --build build-asan -j $(JOBS) --target covey covey_tests covey_fuzz_targets
 
 unit-test: build
 	cd build && ctest --output-on-failure -j $(JOBS)
@@ -39,7 +39,17 @@ asan-test: build-asan
 	cd build-asan && ASAN_OPTIONS=detect_leaks=1 UBSAN_OPTIONS=print_stacktrace=1 \
 	  ctest --output-on-failure -j $(JOBS) -LE slow
 
-test: unit-test asan-test
+# libFuzzer targets of the readers (tests/fuzz/): FUZZ_SMOKE_SECONDS each in `make test`,
+# FUZZ_SECONDS each in `make fuzz`.
+FUZZ_SMOKE_SECONDS ?= 30
+FUZZ_SECONDS ?= 600
+fuzz-smoke: build-asan
+	tests/fuzz/run_fuzz.sh build-asan $(FUZZ_SMOKE_SECONDS)
+
+fuzz: build-asan
+	tests/fuzz/run_fuzz.sh build-asan $(FUZZ_SECONDS)
+
+test: unit-test asan-test fuzz-smoke
 
 demo: build
 	bash examples/run_demo.sh

@@ -1,6 +1,8 @@
 // Chain-run files: writer (chains/chain_file_writer.hpp) and reader
 // (include/covey/chain_run_file.hpp). Layout: docs/file-formats.md, "Chain runs".
+#include <fcntl.h>
 #include <signal.h>
+#include <sys/resource.h>
 #include <unistd.h>
 
 #include <algorithm>
@@ -17,6 +19,7 @@
 #include "covey/atomic_file.hpp"
 #include "covey/error.hpp"
 #include "covey/h5.hpp"
+#include "covey/memory.hpp"
 #include "covey/version.hpp"
 
 namespace covey {
@@ -176,14 +179,79 @@ void create(const std::string& path, const Header& header, const std::vector<Cha
   out.commit();
 }
 
+namespace {
+
+// An upper bound of the bytes a checkpoint adds to the run file: the new rows uncompressed, plus
+// one whole chunk of every growing dataset of every chain (appending to a partly filled chunk
+// stores a new copy of it), plus room for metadata.
+std::uintmax_t checkpoint_growth_bound(const std::vector<ChainBlock>& blocks) {
+  std::uintmax_t bytes = std::uintmax_t{256} << 10;
+  for (const ChainBlock& b : blocks) {
+    const std::uintmax_t width = std::max<std::size_t>(b.state.parents.size(), 1);
+    bytes += 8 * (b.draws.size() + b.log_scores.size() + b.draw_steps.size() +
+                  b.regenerations.size() + b.state.parents.size() + kRngWords + kCountsWidth);
+    bytes += 8 * (std::max<std::uintmax_t>(16 * width, 65536) + 2 * 4096 + 1024 + 16 * width +
+                  4 * kRngWords + 64 * kCountsWidth + 64 * kCheckpointWidth);
+  }
+  return bytes;
+}
+
+// Makes sure the next checkpoint file fits before any byte of it is written, so that a full disk
+// or a file-size limit gives one clear error and leaves the last checkpoint as it is (a failing
+// write inside HDF5 would leave the library in a state it does not recover from cleanly).
+// `temp` is the copy of the run file: its blocks up to `need` are reserved without changing its
+// size (where the file system supports that); the reservation beyond the final size is
+// released by release_reservation().
+void reserve_checkpoint_room(const std::string& path, const std::string& temp,
+                             std::uintmax_t need) {
+  rlimit limit{};
+  if (::getrlimit(RLIMIT_FSIZE, &limit) == 0 && limit.rlim_cur != RLIM_INFINITY &&
+      need > limit.rlim_cur)
+    throw ResourceError(path + ": cannot write the next checkpoint: the file would need up to " +
+                        format_bytes(static_cast<double>(need)) +
+                        ", above the file size limit (ulimit -f) of " +
+                        format_bytes(static_cast<double>(limit.rlim_cur)) +
+                        "; the last checkpoint is intact (raise the limit, then --resume)");
+  const int fd = ::open(temp.c_str(), O_WRONLY);
+  if (fd < 0) return;
+  const int rc = ::fallocate(fd, FALLOC_FL_KEEP_SIZE, 0, static_cast<off_t>(need));
+  const int err = rc == 0 ? 0 : errno;
+  ::close(fd);
+  if (err == ENOSPC || err == EDQUOT)
+    throw ResourceError(path +
+                        ": cannot write the next checkpoint: no space left on the device "
+                        "for up to " +
+                        format_bytes(static_cast<double>(need)) +
+                        "; the last checkpoint is intact (free space, then --resume)");
+}
+
+void release_reservation(const std::string& temp) {
+  std::error_code ec;
+  const std::uintmax_t size = std::filesystem::file_size(temp, ec);
+  if (!ec) ::truncate(temp.c_str(), static_cast<off_t>(size));
+}
+
+}  // namespace
+
 void append_checkpoint(const std::string& path, const std::vector<ChainBlock>& blocks,
                        std::uint64_t steps, double elapsed_seconds,
                        const nlohmann::json* new_session) {
   AtomicOutput out(path);
   std::error_code ec;
+  const std::uintmax_t old_size = std::filesystem::file_size(path, ec);
+  if (ec) throw InputError(path + ": cannot read the run file: " + ec.message());
+  const std::uintmax_t need = old_size + checkpoint_growth_bound(blocks);
+  rlimit limit{};
+  if (::getrlimit(RLIMIT_FSIZE, &limit) == 0 && limit.rlim_cur != RLIM_INFINITY &&
+      old_size > limit.rlim_cur)
+    throw ResourceError(path + ": cannot copy the run file for a checkpoint: it is larger than " +
+                        "the file size limit (ulimit -f); the last checkpoint is intact");
   std::filesystem::copy_file(path, out.temp_path(),
                              std::filesystem::copy_options::overwrite_existing, ec);
-  if (ec) throw Error(path + ": cannot copy the run file for a checkpoint: " + ec.message());
+  if (ec)
+    throw ResourceError(path + ": cannot copy the run file for a checkpoint: " + ec.message() +
+                        "; the last checkpoint is intact");
+  reserve_checkpoint_room(path, out.temp_path(), need);
   h5::guard(path, [&] {
     H5::H5File file = h5::open_write(out.temp_path());
     if (new_session) {
@@ -194,6 +262,7 @@ void append_checkpoint(const std::string& path, const std::vector<ChainBlock>& b
     append_blocks(file, blocks, steps, elapsed_seconds);
     file.close();
   });
+  release_reservation(out.temp_path());
   out.commit();
 }
 

@@ -10,6 +10,7 @@
 #include "covey/atomic_file.hpp"
 #include "covey/error.hpp"
 #include "covey/h5.hpp"
+#include "covey/memory.hpp"
 #include "covey/progress.hpp"
 #include "covey/proportion.hpp"
 #include "covey/version.hpp"
@@ -22,6 +23,7 @@ constexpr long long kDrawsFormatVersion = 1;
 
 CoverDrawBatch draw_cover_batch(const CoverSampler& sampler, std::uint64_t seed, std::size_t count,
                                 bool show_progress) {
+  require_draws_memory(static_cast<double>(count), sampler.num_variables(), "number of draws");
   CoverDrawBatch batch;
   batch.dags.resize(count);
   const std::size_t blocks = (count + kCoverDrawBlock - 1) / kCoverDrawBlock;

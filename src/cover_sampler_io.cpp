@@ -4,6 +4,7 @@
 #include <cinttypes>
 #include <cmath>
 #include <cstdio>
+#include <cstring>
 #include <limits>
 
 #include "cover_sampler_impl.hpp"
@@ -20,6 +21,44 @@ constexpr const char* kSamplerKind = "cover-sampler";
 constexpr long long kSamplerFormatVersion = 1;
 static_assert(std::numeric_limits<long double>::digits <= 64,
               "the sampler file stores long double mantissas in 64 bits");
+
+// FNV-1a over the stored tables (bit patterns): a sampler file whose contents were changed after
+// saving (checksums recomputed, hand edits) would otherwise give wrong draws or reach states of
+// weight 0; a digest mismatch is reported as a corrupt file instead.
+class Digest {
+ public:
+  template <class T>
+  void add(const std::vector<T>& values) {
+    add_bytes(values.size());
+    for (const T& v : values) add_bytes(v);
+  }
+  template <class T>
+  void add_bytes(const T& value) {
+    unsigned char bytes[sizeof(T)];
+    std::memcpy(bytes, &value, sizeof(T));
+    for (unsigned char b : bytes) h_ = (h_ ^ b) * 1099511628211ULL;
+  }
+  std::uint64_t value() const { return h_; }
+
+ private:
+  std::uint64_t h_ = 14695981039346656037ULL;
+};
+
+std::uint64_t tables_digest(long long k, long long n, const std::vector<std::uint64_t>& covers,
+                            const std::vector<std::int32_t>& orders,
+                            const std::vector<double>& log_weights,
+                            const std::vector<std::uint64_t>& mantissa,
+                            const std::vector<std::int32_t>& exponent) {
+  Digest d;
+  d.add_bytes(k);
+  d.add_bytes(n);
+  d.add(covers);
+  d.add(orders);
+  d.add(log_weights);
+  d.add(mantissa);
+  d.add(exponent);
+  return d.value();
+}
 
 }  // namespace
 
@@ -60,6 +99,9 @@ void CoverSampler::save(const std::string& path) const {
     H5::Group tables = file.createGroup("tables");
     h5::write_vector(tables, "mantissa", mantissa);
     h5::write_vector(tables, "exponent", exponent);
+    h5::set_attr(file, "tables_digest",
+                 format_fingerprint(
+                     tables_digest(d.k, d.n, covers, orders, log_weights, mantissa, exponent)));
   });
   out.commit();
 }
@@ -118,6 +160,16 @@ CoverSampler CoverSampler::load(const std::string& path, const ScoreTable& table
     const auto exponent = h5::read_int32s(tables, "exponent");
     if (mantissa.size() != d.arena_size || exponent.size() != d.arena_size)
       throw InputError(path + ": the tables do not match the unit list (corrupted?)");
+    if (!h5::has_attr(file, "tables_digest"))
+      throw InputError(path +
+                       ": no tables_digest attribute (saved by an older covey?); save the "
+                       "sampler again with --save-sampler");
+    if (h5::get_attr_string(file, "tables_digest") !=
+        format_fingerprint(
+            tables_digest(d.k, d.n, covers, orders, log_weights, mantissa, exponent)))
+      throw InputError(path +
+                       ": the sampler tables do not match their digest (the file was "
+                       "changed after it was saved; save the sampler again)");
     d.arena.resize(d.arena_size);
     for (std::size_t i = 0; i < d.arena_size; ++i)
       d.arena[i] = mantissa[i] == 0

@@ -12,6 +12,7 @@
 
 #include "covey/error.hpp"
 #include "covey/logmath.hpp"
+#include "covey/memory.hpp"
 #include "exact_internal.hpp"
 
 namespace covey {
@@ -430,6 +431,7 @@ Dag ExactEngine::draw(Rng& rng) const {
 
 std::vector<Dag> ExactEngine::draw_many(std::size_t count, std::uint64_t seed) const {
   if (!impl_->can_draw) throw Error("exact engine was built without draws");
+  require_draws_memory(static_cast<double>(count), impl_->n, "number of draws");
   std::vector<Dag> out(count);
   const std::size_t blocks = (count + kDrawsPerStream - 1) / kDrawsPerStream;
   tbb::parallel_for(std::size_t{0}, blocks, [&](std::size_t b) {

@@ -4,14 +4,39 @@
 #include <fstream>
 
 #include "covey/error.hpp"
+#include "covey/memory.hpp"
 
 namespace covey::h5 {
 namespace {
 
+// The descriptions of the error stacks of the failing HDF5 calls since the last guard() began. The
+// C++ API throws only after its cleanup (closing temporaries), which clears the stack, so the stack
+// is captured by the library's automatic error handler, called as the failing call returns.
+std::string& last_error_stack() {
+  static std::string stack;
+  return stack;
+}
+
+herr_t collect_error(unsigned, const H5E_error2_t* err, void* data) {
+  if (err && err->desc) static_cast<std::string*>(data)->append(err->desc).append("\n");
+  return 0;
+}
+
+herr_t capture_error_stack(hid_t stack, void*) {
+  if (last_error_stack().size() > 65536) return 0;  // enough to classify the failure
+  H5Ewalk2(stack, H5E_WALK_DOWNWARD, collect_error, &last_error_stack());
+  return 0;
+}
+
 struct QuietErrors {
-  QuietErrors() { H5::Exception::dontPrint(); }
+  QuietErrors() {
+    H5::Exception::dontPrint();
+    H5Eset_auto2(H5E_DEFAULT, capture_error_stack, nullptr);
+  }
 };
-void quiet() { static QuietErrors once; }
+void quiet() {
+  static QuietErrors once;
+}
 
 H5::StrType string_type() {
   H5::StrType t(H5::PredType::C_S1, H5T_VARIABLE);
@@ -23,9 +48,11 @@ H5::StrType string_type() {
 H5::DSetCreatPropList filtered_props(int rank, const hsize_t* chunk) {
   H5::DSetCreatPropList props;
   props.setChunk(rank, chunk);
-  props.setFletcher32();
+  // Fletcher32 last: the checksum covers the stored (compressed) bytes, so any damaged byte of a
+  // chunk is reported as a checksum failure before decompression is attempted.
   props.setShuffle();
   props.setDeflate(4);
+  props.setFletcher32();
   return props;
 }
 
@@ -54,7 +81,11 @@ std::vector<T> read_numeric(const H5::Group& group, const std::string& name,
   std::vector<hsize_t> dims(std::max(rank, 1), 0);
   if (rank > 0) space.getSimpleExtentDims(dims.data());
   hsize_t total = 1;
-  for (int i = 0; i < rank; ++i) total *= dims[i];
+  double bytes = sizeof(T);
+  for (int i = 0; i < rank; ++i) total *= dims[i], bytes *= static_cast<double>(dims[i]);
+  // A corrupt or hand-made file may declare a dataset far larger than it stores.
+  require_memory(bytes, 0, "dataset '" + name + "'",
+                 "the file declares more values than memory holds (corrupt?)");
   std::vector<T> out(total);
   if (total) ds.read(out.data(), type);
   return out;
@@ -90,6 +121,34 @@ void append_growing(H5::Group& group, const std::string& name, const std::vector
 }
 
 }  // namespace
+
+void clear_error_stack() {
+  last_error_stack().clear();
+}
+
+void throw_hdf5_error(const std::string& path, const H5::Exception& e) {
+  const std::string stack = last_error_stack();
+  last_error_stack().clear();
+  auto has = [&](const char* what) { return stack.find(what) != std::string::npos; };
+  if (has("checksum") || has("Fletcher32") || has("fletcher32"))
+    throw InputError(path +
+                     ": corrupted: a dataset failed its Fletcher32 checksum (the file was "
+                     "damaged after it was written; use an intact copy)");
+  if (has("inflate() failed"))
+    throw InputError(path +
+                     ": corrupted: a compressed dataset chunk cannot be decoded (the file was "
+                     "damaged after it was written; use an intact copy)");
+  if (has("No space left on device") || has("File too large") || has("Disk quota exceeded"))
+    throw ResourceError(path +
+                        ": cannot write: the disk is full or the file size limit was reached "
+                        "(the output was not replaced; free space and run again)");
+  if (has("truncated file"))
+    throw InputError(path +
+                     ": truncated: the file is shorter than its HDF5 structure says (an "
+                     "interrupted copy or a full disk?)");
+  throw InputError(path + ": HDF5 error in " + e.getFuncName() + ": " + e.getDetailMsg() +
+                   " (the file may be truncated, corrupted or not written by covey)");
+}
 
 H5::H5File open_read(const std::string& path) {
   quiet();
@@ -131,7 +190,8 @@ void set_attr(H5::H5Object& obj, const std::string& name, const std::string& val
 
 void set_attr(H5::H5Object& obj, const std::string& name, long long value) {
   quiet();
-  H5::Attribute a = obj.createAttribute(name, H5::PredType::NATIVE_LLONG, H5::DataSpace(H5S_SCALAR));
+  H5::Attribute a =
+      obj.createAttribute(name, H5::PredType::NATIVE_LLONG, H5::DataSpace(H5S_SCALAR));
   a.write(H5::PredType::NATIVE_LLONG, &value);
 }
 
@@ -161,7 +221,8 @@ long long get_attr_int(const H5::H5Object& obj, const std::string& name) {
   quiet();
   if (!obj.attrExists(name)) throw InputError("missing attribute '" + name + "'");
   H5::Attribute a = obj.openAttribute(name);
-  if (a.getTypeClass() != H5T_INTEGER) throw InputError("attribute '" + name + "' is not an integer");
+  if (a.getTypeClass() != H5T_INTEGER)
+    throw InputError("attribute '" + name + "' is not an integer");
   long long v = 0;
   a.read(H5::PredType::NATIVE_LLONG, &v);
   return v;

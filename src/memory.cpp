@@ -6,6 +6,7 @@
 #include <charconv>
 #include <cmath>
 #include <cstdio>
+#include <vector>
 
 #include "covey/error.hpp"
 
@@ -61,6 +62,30 @@ std::string format_bytes(double bytes) {
   else
     std::snprintf(buf, sizeof buf, "%.2f %s", bytes, units[u]);
   return buf;
+}
+
+void require_memory(double bytes, std::uint64_t limit, const std::string& what,
+                    const std::string& shrink) {
+  const std::uint64_t allowed = limit ? limit : default_memory_limit();
+  if (!(bytes <= static_cast<double>(allowed)))
+    throw ResourceError(what + " needs about " + format_bytes(bytes) +
+                        ", more than the memory limit of " +
+                        format_bytes(static_cast<double>(allowed)) + "; " + shrink);
+}
+
+double dag_list_bytes(double count, int num_variables) {
+  // A Dag holds its parent words in a vector: the vector itself plus one word per node.
+  return count * (static_cast<double>(sizeof(std::vector<std::uint64_t>)) + 16.0 +
+                  8.0 * static_cast<double>(num_variables));
+}
+
+void require_draws_memory(double count, int num_variables, const std::string& option) {
+  // The draws, plus one row of parent words per draw when they are written out.
+  const double bytes =
+      dag_list_bytes(count, num_variables) + count * 8.0 * static_cast<double>(num_variables);
+  char what[64];
+  std::snprintf(what, sizeof what, "%.4g draws of %d variables", count, num_variables);
+  require_memory(bytes, 0, what, "a smaller " + option + " shrinks it");
 }
 
 }  // namespace covey

@@ -8,10 +8,12 @@
 #include <tbb/global_control.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <chrono>
 #include <cmath>
 #include <filesystem>
 #include <fstream>
+#include <random>
 #include <thread>
 
 #include "chain_oracles.hpp"
@@ -280,6 +282,45 @@ std::string write_table(const TempDir& dir, int n, int d, std::uint64_t seed) {
   return path;
 }
 
+// Starts `covey ARGS` in the background (output discarded); returns its pid.
+pid_t spawn_covey(const std::string& args) {
+  const pid_t pid = fork();
+  if (pid == 0) {
+    const std::string cmd = std::string(COVEY_BINARY) + " " + args + " >/dev/null 2>&1";
+    execl("/bin/sh", "sh", "-c", ("exec " + cmd).c_str(), static_cast<char*>(nullptr));
+    _exit(127);
+  }
+  return pid;
+}
+
+// Waits (up to `seconds`) until `run` is a readable run file with at least `checkpoints`.
+bool wait_for_checkpoints(const std::string& run, std::size_t checkpoints, double seconds) {
+  const auto until = std::chrono::steady_clock::now() + std::chrono::duration<double>(seconds);
+  while (std::chrono::steady_clock::now() < until) {
+    try {
+      if (std::filesystem::exists(run) && ChainRun::open(run).num_checkpoints() >= checkpoints)
+        return true;
+    } catch (const InputError&) {
+    }
+    std::this_thread::sleep_for(std::chrono::milliseconds(10));
+  }
+  return false;
+}
+
+// Sends SIGKILL and reaps the process; true when the signal (not the end of the run) ended it.
+bool kill_nine(pid_t pid) {
+  kill(pid, SIGKILL);
+  int status = 0;
+  waitpid(pid, &status, 0);
+  return WIFSIGNALED(status) && WTERMSIG(status) == SIGKILL;
+}
+
+void expect_no_temporaries(const TempDir& dir, const std::string& name) {
+  for (const auto& e : std::filesystem::directory_iterator(dir.path()))
+    EXPECT_EQ(e.path().filename().string().find("." + name + ".tmp"), std::string::npos)
+        << e.path();
+}
+
 TEST(ChainCli, KillNineThenResumeEqualsStraightRun) {
   TempDir dir;
   const std::string scores = write_table(dir, 8, 3, 31);
@@ -292,28 +333,11 @@ TEST(ChainCli, KillNineThenResumeEqualsStraightRun) {
   ASSERT_EQ(r.exit_code, 0) << r.err;
   // The same run killed with SIGKILL after a few checkpoints, then resumed.
   const std::string killed = dir.file("killed.h5");
-  const pid_t pid = fork();
+  const pid_t pid = spawn_covey("chain " + common + " --checkpoint-every 0.1s -o " + killed);
   ASSERT_GE(pid, 0);
-  if (pid == 0) {
-    const std::string cmd = std::string(COVEY_BINARY) + " chain " + common +
-                            " --checkpoint-every 0.1s -o " + killed + " >/dev/null 2>&1";
-    execl("/bin/sh", "sh", "-c", ("exec " + cmd).c_str(), static_cast<char*>(nullptr));
-    _exit(127);
-  }
-  bool checkpointed = false;
-  for (int i = 0; i < 600 && !checkpointed; ++i) {
-    std::this_thread::sleep_for(std::chrono::milliseconds(20));
-    try {
-      checkpointed =
-          std::filesystem::exists(killed) && ChainRun::open(killed).num_checkpoints() >= 2;
-    } catch (const InputError&) {
-    }
-  }
+  const bool checkpointed = wait_for_checkpoints(killed, 2, 12);
+  ASSERT_TRUE(kill_nine(pid)) << "the run finished before it was killed";
   ASSERT_TRUE(checkpointed) << "the run wrote no checkpoints";
-  kill(pid, SIGKILL);
-  int status = 0;
-  waitpid(pid, &status, 0);
-  ASSERT_TRUE(WIFSIGNALED(status)) << "the run finished before it was killed";
   const ChainRun partial = ChainRun::open(killed);  // the last checkpoint survived
   EXPECT_LT(partial.steps(), steps);
   r = run_covey("chain " + common + " --resume -o " + killed);
@@ -321,9 +345,108 @@ TEST(ChainCli, KillNineThenResumeEqualsStraightRun) {
   EXPECT_EQ(nlohmann::json::parse(r.out)["session_steps"].get<std::uint64_t>(),
             steps - partial.steps());
   expect_same_traces(ChainRun::open(dir.file("straight.h5")), ChainRun::open(killed));
-  // No temporary file is left beside the output.
-  for (const auto& e : std::filesystem::directory_iterator(dir.path()))
-    EXPECT_EQ(e.path().filename().string().find(".killed.h5.tmp"), std::string::npos) << e.path();
+  expect_no_temporaries(dir, "killed.h5");
+}
+
+// Ten sessions of one run, each killed with SIGKILL at a random moment (uniform in 0-400 ms
+// after it started, from a fixed seed; checkpoints every 20 ms, so kills also land while a
+// checkpoint file is being written), each continued with --resume: every resume succeeds, and
+// the finished trace equals that of a run never interrupted.
+TEST(ChainCli, TenRandomKillsThenResumeEqualsStraightRun) {
+  TempDir dir;
+  const std::string scores = write_table(dir, 8, 3, 36);
+  const std::string common = scores + " --chains 2 --thin 200 --seed 8 --steps 3e7 --json";
+  auto r = run_covey("chain " + common + " -o " + dir.file("straight.h5"));
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  const std::string run = dir.file("run.h5");
+  std::mt19937_64 moments(2026);
+  std::uniform_int_distribution<int> delay_ms(0, 400);
+  int kills = 0;
+  std::uint64_t last_steps = 0;
+  for (int session = 0; session < 10; ++session) {
+    const bool resume = std::filesystem::exists(run);
+    const pid_t pid = spawn_covey("chain " + common + " --checkpoint-every 0.02s" +
+                                  (resume ? " --resume" : "") + " -o " + run);
+    ASSERT_GE(pid, 0);
+    // The first session is killed only once its run file exists (before that there is nothing
+    // to resume); later ones at any moment, also before their first checkpoint.
+    if (!resume) {
+      ASSERT_TRUE(wait_for_checkpoints(run, 1, 30)) << "no run file written";
+    }
+    std::this_thread::sleep_for(std::chrono::milliseconds(delay_ms(moments)));
+    if (kill_nine(pid)) ++kills;
+    // Whatever the moment, the file is the complete last checkpoint, never older work.
+    const ChainRun partial = ChainRun::open(run);
+    EXPECT_GE(partial.steps(), last_steps) << "session " << session;
+    last_steps = partial.steps();
+  }
+  EXPECT_EQ(kills, 10) << "a session finished before its kill: the run is too short";
+  r = run_covey("chain " + common + " --resume -o " + run);
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  expect_same_traces(ChainRun::open(dir.file("straight.h5")), ChainRun::open(run));
+  // A session is recorded with its first checkpoint: those killed before it left no trace.
+  const std::size_t sessions = ChainRun::open(run).attributes()["sessions"].size();
+  EXPECT_GE(sessions, 2u);
+  EXPECT_LE(sessions, 11u);
+  expect_no_temporaries(dir, "run.h5");
+}
+
+TEST(ChainCli, SigtermWritesCheckpointExitsCleanlyAndResumes) {
+  TempDir dir;
+  const std::string scores = write_table(dir, 8, 3, 37);
+  const std::string out = dir.file("run.h5");
+  const std::string common = scores + " --chains 2 --thin 100 --seed 4 --steps 3e8";
+  const auto r = testing_util::run_shell(std::string(COVEY_BINARY) + " chain " + common + " -o " +
+                                         out + " & pid=$!; sleep 1; kill -TERM $pid; wait $pid");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  EXPECT_NE(r.err.find("stopped by SIGTERM"), std::string::npos) << r.err;
+  EXPECT_NE(r.err.find("--resume"), std::string::npos) << r.err;
+  const ChainRun stopped = ChainRun::open(out);
+  EXPECT_GT(stopped.steps(), 0u);
+  EXPECT_LT(stopped.steps(), 300'000'000u);
+  // The checkpoint continues: resume to a total a little beyond it, and compare with a straight
+  // run of that length.
+  const std::string total = std::to_string(stopped.steps() + 5000);
+  const std::string shorter = scores + " --chains 2 --thin 100 --seed 4 --steps " + total;
+  auto again = run_covey("chain " + shorter + " --resume -o " + out);
+  ASSERT_EQ(again.exit_code, 0) << again.err;
+  again = run_covey("chain " + shorter + " -o " + dir.file("straight.h5"));
+  ASSERT_EQ(again.exit_code, 0) << again.err;
+  expect_same_traces(ChainRun::open(dir.file("straight.h5")), ChainRun::open(out));
+  expect_no_temporaries(dir, "run.h5");
+}
+
+// A full disk while a checkpoint is written, made unprivileged with a file-size limit
+// (RLIMIT_FSIZE through `ulimit -f`, with SIGXFSZ ignored so that writes fail with EFBIG): a
+// clear error and a non-zero exit, the previous checkpoint byte for byte intact, no temporary
+// file left, and the run resumes to the trace of an uninterrupted run.
+TEST(ChainCli, DiskFullDuringCheckpointKeepsThePreviousOne) {
+  TempDir dir;
+  const std::string scores = write_table(dir, 6, 2, 38);
+  const std::string out = dir.file("run.h5");
+  const std::string common = scores + " --chains 2 --thin 10 --seed 6";
+  auto r = run_covey("chain " + common + " --steps 20000 -o " + out);
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  const std::string before = testing_util::read_file(out);
+  // The limit is the size of the current file (in 512-byte blocks, as POSIX `ulimit -f` counts
+  // them): copying it still fits, the new draws of the next checkpoint do not.
+  const std::size_t blocks = before.size() / 512 + 1;
+  r = testing_util::run_shell("trap '' XFSZ; ulimit -f " + std::to_string(blocks) + "; exec " +
+                              COVEY_BINARY + " chain " + common + " --steps 2000000 --resume -o " +
+                              out);
+  EXPECT_NE(r.exit_code, 0) << r.err;
+  EXPECT_NE(r.err.find("run.h5"), std::string::npos) << r.err;
+  EXPECT_TRUE(r.err.find("file size limit") != std::string::npos ||
+              r.err.find("File too large") != std::string::npos)
+      << r.err;
+  EXPECT_EQ(std::count(r.err.begin(), r.err.end(), '\n'), 1) << r.err;
+  EXPECT_TRUE(testing_util::read_file(out) == before) << "the last checkpoint was changed";
+  expect_no_temporaries(dir, "run.h5");
+  r = run_covey("chain " + common + " --steps 60000 --resume -o " + out);
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  r = run_covey("chain " + common + " --steps 60000 -o " + dir.file("straight.h5"));
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  expect_same_traces(ChainRun::open(dir.file("straight.h5")), ChainRun::open(out));
 }
 
 TEST(ChainCli, SigintStopsCleanlyAndJsonSummary) {

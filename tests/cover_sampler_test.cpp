@@ -2,6 +2,7 @@
 // (n = 4, 5; k = 1, 2, 3; fixed seeds): U, per-cover-set weights, the signed formula, the
 // Z_k estimate, chi-square tests of the draws (and of a broken sampler, which must fail),
 // Robinson's DAG counts (OEIS A003024), thread-count invariance and save/load.
+#include <H5Cpp.h>
 #include <gtest/gtest.h>
 #include <tbb/global_control.h>
 
@@ -251,6 +252,32 @@ TEST(CoverSampler, SaveLoadGivesIdenticalDraws) {
   const ScoreTable other = cover_testing::restricted_table(8, 3, 32, 0.8);
   EXPECT_THROW(CoverSampler::load(dir.file("s.h5"), other), InputError);
   EXPECT_THROW(CoverSampler::load(dir.file("missing.h5"), table), InputError);
+}
+
+// Regression (found by fuzz_sampler_h5, input in tests/fuzz/regressions/sampler_h5/): a sampler
+// file whose table cells were rewritten through the HDF5 API (so every chunk checksum is valid)
+// loaded, and its draws then reached a state of weight 0 and threw std::logic_error. The tables
+// digest now refuses such a file with an InputError naming it.
+TEST(CoverSampler, LoadRefusesTablesChangedAfterSaving) {
+  testing_util::TempDir dir;
+  const ScoreTable table = cover_testing::restricted_table(6, 2, 33, 0.8);
+  CoverSampler::build(table, 2).save(dir.file("s.h5"));
+  EXPECT_NO_THROW(CoverSampler::load(dir.file("s.h5"), table));
+  {
+    H5::H5File file(dir.file("s.h5"), H5F_ACC_RDWR);
+    H5::DataSet ds = file.openDataSet("/tables/mantissa");
+    std::vector<std::uint64_t> m(ds.getSpace().getSimpleExtentNpoints());
+    ds.read(m.data(), H5::PredType::NATIVE_UINT64);
+    for (auto& x : m) x = 0;  // every cell of weight 0
+    ds.write(m.data(), H5::PredType::NATIVE_UINT64);
+  }
+  try {
+    CoverSampler::load(dir.file("s.h5"), table);
+    ADD_FAILURE() << "an edited sampler file was accepted";
+  } catch (const InputError& e) {
+    EXPECT_NE(std::string(e.what()).find("s.h5"), std::string::npos) << e.what();
+    EXPECT_NE(std::string(e.what()).find("digest"), std::string::npos) << e.what();
+  }
 }
 
 TEST(CoverSampler, RejectsBadInputAndChecksMemoryFirst) {

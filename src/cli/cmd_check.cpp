@@ -248,7 +248,7 @@ void setup_check(CLI::App& app) {
       ->capture_default_str();
   cmd->add_option("--ess", options->thresholds.min_ess, "bulk and tail ESS must exceed this")
       ->capture_default_str()
-      ->check(CLI::NonNegativeNumber);
+      ->check(kNonNegative);
   add_threads_option(*cmd, options->threads);
   cmd->callback([options] {
     if (!(options->thresholds.max_rhat > 1))

@@ -119,13 +119,14 @@ void setup_compare(CLI::App& app) {
       ->capture_default_str();
   cmd->add_option("--cover", o->cover,
                   "k of the class D_k whose posterior mass is estimated when neither side is "
-                  "a cover-bounded result (default: the cover bound of that side)");
+                  "a cover-bounded result (default: the cover bound of that side)")
+      ->check(kNonNegative);
   cmd->add_option("--top", o->top, "Features shown in the text output (0: all)")
       ->capture_default_str();
   cmd->add_option("--exact-draws", o->exact_draws,
                   "Exact draws for the mass of D_k from a score table of more than 6 variables")
       ->capture_default_str()
-      ->check(CLI::PositiveNumber);
+      ->check(kPositive);
   cmd->add_option("--seed", o->seed, "Seed of those draws")->capture_default_str();
   cmd->add_flag("--json", o->json,
                 "Print JSON: a, b, features, mass_in_cover_class, log_total_weight_all");

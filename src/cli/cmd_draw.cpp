@@ -10,6 +10,7 @@
 #include "covey/cover_draws.hpp"
 #include "covey/cover_sampler.hpp"
 #include "covey/error.hpp"
+#include "covey/memory.hpp"
 #include "covey/score_io.hpp"
 #include "covey/version.hpp"
 
@@ -31,6 +32,7 @@ void run_draw(const DrawOptions& o) {
   for (const std::string& path : {o.output, o.save_sampler})
     if (!path.empty()) AtomicOutput probe(path);
   const ScoreTable table = load_scores(o.scores);
+  require_draws_memory(static_cast<double>(o.count), table.num_variables(), "--count");
   CoverSampler sampler;
   if (!o.load_sampler.empty()) {
     sampler = CoverSampler::load(o.load_sampler, table);
@@ -117,9 +119,7 @@ void setup_draw(CLI::App& app) {
                   "cover bound k (0 <= k < number of variables): draw DAGs whose moral graph "
                   "has a vertex cover of at most k vertices")
       ->required();
-  cmd->add_option("--count", o->count, "number of exact draws")
-      ->required()
-      ->check(CLI::PositiveNumber);
+  cmd->add_option("--count", o->count, "number of exact draws")->required()->check(kPositive);
   cmd->add_option("--seed", o->seed, "random seed (default 1); results do not depend on --threads")
       ->check(CLI::Range(std::uint64_t{0}, std::uint64_t{9223372036854775807ULL}));
   cmd->add_option("-o,--output", o->output, "HDF5 file for the draws (see docs/file-formats.md)");

@@ -11,6 +11,7 @@
 #include "covey/draws_file.hpp"
 #include "covey/error.hpp"
 #include "covey/exact_posterior.hpp"
+#include "covey/memory.hpp"
 #include "covey/score_io.hpp"
 #include "covey/version.hpp"
 
@@ -107,6 +108,11 @@ void run_exact(const ExactArgs& a) {
   // written ones, or --cover-draws of them when none are written.
   const bool cover_from_draws = a.cover >= 0 && table.num_variables() > kCoverMassEnumerationMax;
   options.draws = a.draws > 0 || cover_from_draws;
+  if (a.draws > 0)
+    require_draws_memory(static_cast<double>(a.draws), table.num_variables(), "--draws");
+  else if (cover_from_draws)
+    require_draws_memory(static_cast<double>(a.cover_draws), table.num_variables(),
+                         "--cover-draws");
   const ExactEngine engine(table, options);
   const ExactPosterior& post = engine.posterior();
 
@@ -209,7 +215,7 @@ void setup_exact(CLI::App& app) {
   cmd->add_option("SCORES", args->scores, "score table (HDF5 or .tsv)")->required();
   cmd->add_flag("--json", args->json, "Print JSON");
   cmd->add_option("--draws", args->draws, "Exact independent draws to write (needs -o)")
-      ->check(CLI::PositiveNumber);
+      ->check(kPositive);
   cmd->add_option("--seed", args->seed, "Seed of the draws (default 1)");
   cmd->add_option("-o,--output", args->output, "HDF5 file for the draws (kind exact-draws)");
   cmd->add_option("--route", args->route,
@@ -217,19 +223,19 @@ void setup_exact(CLI::App& app) {
                   "memory)");
   cmd->add_option("--max-memory", args->max_memory_gib,
                   "Refuse when the estimated memory exceeds this many GiB (default: half the RAM)")
-      ->check(CLI::NonNegativeNumber);
+      ->check(kNonNegative);
   cmd->add_option("--max-seconds", args->max_seconds,
                   "Refuse when the estimated single-core time exceeds this (default 3600)")
-      ->check(CLI::PositiveNumber);
+      ->check(kPositive);
   cmd->add_option("--top", args->top, "Features listed per kind in the text output (default 10)")
-      ->check(CLI::NonNegativeNumber);
+      ->check(kNonNegative);
   cmd->add_option("--cover", args->cover,
                   "Also the posterior mass of D_k (moral graph vertex cover <= k) and log Z_k")
-      ->check(CLI::NonNegativeNumber);
+      ->check(kNonNegative);
   cmd->add_option("--cover-draws", args->cover_draws,
                   "Exact draws that estimate the D_k mass above 6 variables when --draws is not "
                   "given (default 10000)")
-      ->check(CLI::PositiveNumber);
+      ->check(kPositive);
   add_threads_option(*cmd, args->threads);
   cmd->callback([args] { run_exact(*args); });
 }

@@ -66,7 +66,7 @@ void setup_report(CLI::App& app) {
       ->capture_default_str();
   cmd->add_option("--ess", o->thresholds.min_ess, "bulk and tail ESS must exceed this")
       ->capture_default_str()
-      ->check(CLI::PositiveNumber);
+      ->check(kPositive);
   cmd->add_option("--title", o->title, "Title of the page");
   cmd->add_flag("--json", o->json, "Print JSON: output folder, verdict, features");
   add_threads_option(*cmd, o->threads);

@@ -104,10 +104,10 @@ void setup_score(CLI::App& app) {
   cmd->add_flag("--allow-constant", a->allow_constant, "Keep discrete columns with a single level");
   a->ess = cmd->add_option("--equivalent-sample-size", a->options.equivalent_sample_size,
                            "BDeu equivalent sample size (default 1)")
-               ->check(CLI::PositiveNumber);
+               ->check(kPositive);
   a->alpha_mu = cmd->add_option("--bge-alpha-mu", a->options.bge.alpha_mu,
                                 "BGe prior weight of the mean (default 1)")
-                    ->check(CLI::PositiveNumber);
+                    ->check(kPositive);
   a->alpha_w = cmd->add_option("--bge-alpha-w", a->options.bge.alpha_w,
                                "BGe Wishart degrees of freedom, > n+1 (default n+2)");
   a->standardize_flag = cmd->add_flag("--standardize", a->standardize,
@@ -118,7 +118,7 @@ void setup_score(CLI::App& app) {
                                     "Prior log-odds against each edge (--prior edge-penalty; "
                                     "log factor -penalty*|S|; default 1)");
   cmd->add_option("--max-indegree", a->options.max_indegree, "Most parents per node (default 3)")
-      ->check(CLI::NonNegativeNumber);
+      ->check(kNonNegative);
   cmd->add_option("--candidates", a->options.candidates,
                   "Candidate parents per node, chosen by a pairwise screen (1-64; default all for "
                   "n <= 20 variables, else 20)")

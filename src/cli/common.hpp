@@ -14,6 +14,11 @@ namespace covey::cli {
 const std::string& command_line();
 void set_command_line(int argc, char** argv);
 
+// Number checks for options, named like CLI11's own (the help shows INT:POSITIVE, ...) but with
+// a plain message: "--count: must be positive (got 0)".
+extern const CLI::Validator kPositive;
+extern const CLI::Validator kNonNegative;
+
 // Adds --threads to a subcommand; apply_threads() installs the limit (0 = all cores).
 void add_threads_option(CLI::App& cmd, int& threads);
 std::unique_ptr<tbb::global_control> apply_threads(int threads);
