@@ -35,9 +35,12 @@ build-asan: deps
 unit-test: build
 	cd build && ctest --output-on-failure -j $(JOBS)
 
+# The ten-kill crash test (about 2 minutes under ASan) runs in the Release suite only, to keep
+# `make test` well under 20 minutes on a 2-core machine.
+ASAN_SKIP := TenRandomKillsThenResumeEqualsStraightRun
 asan-test: build-asan
 	cd build-asan && ASAN_OPTIONS=detect_leaks=1 UBSAN_OPTIONS=print_stacktrace=1 \
-	  ctest --output-on-failure -j $(JOBS) -LE slow
+	  ctest --output-on-failure -j $(JOBS) -E '$(ASAN_SKIP)'
 
 # libFuzzer targets of the readers (tests/fuzz/): FUZZ_SMOKE_SECONDS each in `make test`,
 # FUZZ_SECONDS each in `make fuzz`.
