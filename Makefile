@@ -47,7 +47,7 @@ asan-test: build-asan
 FUZZ_SMOKE_SECONDS ?= 30
 FUZZ_SECONDS ?= 600
 fuzz-smoke: build-asan
-	tests/fuzz/run_fuzz.sh build-asan $(FUZZ_SMOKE_SECONDS)
+	FUZZ_SEED=1 tests/fuzz/run_fuzz.sh build-asan $(FUZZ_SMOKE_SECONDS)
 
 fuzz: build-asan
 	tests/fuzz/run_fuzz.sh build-asan $(FUZZ_SECONDS)

@@ -346,7 +346,12 @@ ChainRun ChainRun::open(const std::string& path) {
                        " is not supported (this covey reads version " +
                        std::to_string(kChainRunFormatVersion) + ")");
     run.fingerprint_ = parse_fingerprint(h5::get_attr_string(file, "table_fingerprint"), path);
-    run.num_chains_ = static_cast<int>(h5::get_attr_int(file, "num_chains"));
+    // Checked before anything is sized by it: each chain is a group of the root.
+    const long long num_chains = h5::get_attr_int(file, "num_chains");
+    if (num_chains < 1 || static_cast<unsigned long long>(num_chains) > file.getNumObjs())
+      throw InputError(path + ": corrupt num_chains attribute (" + std::to_string(num_chains) +
+                       ")");
+    run.num_chains_ = static_cast<int>(num_chains);
     run.words_ = static_cast<int>(h5::get_attr_int(file, "words_per_node"));
     run.options_ = h5::get_attr_json(file, "options");
     if (h5::has_attr(file, "global_chains")) {

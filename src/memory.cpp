@@ -6,6 +6,7 @@
 #include <charconv>
 #include <cmath>
 #include <cstdio>
+#include <cstdlib>
 #include <vector>
 
 #include "covey/error.hpp"
@@ -20,6 +21,8 @@ std::uint64_t physical_memory_bytes() {
 }
 
 std::uint64_t default_memory_limit() {
+  if (const char* given = std::getenv("COVEY_MEMORY_LIMIT"); given && *given)
+    return parse_memory_size(given, "COVEY_MEMORY_LIMIT");
   return static_cast<std::uint64_t>(0.8 * static_cast<double>(physical_memory_bytes()));
 }
 

@@ -22,6 +22,7 @@
 #include "covey/chain_support.hpp"
 #include "covey/diagnostics.hpp"
 #include "covey/error.hpp"
+#include "covey/h5.hpp"
 #include "covey/score_io.hpp"
 #include "test_util.hpp"
 
@@ -447,6 +448,35 @@ TEST(ChainCli, DiskFullDuringCheckpointKeepsThePreviousOne) {
   r = run_covey("chain " + common + " --steps 60000 -o " + dir.file("straight.h5"));
   ASSERT_EQ(r.exit_code, 0) << r.err;
   expect_same_traces(ChainRun::open(dir.file("straight.h5")), ChainRun::open(out));
+}
+
+// Fuzz regression (tests/fuzz/regressions/chain_h5/oom_num_chains_attribute): a num_chains
+// attribute edited to a huge value made the reader size its chain list by it (4 GiB) before
+// finding the groups missing; it must be refused first, as a corrupt file.
+TEST(ChainCli, HugeNumChainsAttributeIsACorruptFileNotAnAllocation) {
+  TempDir dir;
+  const std::string scores = write_table(dir, 5, 2, 35);
+  const std::string out = dir.file("run.h5");
+  ASSERT_EQ(run_covey("chain " + scores + " --chains 2 --steps 2000 --thin 10 -o " + out).exit_code,
+            0);
+  for (const long long bad : {0LL, -3LL, 3LL, 1LL << 40}) {
+    {
+      H5::H5File f(out, H5F_ACC_RDWR);
+      f.removeAttr("num_chains");
+      h5::set_attr(f, "num_chains", bad);
+    }
+    try {
+      ChainRun::open(out);
+      ADD_FAILURE() << "num_chains " << bad << " accepted";
+    } catch (const InputError& e) {
+      // 3 passes the first check and fails on the chain list; the others fail at once.
+      const std::string message = e.what();
+      EXPECT_EQ(message.rfind(out + ": ", 0), 0u) << message;
+      if (bad != 3) {
+        EXPECT_NE(message.find("num_chains"), std::string::npos) << message;
+      }
+    }
+  }
 }
 
 TEST(ChainCli, SigintStopsCleanlyAndJsonSummary) {

@@ -7,6 +7,7 @@
 
 #include <bit>
 #include <cmath>
+#include <cstdlib>
 #include <cstring>
 
 #include "covey/edge_constraints.hpp"
@@ -228,6 +229,24 @@ TEST(Scoring, MemoryLimitStopsBeforeAllocating) {
   }
   options.memory_limit = static_cast<std::uint64_t>(estimate.bytes * 2);
   EXPECT_EQ(score_data(data, options).total_parent_sets(), 30 * subsets_up_to(25, 3));
+}
+
+// A batch job's share of a node, given once in the environment, bounds every default check.
+TEST(Memory, EnvironmentVariableSetsTheDefaultLimit) {
+  const std::uint64_t physical_default = default_memory_limit();
+  ::setenv("COVEY_MEMORY_LIMIT", "3M", 1);
+  EXPECT_EQ(default_memory_limit(), std::uint64_t{3} << 20);
+  EXPECT_THROW(require_memory(4.0 * (1 << 20), 0, "table", "a smaller --candidates"),
+               ResourceError);
+  ::setenv("COVEY_MEMORY_LIMIT", "plenty", 1);
+  try {
+    default_memory_limit();
+    ADD_FAILURE() << "a malformed COVEY_MEMORY_LIMIT was accepted";
+  } catch (const InputError& e) {
+    EXPECT_NE(std::string(e.what()).find("COVEY_MEMORY_LIMIT"), std::string::npos) << e.what();
+  }
+  ::unsetenv("COVEY_MEMORY_LIMIT");
+  EXPECT_EQ(default_memory_limit(), physical_default);
 }
 
 TEST(Memory, SizesParseWithBinarySuffixes) {

@@ -7,7 +7,9 @@
 namespace covey {
 
 std::uint64_t physical_memory_bytes();
-// 80% of physical memory: the default of every --memory-limit.
+// 80% of physical memory, or the size in the environment variable COVEY_MEMORY_LIMIT (e.g. a
+// batch job's share of a node, "12G"): the default of every --memory-limit and of the checks
+// before large reads. A malformed COVEY_MEMORY_LIMIT is an InputError naming it.
 std::uint64_t default_memory_limit();
 // Parses a size: a number with an optional binary suffix K, M, G or T (optionally followed by B or
 // iB; case-insensitive; 1K = 1024). Throws InputError naming `option` when malformed.
