@@ -146,16 +146,12 @@ ReportData report_data_from_runs(const std::vector<ChainRun>& runs, const RunFea
                                  const RunDiagnostics& d, const Thresholds& thresholds) {
   ReportData data;
   data.variables = runs.front().variables();
-  for (const ChainRun& run : runs) {
-    data.source += (data.source.empty() ? "" : ", ") + run.path();
-    for (int c = 0; c < run.num_chains(); ++c) {
-      ChainTrace trace;
-      trace.steps = run.draw_steps(c);
-      trace.log_scores = run.log_scores(c);
-      trace.steps.resize(std::size_t(draws.iterations()));
-      trace.log_scores.resize(std::size_t(draws.iterations()));
-      data.traces.push_back(std::move(trace));
-    }
+  for (const ChainRun& run : runs) data.source += (data.source.empty() ? "" : ", ") + run.path();
+  // The traces come from the draws already in memory (cut to a common length).
+  for (int c = 0; c < draws.chains(); ++c) {
+    const auto steps = draws.draw_steps(c);
+    const auto scores = draws.log_scores(c);
+    data.traces.push_back({{steps.begin(), steps.end()}, {scores.begin(), scores.end()}});
   }
   for (std::size_t i = 0; i < d.features.size(); ++i) {
     ReportFeature f;

@@ -37,6 +37,7 @@ RunFeatures::RunFeatures(const std::vector<ChainRun>& runs, bool with_ancestors)
   }
   rows_.reserve(total_chains * iterations_ * stride_);
   log_scores_.reserve(total_chains * iterations_);
+  steps_.reserve(total_chains * iterations_);
   for (const ChainRun& run : runs) append(run);
   if (with_ancestors) compute_ancestors();
 }
@@ -52,6 +53,7 @@ void RunFeatures::append(const ChainRun& run) {
     // a function of the exact draw and of later randomness only.
     const auto steps = run.draw_steps(c);
     const auto kept_end = steps.begin() + std::ptrdiff_t(iterations_);
+    steps_.insert(steps_.end(), steps.begin(), kept_end);
     std::vector<std::size_t> starts;
     for (const std::int64_t r : run.regenerations(c)) {
       const auto at = std::lower_bound(steps.begin(), kept_end, r);

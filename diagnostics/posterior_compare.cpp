@@ -150,10 +150,10 @@ std::unique_ptr<Impl> load_exact_table(const std::string& path, const CompareOpt
     for (int v = 0; v < p->n; ++v) {
       if (u == v) continue;
       const std::size_t i = std::size_t(u) * p->n + v;
-      // Probabilities computed in floating point may leave [0, 1] by rounding.
-      p->edge[i] = {std::clamp(post.edge(u, v), 0.0, 1.0), 0.0};
-      p->ancestor[i] = {std::clamp(post.ancestor(u, v), 0.0, 1.0), 0.0};
-      if (u < v) p->adjacency[i] = {std::clamp(post.adjacency(u, v), 0.0, 1.0), 0.0};
+      // The engine keeps every probability within [0, 1] (exact_posterior.hpp).
+      p->edge[i] = {post.edge(u, v), 0.0};
+      p->ancestor[i] = {post.ancestor(u, v), 0.0};
+      if (u < v) p->adjacency[i] = {post.adjacency(u, v), 0.0};
     }
   p->has_ancestors = true;
   p->log_weight = PosteriorEstimate::LogWeight{post.log_total_weight, post.log_total_weight,
@@ -417,25 +417,6 @@ PosteriorComparison compare_posteriors(const PosteriorEstimate& a, const Posteri
     }
   }
   return out;
-}
-
-Comparison edge_comparison(const PosteriorEstimate& a, const PosteriorEstimate& b) {
-  if (a.variables() != b.variables() || a.table_fingerprint() != b.table_fingerprint())
-    throw InputError("compare: the two results were made from different score tables");
-  Comparison c;
-  c.label_a = a.label();
-  c.label_b = b.label();
-  const int n = static_cast<int>(a.variables().size());
-  for (int u = 0; u < n; ++u)
-    for (int v = 0; v < n; ++v) {
-      if (u == v) continue;
-      const Estimate ea = a.feature({FeatureKind::kEdge, u, v});
-      const Estimate eb = b.feature({FeatureKind::kEdge, u, v});
-      // The report reads NaN as "exact or not known".
-      const auto se = [](const Estimate& e) { return e.se > 0 ? e.se : std::nan(""); };
-      c.pairs.push_back({u, v, ea.value, eb.value, se(ea), se(eb)});
-    }
-  return c;
 }
 
 }  // namespace covey

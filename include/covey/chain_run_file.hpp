@@ -130,6 +130,13 @@ class RunFeatures {
   // 1 when a directed path from -> ... -> to exists (needs with_ancestors, else Error).
   void ancestor(int from, int to, std::span<double> out) const;
   void log_score(std::span<double> out) const;
+  // One chain's kept draws: their step numbers and log scores (iterations() of each).
+  std::span<const std::int64_t> draw_steps(int chain) const {
+    return {steps_.data() + std::size_t(chain) * iterations_, iterations_};
+  }
+  std::span<const double> log_scores(int chain) const {
+    return {log_scores_.data() + std::size_t(chain) * iterations_, iterations_};
+  }
   // 1 when the draw lies in the cover-bounded class D_k (n <= 64).
   void in_cover_class(int k, std::span<double> out) const;
   // Per chain, the draw positions at which a tour between teleport regenerations starts (the
@@ -152,6 +159,7 @@ class RunFeatures {
   std::vector<std::uint64_t> rows_;       // all chains' draws, chain-major
   std::vector<std::uint64_t> ancestors_;  // per draw and node: its ancestors (with_ancestors)
   std::vector<double> log_scores_;
+  std::vector<std::int64_t> steps_;  // step number of every kept draw, chain-major
   std::vector<std::vector<std::size_t>> tour_starts_;
   std::size_t regenerations_ = 0;
 };

@@ -12,7 +12,6 @@
 #include <vector>
 
 #include "covey/features.hpp"
-#include "covey/report.hpp"
 
 namespace covey {
 
@@ -98,8 +97,5 @@ struct PosteriorComparison {
 // Throws InputError when the two were made from different tables.
 PosteriorComparison compare_posteriors(const PosteriorEstimate& a, const PosteriorEstimate& b,
                                        const CompareOptions& options);
-
-// The report's edge-by-edge comparison (report.hpp) of two posteriors.
-Comparison edge_comparison(const PosteriorEstimate& a, const PosteriorEstimate& b);
 
 }  // namespace covey
