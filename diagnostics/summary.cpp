@@ -196,7 +196,10 @@ std::vector<std::size_t> worst_first(std::span<const FeatureSummary> summaries,
     if (status[a] != status[b]) return status[a] < status[b];  // undefined, fail, pass
     if (status[a] == FeatureStatus::kUndefined) return false;  // keep input order
     const FeatureSummary &x = summaries[a], &y = summaries[b];
-    if (x.rhat != y.rhat) return x.rhat > y.rhat;
+    // R-hat as shown (4 decimals) first, so that features whose R-hats print alike are ordered
+    // by their smallest ESS rather than by invisible digits.
+    const double rx = std::round(x.rhat * 1e4), ry = std::round(y.rhat * 1e4);
+    if (rx != ry) return rx > ry;
     return smallest_ess(x) < smallest_ess(y);
   });
   return order;

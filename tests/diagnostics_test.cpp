@@ -396,19 +396,21 @@ TEST(Diagnostics, ParallelSummariesDoNotDependOnThreadCount) {
 TEST(Diagnostics, WorstFirstAndVerdict) {
   const Thresholds t;  // R-hat < 1.01, ESS > 400
   const std::vector<FeatureSummary> s = {
-      {0.5, 1.001, 5000, 4000, 5000, 0.01},  // 0 pass
-      {0.5, 1.05, 3000, 3000, 3000, 0.01},   // 1 fail by R-hat
-      {0.5, kNaN, kNaN, kNaN, kNaN, kNaN},   // 2 undefined (constant)
-      {0.5, 1.002, 300, kNaN, 300, 0.01},    // 3 fail by bulk ESS
-      {0.5, 1.003, 900, kNaN, 900, 0.01},    // 4 pass: tail undefined is not checked
-      {0.5, kInf, 10, 10, 10, 0.01},         // 5 fail: stuck chains
-      {0.5, 1.001, 5000, 350, 5000, 0.01},   // 6 fail by tail ESS
+      {0.5, 1.001, 5000, 4000, 5000, 0.01},    // 0 pass
+      {0.5, 1.05, 3000, 3000, 3000, 0.01},     // 1 fail by R-hat
+      {0.5, kNaN, kNaN, kNaN, kNaN, kNaN},     // 2 undefined (constant)
+      {0.5, 1.002, 300, kNaN, 300, 0.01},      // 3 fail by bulk ESS
+      {0.5, 1.003, 900, kNaN, 900, 0.01},      // 4 pass: tail undefined is not checked
+      {0.5, kInf, 10, 10, 10, 0.01},           // 5 fail: stuck chains
+      {0.5, 1.001, 5000, 350, 5000, 0.01},     // 6 fail by tail ESS
+      {0.5, 1.00004, 5000, 4500, 5000, 0.01},  // 7 pass; prints as 1.0000, like 8
+      {0.5, 1.00001, 800, 800, 800, 0.01},     // 8 pass; lower ESS, so shown before 7
   };
   EXPECT_EQ(assess(s[4], t), FeatureStatus::kPass);
   EXPECT_EQ(assess(s[6], t), FeatureStatus::kFail);
-  EXPECT_EQ(worst_first(s, t), (std::vector<std::size_t>{2, 5, 1, 3, 6, 4, 0}));
+  EXPECT_EQ(worst_first(s, t), (std::vector<std::size_t>{2, 5, 1, 3, 6, 4, 0, 8, 7}));
   const Verdict v = judge(s, t);
-  EXPECT_EQ(v.passing, 2u);
+  EXPECT_EQ(v.passing, 4u);
   EXPECT_EQ(v.failing, 4u);
   EXPECT_EQ(v.undefined, 1u);
   EXPECT_FALSE(v.converged());

@@ -2,9 +2,14 @@
 // from exact draws with the Wilson interval; the interval itself against R's prop.test.
 #include <gtest/gtest.h>
 
+#include <bit>
+#include <cmath>
 #include <fstream>
 #include <sstream>
 
+#include "covey/cover_class.hpp"
+#include "covey/cover_draws.hpp"
+#include "covey/cover_sampler.hpp"
 #include "covey/error.hpp"
 #include "covey/exact_posterior.hpp"
 #include "covey/proportion.hpp"
@@ -75,6 +80,57 @@ TEST(ClassMass, EnumerationAndDrawsAgreeWithDirectSums) {
   EXPECT_GE(est.hi, direct);
   EXPECT_LT(est.hi - est.lo, 0.02);
   EXPECT_THROW(class_mass_from_draws({}, sparse), InputError);
+}
+
+TEST(ClassMass, CoverMassTimesTotalAgreesWithTheCoverEngineAtEightVariables) {
+  // Two independent routes to log Z_2 at n = 8 (beyond enumeration of every DAG): the exact
+  // all-DAG engine's log Z plus the log of D_2's mass estimated from its exact draws (Wilson
+  // interval), and the cover-bounded engine's U * accepted / trials (DESIGN section 5). A factor
+  // lost on either route (say the 2^k of the split multiplicity) would put them far apart.
+  // Random scores with an extra 1.5 nats per parent, so that sparse DAGs (most of them in D_2)
+  // carry a real share of the posterior.
+  const ScoreTable base = random_full_table(8, 3, 1200);
+  std::vector<NodeScores> nodes(8);
+  for (int v = 0; v < 8; ++v) {
+    const auto masks = base.parent_sets(v);
+    const auto scores = base.log_scores(v);
+    nodes[v].candidates.assign(base.candidates(v).begin(), base.candidates(v).end());
+    nodes[v].masks.assign(masks.begin(), masks.end());
+    for (std::size_t i = 0; i < masks.size(); ++i)
+      nodes[v].log_scores.push_back(scores[i] - 1.5 * std::popcount(masks[i]));
+  }
+  const ScoreTable t(base.variables(), std::move(nodes));
+  ExactOptions options;
+  options.draws = true;
+  const ExactEngine engine(t, options);
+  const std::vector<Dag> draws = engine.draw_many(40000, 5);
+  const ClassMass mass = cover_class_mass(t, 2, draws);
+  ASSERT_EQ(mass.method, "exact-draws");
+  // The class holds a real share of the posterior, so the comparison is not vacuous.
+  ASSERT_GT(mass.estimate, 0.05);
+  ASSERT_LT(mass.estimate, 0.95);
+  std::size_t inside = 0;
+  for (const Dag& d : draws) inside += in_cover_class(d, 2) ? 1 : 0;
+  EXPECT_EQ(mass.inside, inside);
+
+  const double log_z = engine.log_total_weight();
+  const double exact_lo = log_z + std::log(mass.lo), exact_hi = log_z + std::log(mass.hi);
+  const double exact_estimate = log_z + std::log(mass.estimate);
+
+  const CoverSampler sampler = CoverSampler::build(t, 2);
+  const CoverDrawBatch batch = draw_cover_batch(sampler, 6, 40000, false);
+  const LogTotalWeightEstimate cover =
+      estimate_log_total_weight(sampler.log_upper_bound(), batch.dags.size(), batch.trials);
+
+  // The exact side's interval is the wider one (D_2 holds a small share, so few of the exact draws
+  // land in it): it must cover the cover engine's estimate, the intervals must overlap, and the
+  // difference must stay within 4 combined standard errors (each SE read off its 95% interval).
+  EXPECT_LE(exact_lo, cover.log_estimate);
+  EXPECT_GE(exact_hi, cover.log_estimate);
+  EXPECT_LE(std::max(exact_lo, cover.log_lo), std::min(exact_hi, cover.log_hi));
+  const double se_exact = (exact_hi - exact_lo) / (2 * 1.959964);
+  const double se_cover = (cover.log_hi - cover.log_lo) / (2 * 1.959964);
+  EXPECT_LT(std::abs(cover.log_estimate - exact_estimate), 4 * std::hypot(se_exact, se_cover));
 }
 
 }  // namespace

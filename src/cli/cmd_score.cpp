@@ -86,7 +86,7 @@ void run(ScoreArgs& a) {
             << table.num_variables() << " variables, " << table.total_parent_sets()
             << " parent sets from " << data.num_rows() << " rows";
   if (data.rows_dropped()) std::cout << " (" << data.rows_dropped() << " incomplete rows dropped)";
-  std::cout << ", " << seconds << " s\n";
+  std::cout << ", " << format_number("%.2f", seconds) << " s\n";
 }
 
 void setup_score(CLI::App& app) {

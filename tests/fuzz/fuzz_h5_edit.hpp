@@ -271,12 +271,7 @@ template <class Read>
 int run_h5_reader(const char* target, const std::uint8_t* data, std::size_t size, Read&& read) {
   const std::string& path = input_path(".h5");
   if (!make_edited_file(target, path, data, size)) return 0;
-  try {
-    read(path);
-  } catch (const InputError&) {
-  } catch (const ResourceError&) {
-  }
-  return 0;
+  return read_expecting_clean_errors(path, read);
 }
 
 }  // namespace covey::fuzz

@@ -36,17 +36,24 @@ inline void write_input(const std::string& path, const std::uint8_t* data, std::
   if (std::fclose(f) != 0) std::abort();
 }
 
-// Writes the input to the per-process file and runs read(path); the expected errors are caught.
+// Runs read(path), catching the errors a bad file is expected to raise (anything else, or a
+// crash, is a finding). Returns 0, libFuzzer's "keep going".
 template <class Read>
-int run_reader(const std::uint8_t* data, std::size_t size, const char* extension, Read&& read) {
-  const std::string& path = input_path(extension);
-  write_input(path, data, size);
+int read_expecting_clean_errors(const std::string& path, Read&& read) {
   try {
     read(path);
   } catch (const InputError&) {
   } catch (const ResourceError&) {
   }
   return 0;
+}
+
+// Writes the input to the per-process file and reads it back with `read`.
+template <class Read>
+int run_reader(const std::uint8_t* data, std::size_t size, const char* extension, Read&& read) {
+  const std::string& path = input_path(extension);
+  write_input(path, data, size);
+  return read_expecting_clean_errors(path, read);
 }
 
 }  // namespace covey::fuzz
