@@ -403,14 +403,12 @@ void StructureChain::propose_add(Rng& rng, int u, int v, ParentMask bit) {
   // Hastings factor q(G'->G)/q(G->G') = (1/(2|P|)) / (1/|P|) = 1/2.
   const double log_ratio = s - score_[v] - (dropped(Move::kAdd) ? 0.0 : kLn2);
   if (!accept(rng, log_ratio)) return;
-  if (config_.restriction) {
+  if (track_dag_) {  // always on under a restriction (checked in the constructor)
     dag_.add_edge(u, v);
-    if (!config_.restriction->contains(dag_)) {
+    if (!in_restriction(dag_)) {
       dag_.remove_edge(u, v);
       return;
     }
-  } else if (track_dag_) {
-    dag_.add_edge(u, v);
   }
   ++counts_.accepted[int(Move::kAdd)];
   local_[v] = next;
@@ -435,14 +433,12 @@ void StructureChain::propose_delete(Rng& rng, int u, int v, ParentMask bit) {
   // Hastings factor (1/|P|) / (1/(2|P|)) = 2.
   const double log_ratio = s - score_[v] + (dropped(Move::kDelete) ? 0.0 : kLn2);
   if (!accept(rng, log_ratio)) return;
-  if (config_.restriction) {
+  if (track_dag_) {
     dag_.remove_edge(u, v);
-    if (!config_.restriction->contains(dag_)) {
+    if (!in_restriction(dag_)) {
       dag_.add_edge(u, v);
       return;
     }
-  } else if (track_dag_) {
-    dag_.remove_edge(u, v);
   }
   ++counts_.accepted[int(Move::kDelete)];
   local_[v] = next;

@@ -31,6 +31,33 @@ std::string to_hex(Colour colour) {
   return text;
 }
 
+std::string markup_escape(std::string_view text) {
+  std::string out;
+  out.reserve(text.size());
+  for (char ch : text) {
+    switch (ch) {
+      case '&':
+        out += "&amp;";
+        break;
+      case '<':
+        out += "&lt;";
+        break;
+      case '>':
+        out += "&gt;";
+        break;
+      case '"':
+        out += "&quot;";
+        break;
+      case '\'':
+        out += "&#39;";
+        break;
+      default:
+        out += ch;
+    }
+  }
+  return out;
+}
+
 Colour sequential_colour(double value) {
   // ColorBrewer "Blues", 9 classes, from light to dark; interpolated linearly between stops.
   static constexpr std::uint32_t kStops[] = {0xf7fbff, 0xdeebf7, 0xc6dbef, 0x9ecae1, 0x6baed6,
@@ -335,29 +362,6 @@ cairo_status_t append_bytes(void* closure, const unsigned char* data, unsigned i
   return CAIRO_STATUS_SUCCESS;
 }
 
-std::string xml_escape(std::string_view s) {
-  std::string out;
-  for (char ch : s) {
-    switch (ch) {
-      case '&':
-        out += "&amp;";
-        break;
-      case '<':
-        out += "&lt;";
-        break;
-      case '>':
-        out += "&gt;";
-        break;
-      case '"':
-        out += "&quot;";
-        break;
-      default:
-        out += ch;
-    }
-  }
-  return out;
-}
-
 // Puts <title> and <desc> (every string drawn, once each) right after the opening <svg> tag.
 void add_svg_text(std::string& svg, const std::string& title, std::vector<std::string> texts) {
   const auto open = svg.find("<svg");
@@ -368,8 +372,8 @@ void add_svg_text(std::string& svg, const std::string& title, std::vector<std::s
     if (std::find(unique.begin(), unique.end(), t) == unique.end()) unique.push_back(std::move(t));
   std::string desc;
   for (const auto& t : unique) desc += (desc.empty() ? "" : "; ") + t;
-  svg.insert(end + 1,
-             "\n<title>" + xml_escape(title) + "</title>\n<desc>" + xml_escape(desc) + "</desc>");
+  svg.insert(end + 1, "\n<title>" + markup_escape(title) + "</title>\n<desc>" +
+                          markup_escape(desc) + "</desc>");
 }
 
 struct SurfaceDeleter {

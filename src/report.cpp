@@ -19,7 +19,6 @@ const char* const kCausalCaution =
     "Learned structure shows statistical dependence, not proven cause. Decisions affecting "
     "safety or health rest with qualified people and local rules.";
 
-
 std::string feature_label(const ReportFeature& f, const std::vector<std::string>& names) {
   if (f.kind == FeatureKind::kScore) return "log score";
   auto name = [&](int i) {
@@ -144,32 +143,6 @@ void require_replaceable(const std::string& dir) {
 }
 
 // --- text formatting ---------------------------------------------------------------------------
-
-std::string html_escape(const std::string& s) {
-  std::string out;
-  for (char c : s) {
-    switch (c) {
-      case '&':
-        out += "&amp;";
-        break;
-      case '<':
-        out += "&lt;";
-        break;
-      case '>':
-        out += "&gt;";
-        break;
-      case '"':
-        out += "&quot;";
-        break;
-      case '\'':
-        out += "&#39;";
-        break;
-      default:
-        out += c;
-    }
-  }
-  return out;
-}
 
 std::string fixed(double v, int decimals) {
   char text[64];
@@ -422,7 +395,7 @@ Figure consensus_figure(const ReportData& d, const std::string& dir, const Conse
   if (static_cast<int>(isolated.size()) > kMaxIsolatedDrawn) {
     f.caption_html += " Not drawn, as they have no consensus edge: ";
     for (std::size_t i = 0; i < isolated.size(); ++i)
-      f.caption_html += (i ? ", " : "") + html_escape(d.variables[isolated[i]]);
+      f.caption_html += (i ? ", " : "") + plot::markup_escape(d.variables[isolated[i]]);
     f.caption_html += ".";
   }
   if (g.has_cycle)
@@ -470,13 +443,13 @@ Figure comparison_figure(const ReportData& d, const std::string& dir) {
   f.caption_html =
       "<b>What to look for:</b> dots on the dashed diagonal agree; the named dots "
       "differ most. Each dot is one edge: x is its probability under <i>" +
-      html_escape(cmp.label_a) + "</i>, y under <i>" + html_escape(cmp.label_b) + "</i>" +
-      (any_error ? ", with bars of \u00b12 standard errors." : ".");
+      plot::markup_escape(cmp.label_a) + "</i>, y under <i>" + plot::markup_escape(cmp.label_b) +
+      "</i>" + (any_error ? ", with bars of \u00b12 standard errors." : ".");
   if (largest)
-    f.caption_html +=
-        " Largest difference: <b>" +
-        html_escape(feature_label({FeatureKind::kEdge, largest->from, largest->to}, d.variables)) +
-        "</b> (" + fixed(largest->a, 3) + " against " + fixed(largest->b, 3) + ").";
+    f.caption_html += " Largest difference: <b>" +
+                      plot::markup_escape(feature_label(
+                          {FeatureKind::kEdge, largest->from, largest->to}, d.variables)) +
+                      "</b> (" + fixed(largest->a, 3) + " against " + fixed(largest->b, 3) + ").";
   if (any_error)
     f.caption_html += " " + std::to_string(differ) + " of " + std::to_string(cmp.pairs.size()) +
                       " edges differ by more than 2 combined standard errors.";
@@ -617,7 +590,8 @@ std::string verdict_html(const ReportData& d, const ConvergenceVerdict& v) {
            (v.undefined == 1 ? "feature" : "features") + " (R-hat undefined)</li>";
   out += "</ul>\n";
   if (!d.run.verdict.empty())
-    out += "<p class=\"rule\">Stopping rule of the run: " + html_escape(d.run.verdict) + "</p>\n";
+    out += "<p class=\"rule\">Stopping rule of the run: " + plot::markup_escape(d.run.verdict) +
+           "</p>\n";
   return out + "</div>\n</section>\n";
 }
 
@@ -625,18 +599,18 @@ std::string caution_html(const ReportData& d) {
   std::string out =
       "<aside class=\"caution\" id=\"caution\" role=\"note\">\n<h2>\u26a0 Read with "
       "care</h2>\n<p>" +
-      html_escape(kCausalCaution) + "</p>\n";
+      plot::markup_escape(kCausalCaution) + "</p>\n";
   if (!d.cautions.empty()) {
     out += "<ul>\n";
-    for (const auto& c : d.cautions) out += "<li>" + html_escape(c) + "</li>\n";
+    for (const auto& c : d.cautions) out += "<li>" + plot::markup_escape(c) + "</li>\n";
     out += "</ul>\n";
   }
   return out + "</aside>\n";
 }
 
 std::string fact(const std::string& label, const std::string& value, bool text = false) {
-  return "<div><dt>" + html_escape(label) + "</dt><dd" + (text ? " class=\"text\"" : "") + ">" +
-         html_escape(value) + "</dd></div>";
+  return "<div><dt>" + plot::markup_escape(label) + "</dt><dd" + (text ? " class=\"text\"" : "") +
+         ">" + plot::markup_escape(value) + "</dd></div>";
 }
 
 std::string run_html(const ReportData& d) {
@@ -657,8 +631,9 @@ std::string run_html(const ReportData& d) {
     for (const auto& m : r.acceptance) {
       const double rate =
           m.proposed > 0 ? static_cast<double>(m.accepted) / static_cast<double>(m.proposed) : 0;
-      out += "<tr><td>" + html_escape(m.move) + "</td><td>" + grouped(m.proposed) + "</td><td>" +
-             grouped(m.accepted) + "</td><td>" + (m.proposed > 0 ? percent(rate) : "\u2014") +
+      out += "<tr><td>" + plot::markup_escape(m.move) + "</td><td>" + grouped(m.proposed) +
+             "</td><td>" + grouped(m.accepted) + "</td><td>" +
+             (m.proposed > 0 ? percent(rate) : "\u2014") +
              "<span class=\"bar\"><span style=\"width:" + fixed(100 * rate, 1) +
              "%\"></span></span></td></tr>\n";
     }
@@ -671,10 +646,9 @@ std::string worst_features_html(const ReportData& d, const ConvergenceVerdict& v
   std::vector<const ReportFeature*> order;
   for (const auto& f : d.features)
     if (badness(f, d) > -INFINITY) order.push_back(&f);  // some diagnostic defined
-  std::stable_sort(order.begin(), order.end(),
-                   [&](const ReportFeature* a, const ReportFeature* b) {
-                     return badness(*a, d) > badness(*b, d);
-                   });
+  std::stable_sort(order.begin(), order.end(), [&](const ReportFeature* a, const ReportFeature* b) {
+    return badness(*a, d) > badness(*b, d);
+  });
   constexpr std::size_t kShown = 12;
   const std::size_t shown = std::min(order.size(), kShown);
   std::string out = "<section class=\"card\" id=\"worst\">\n<h2>";
@@ -692,8 +666,8 @@ std::string worst_features_html(const ReportData& d, const ConvergenceVerdict& v
   for (std::size_t i = 0; i < shown; ++i) {
     const ReportFeature& f = *order[i];
     const bool score = f.kind == FeatureKind::kScore;
-    out += "<tr><td>" + html_escape(feature_label(f, d.variables)) + " <span class=\"kind\">" +
-           to_string(f.kind) + "</span></td>";
+    out += "<tr><td>" + plot::markup_escape(feature_label(f, d.variables)) +
+           " <span class=\"kind\">" + to_string(f.kind) + "</span></td>";
     out +=
         "<td>" +
         (std::isnan(f.probability) ? std::string("\u2014") : fixed(f.probability, score ? 1 : 3)) +
@@ -718,18 +692,18 @@ std::string worst_features_html(const ReportData& d, const ConvergenceVerdict& v
 }
 
 std::string figure_html(const Figure& f) {
-  std::string out = "<section class=\"card\" id=\"" + f.id + "\">\n<h2>" + html_escape(f.heading) +
-                    "</h2>\n<figure>\n";
+  std::string out = "<section class=\"card\" id=\"" + f.id + "\">\n<h2>" +
+                    plot::markup_escape(f.heading) + "</h2>\n<figure>\n";
   // A figure wider than the page (a large consensus graph) scrolls rather than shrinking its
   // text out of legibility.
   out += f.width > kPageFigureWidth ? "<div class=\"scroll wide\">" : "<div class=\"scroll\">";
   out += "<a href=\"" + f.links.front().second + "\"><img src=\"" + f.png + "\" width=\"" +
          std::to_string(f.width) + "\" height=\"" + std::to_string(f.height) + "\" alt=\"" +
-         html_escape(f.alt) + "\"></a></div>\n";
+         plot::markup_escape(f.alt) + "\"></a></div>\n";
   out += "<figcaption>" + f.caption_html + "<span class=\"files\">Files: ";
   for (std::size_t i = 0; i < f.links.size(); ++i)
     out += (i ? " · " : "") + std::string("<a href=\"") + f.links[i].second + "\">" +
-           html_escape(f.links[i].first) + "</a>";
+           plot::markup_escape(f.links[i].first) + "</a>";
   out += " · <a href=\"" + f.png + "\">PNG</a></span></figcaption>\n</figure>\n</section>\n";
   return out;
 }
@@ -739,14 +713,14 @@ std::string page_html(const ReportData& d, const ConvergenceVerdict& v,
   std::string out = "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n";
   out += std::string(kGeneratorMeta) + " " + kVersion + "\">\n";
   out += "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n";
-  out += "<title>" + html_escape(d.title) + " \u2014 covey report</title>\n";
+  out += "<title>" + plot::markup_escape(d.title) + " \u2014 covey report</title>\n";
   out += "<style>" + std::string(kStyle) + "</style>\n</head>\n<body>\n<main>\n";
-  out += "<header>\n<h1>" + html_escape(d.title) + "</h1>\n<p class=\"source\">";
-  if (!d.source.empty()) out += "From <code>" + html_escape(d.source) + "</code> · ";
+  out += "<header>\n<h1>" + plot::markup_escape(d.title) + "</h1>\n<p class=\"source\">";
+  if (!d.source.empty()) out += "From <code>" + plot::markup_escape(d.source) + "</code> · ";
   out += "covey " + std::string(kVersion) + "</p>\n<nav aria-label=\"sections\">";
   out += "<a href=\"#verdict\">Verdict</a><a href=\"#run\">Run</a>";
   for (const auto& f : figures) {
-    out += "<a href=\"#" + f.id + "\">" + html_escape(f.heading) + "</a>";
+    out += "<a href=\"#" + f.id + "\">" + plot::markup_escape(f.heading) + "</a>";
     if (f.id == "ess") out += "<a href=\"#worst\">Worst features</a>";
   }
   out += "</nav>\n</header>\n";

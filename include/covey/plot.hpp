@@ -11,6 +11,7 @@
 // holding every string drawn: the file stays searchable and screen readers can name it.
 #include <limits>
 #include <string>
+#include <string_view>
 #include <vector>
 
 namespace covey::plot {
@@ -38,6 +39,8 @@ inline constexpr Colour kReddishPurple{0xCC / 255.0, 0x79 / 255.0, 0xA7 / 255.0}
 Colour series_colour(int index);
 // "#rrggbb", so HTML can share the plots' palette.
 std::string to_hex(Colour colour);
+// Text made safe inside SVG or HTML markup and attribute values: & < > " ' escaped.
+std::string markup_escape(std::string_view text);
 // The heat-map colour of a value in [0, 1] (light for 0, dark blue for 1).
 Colour sequential_colour(double value);
 
