@@ -59,8 +59,8 @@ PosteriorSource detect_posterior_source(const std::string& path) {
     if (format == kChainRunFormat || format == kChainManifestFormat)
       return PosteriorSource::kChainRun;
     if (format == "covey-scores") return PosteriorSource::kExactTable;
-    if (format == "covey-draws") return PosteriorSource::kExactDraws;
-    if (kind == "cover-draws") return PosteriorSource::kCoverDraws;
+    if (format == "covey-draws")  // one layout for all draws; the kind names the engine
+      return kind == "cover-draws" ? PosteriorSource::kCoverDraws : PosteriorSource::kExactDraws;
     throw InputError(path + ": an HDF5 file, but not a covey chain run, draws or score table");
   });
 }

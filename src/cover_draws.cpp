@@ -6,10 +6,11 @@
 #include <atomic>
 #include <cmath>
 #include <cstdlib>
+#include <limits>
 
-#include "covey/atomic_file.hpp"
+#include "covey/cover_class.hpp"
+#include "covey/draws_file.hpp"
 #include "covey/error.hpp"
-#include "covey/h5.hpp"
 #include "covey/memory.hpp"
 #include "covey/progress.hpp"
 #include "covey/proportion.hpp"
@@ -18,7 +19,6 @@
 namespace covey {
 namespace {
 constexpr const char* kDrawsKind = "cover-draws";
-constexpr long long kDrawsFormatVersion = 1;
 }  // namespace
 
 CoverDrawBatch draw_cover_batch(const CoverSampler& sampler, std::uint64_t seed, std::size_t count,
@@ -80,86 +80,75 @@ std::vector<EdgeFrequency> edge_frequencies(const std::vector<Dag>& dags, int n)
   return out;
 }
 
+// Cover draws are the common draws layout (draws_file.hpp) of kind "cover-draws", with the
+// sampler's figures as attributes.
 void write_cover_draws(const std::string& path, const CoverDrawsFile& d) {
-  const std::size_t n = d.variables.size();
-  if (d.log_weights.size() != d.dags.size()) throw Error("draws: one log weight per draw needed");
-  AtomicOutput out(path);
-  h5::guard(path, [&] {
-    H5::H5File file = h5::create(out.temp_path());
-    h5::set_attr(file, "kind", std::string(kDrawsKind));
-    h5::set_attr(file, "format_version", kDrawsFormatVersion);
-    h5::set_attr(file, "cover_bound", static_cast<long long>(d.cover_bound));
-    h5::set_attr(file, "seed", static_cast<long long>(d.seed));
-    h5::set_attr(file, "count", static_cast<long long>(d.dags.size()));
-    h5::set_attr(file, "trials", static_cast<long long>(d.trials));
-    h5::set_attr(file, "log_upper_bound", d.log_upper_bound);
-    h5::set_attr(file, "log_total_weight", d.total_weight.log_estimate);
-    h5::set_attr(file, "log_total_weight_ci95_lo", d.total_weight.log_lo);
-    h5::set_attr(file, "log_total_weight_ci95_hi", d.total_weight.log_hi);
-    h5::set_attr(file, "table_fingerprint", format_fingerprint(d.table_fingerprint));
-    h5::set_attr(file, "command_line", d.command_line);
-    h5::set_attr(file, "covey_version",
-                 d.covey_version.empty() ? std::string(kVersion) : d.covey_version);
-    H5::Group vars = file.createGroup("variables");
-    h5::write_strings(vars, "names", d.variables);
-    H5::Group draws = file.createGroup("draws");
-    h5::create_rows(draws, "parents", n, std::clamp<std::size_t>(d.dags.size(), 1, 4096));
-    std::vector<std::uint64_t> rows;
-    rows.reserve(d.dags.size() * n);
-    for (const Dag& g : d.dags) {
-      if (g.parents.size() != n) throw Error("draws: a DAG has the wrong number of variables");
-      rows.insert(rows.end(), g.parents.begin(), g.parents.end());
-    }
-    h5::append_rows(draws, "parents", rows, n);
-    h5::write_vector(draws, "log_weight", d.log_weights);
-  });
-  out.commit();
+  const nlohmann::json attributes = {
+      {"kind", kDrawsKind},
+      {"cover_bound", d.cover_bound},
+      {"seed", static_cast<long long>(d.seed)},
+      {"draws_per_stream", static_cast<long long>(kCoverDrawBlock)},
+      {"trials", static_cast<long long>(d.trials)},
+      {"log_upper_bound", d.log_upper_bound},
+      {"log_total_weight", d.total_weight.log_estimate},
+      {"log_total_weight_ci95_lo", d.total_weight.log_lo},
+      {"log_total_weight_ci95_hi", d.total_weight.log_hi},
+      {"command_line", d.command_line},
+      {"covey_version", d.covey_version.empty() ? std::string(kVersion) : d.covey_version}};
+  write_draws(path, d.variables, d.table_fingerprint, d.dags, d.log_weights, attributes);
 }
 
+namespace {
+
+// A number the cover-draws attributes must hold (InputError naming the file and the key).
+double required_number(const nlohmann::json& attributes, const char* key, const std::string& path) {
+  const auto it = attributes.find(key);
+  if (it == attributes.end() || !it->is_number())
+    throw InputError(path + ": corrupt cover draws (attribute '" + key + "' missing)");
+  return it->get<double>();
+}
+
+long long required_count(const nlohmann::json& attributes, const char* key, const std::string& path,
+                         long long low, long long high) {
+  const auto it = attributes.find(key);
+  if (it == attributes.end() || !it->is_number_integer() || it->get<long long>() < low ||
+      it->get<long long>() > high)
+    throw InputError(path + ": corrupt cover draws (attribute '" + key +
+                     "' missing or out of range)");
+  return it->get<long long>();
+}
+
+}  // namespace
+
 CoverDrawsFile read_cover_draws(const std::string& path) {
-  H5::H5File file = h5::open_read(path);
+  DrawsFile file = read_draws(path);
+  if (file.kind != kDrawsKind)
+    throw InputError(path + ": not a covey cover-draws file (its draws are of kind '" + file.kind +
+                     "')");
+  const nlohmann::json& a = file.attributes;
+  constexpr long long kMax = std::numeric_limits<long long>::max();
   CoverDrawsFile d;
-  h5::guard(path, [&] {
-    if (!h5::has_attr(file, "kind") || h5::get_attr_string(file, "kind") != kDrawsKind)
-      throw InputError(path + ": not a covey cover-draws file (kind is not '" +
-                       std::string(kDrawsKind) + "')");
-    if (h5::get_attr_int(file, "format_version") > kDrawsFormatVersion)
-      throw InputError(path + ": written by a newer covey");
-    d.cover_bound = static_cast<int>(h5::get_attr_int(file, "cover_bound"));
-    d.seed = static_cast<std::uint64_t>(h5::get_attr_int(file, "seed"));
-    d.trials = static_cast<std::uint64_t>(h5::get_attr_int(file, "trials"));
-    d.log_upper_bound = h5::get_attr_double(file, "log_upper_bound");
-    d.total_weight.log_estimate = h5::get_attr_double(file, "log_total_weight");
-    d.total_weight.log_lo = h5::get_attr_double(file, "log_total_weight_ci95_lo");
-    d.total_weight.log_hi = h5::get_attr_double(file, "log_total_weight_ci95_hi");
-    d.table_fingerprint = parse_fingerprint(h5::get_attr_string(file, "table_fingerprint"), path);
-    d.command_line = h5::get_attr_string(file, "command_line");
-    d.covey_version = h5::get_attr_string(file, "covey_version");
-    d.variables = h5::read_strings(file.openGroup("variables"), "names");
-    const std::size_t n = d.variables.size();
-    if (n == 0 || n > 64) throw InputError(path + ": invalid number of variables");
-    H5::Group draws = file.openGroup("draws");
-    const std::size_t count = h5::num_rows(draws, "parents");
-    const std::vector<std::uint64_t> rows = h5::read_rows(draws, "parents", 0, count);
-    if (rows.size() != count * n)
-      throw InputError(path + ": draws/parents does not have one column per variable");
-    d.log_weights = h5::read_doubles(draws, "log_weight");
-    if (d.log_weights.size() != count)
-      throw InputError(path + ": draws/log_weight does not have one entry per draw");
-    if (static_cast<long long>(count) != h5::get_attr_int(file, "count"))
-      throw InputError(path + ": the count attribute does not match the draws");
-    const std::uint64_t all = n == 64 ? ~std::uint64_t{0} : (std::uint64_t{1} << n) - 1;
-    d.dags.reserve(count);
-    for (std::size_t r = 0; r < count; ++r) {
-      Dag g(static_cast<int>(n));
-      for (std::size_t v = 0; v < n; ++v) {
-        g.parents[v] = rows[r * n + v];
-        if ((g.parents[v] & ~all) || ((g.parents[v] >> v) & 1U))
-          throw InputError(path + ": draw " + std::to_string(r) + " has an invalid parent mask");
-      }
-      d.dags.push_back(std::move(g));
-    }
-  });
+  d.variables = std::move(file.variables);
+  d.cover_bound = static_cast<int>(
+      required_count(a, "cover_bound", path, 0, static_cast<long long>(d.variables.size()) - 1));
+  d.seed = static_cast<std::uint64_t>(required_count(a, "seed", path, 0, kMax));
+  d.trials = static_cast<std::uint64_t>(
+      required_count(a, "trials", path, static_cast<long long>(file.dags.size()), kMax));
+  d.log_upper_bound = required_number(a, "log_upper_bound", path);
+  d.total_weight.log_estimate = required_number(a, "log_total_weight", path);
+  d.total_weight.log_lo = required_number(a, "log_total_weight_ci95_lo", path);
+  d.total_weight.log_hi = required_number(a, "log_total_weight_ci95_hi", path);
+  d.table_fingerprint = file.table_fingerprint;
+  for (std::size_t i = 0; i < file.dags.size(); ++i)
+    if (!in_cover_class(file.dags[i], d.cover_bound))
+      throw InputError(path + ": corrupt cover draws (draw " + std::to_string(i) +
+                       " is outside D_" + std::to_string(d.cover_bound) + ")");
+  if (a.contains("command_line") && a["command_line"].is_string())
+    d.command_line = a["command_line"].get<std::string>();
+  if (a.contains("covey_version") && a["covey_version"].is_string())
+    d.covey_version = a["covey_version"].get<std::string>();
+  d.dags = std::move(file.dags);
+  d.log_weights = std::move(file.log_weights);
   return d;
 }
 

@@ -39,7 +39,15 @@ void write_scalar_attributes(H5::H5File& file, const nlohmann::json& attributes)
 
 void write_draws(const std::string& path, const ScoreTable& table, const std::vector<Dag>& dags,
                  const std::vector<double>& log_weights, const nlohmann::json& attributes) {
-  const int n = table.num_variables();
+  std::vector<std::string> names;
+  for (const Variable& v : table.variables()) names.push_back(v.name);
+  write_draws(path, names, table.fingerprint(), dags, log_weights, attributes);
+}
+
+void write_draws(const std::string& path, const std::vector<std::string>& names,
+                 std::uint64_t table_fingerprint, const std::vector<Dag>& dags,
+                 const std::vector<double>& log_weights, const nlohmann::json& attributes) {
+  const int n = static_cast<int>(names.size());
   if (n < 1 || n > kMaxExactVariables)
     throw InputError(path + ": draws files hold DAGs of 1 to 64 variables");
   if (!attributes.is_object() || !attributes.contains("kind") || !attributes["kind"].is_string())
@@ -56,9 +64,6 @@ void write_draws(const std::string& path, const ScoreTable& table, const std::ve
     if (d.size() != n) throw Error("write_draws: a draw has the wrong number of vertices");
     rows.insert(rows.end(), d.parents.begin(), d.parents.end());
   }
-  std::vector<std::string> names;
-  for (const Variable& v : table.variables()) names.push_back(v.name);
-
   AtomicOutput out(path);
   h5::guard(path, [&] {
     H5::H5File file = h5::create(out.temp_path());
@@ -66,7 +71,7 @@ void write_draws(const std::string& path, const ScoreTable& table, const std::ve
     h5::set_attr(file, "format_version", kFormatVersion);
     h5::set_attr(file, "num_variables", static_cast<long long>(n));
     h5::set_attr(file, "num_draws", static_cast<long long>(dags.size()));
-    h5::set_attr(file, "table_fingerprint", format_fingerprint(table.fingerprint()));
+    h5::set_attr(file, "table_fingerprint", format_fingerprint(table_fingerprint));
     write_scalar_attributes(file, attrs);
     h5::set_attr_json(file, "attributes", attrs);
     H5::Group vars = file.createGroup("variables");

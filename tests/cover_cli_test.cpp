@@ -10,6 +10,8 @@
 #include "cover_test_util.hpp"
 #include "covey/cover_best.hpp"
 #include "covey/cover_draws.hpp"
+#include "covey/draws_file.hpp"
+#include "covey/error.hpp"
 #include "covey/score_io.hpp"
 
 namespace covey {
@@ -99,6 +101,11 @@ TEST_F(CoverCli, DrawReportsJsonWritesDrawsAndIsThreadInvariant) {
                 "int(p[0].sum() >= 0))\"");
   ASSERT_EQ(py.exit_code, 0) << py.err;
   EXPECT_EQ(py.out, "cover-draws 3000 6 3000 6 2 " + std::to_string(f.trials) + " 1\n");
+  // Cover draws are the common draws layout: the general reader takes them as they are.
+  const DrawsFile common = read_draws(out);
+  EXPECT_EQ(common.kind, "cover-draws");
+  EXPECT_EQ(common.dags, f.dags);
+  EXPECT_EQ(common.attributes["cover_bound"], 2);
 
   const auto one =
       run_covey("draw " + scores_ + " --cover 2 --count 3000 --seed 4 --json --threads 1");
@@ -118,6 +125,44 @@ TEST_F(CoverCli, SavedSamplerGivesTheSameDraws) {
       run_covey("draw " + scores_ + " --cover 1 --count 5 --load-sampler " + dir_.file("s.h5"));
   EXPECT_NE(wrong_k.exit_code, 0);
   EXPECT_NE(wrong_k.err.find("--cover"), std::string::npos);
+}
+
+TEST_F(CoverCli, CoverDrawsReaderRefusesOtherKindsAndDrawsOutsideTheClass) {
+  // Exact draws over all DAGs share the layout but are not cover draws.
+  const std::string exact = dir_.file("exact.h5");
+  ASSERT_EQ(run_covey("exact " + scores_ + " --draws 10 -o " + exact).exit_code, 0);
+  try {
+    read_cover_draws(exact);
+    ADD_FAILURE() << "expected an InputError";
+  } catch (const InputError& e) {
+    EXPECT_NE(std::string(e.what()).find("kind 'exact-draws'"), std::string::npos) << e.what();
+  }
+  // The path 0 -> 1 -> 2 -> 3 has moral cover number 2, so it is no draw from D_1.
+  CoverDrawsFile f;
+  for (const Variable& v : table_.variables()) f.variables.push_back(v.name);
+  f.cover_bound = 1;
+  f.trials = 2;
+  f.table_fingerprint = table_.fingerprint();
+  Dag star(6), path(6);
+  star.add_edge(0, 1);
+  star.add_edge(0, 2);
+  path.add_edge(0, 1);
+  path.add_edge(1, 2);
+  path.add_edge(2, 3);
+  f.dags = {star, path};
+  f.log_weights = {log_weight(table_, star), log_weight(table_, path)};
+  const std::string bad = dir_.file("outside.h5");
+  write_cover_draws(bad, f);
+  try {
+    read_cover_draws(bad);
+    ADD_FAILURE() << "expected an InputError";
+  } catch (const InputError& e) {
+    EXPECT_NE(std::string(e.what()).find("draw 1 is outside D_1"), std::string::npos) << e.what();
+  }
+  f.dags.pop_back();
+  f.log_weights.pop_back();
+  write_cover_draws(bad, f);
+  EXPECT_EQ(read_cover_draws(bad).dags.size(), 1u);
 }
 
 TEST_F(CoverCli, BadInputExitsNonZeroAndLeavesOutputsUntouched) {

@@ -33,6 +33,10 @@ struct DrawsFile {
 // given (covey_version defaults to this build's version).
 void write_draws(const std::string& path, const ScoreTable& table, const std::vector<Dag>& dags,
                  const std::vector<double>& log_weights, const nlohmann::json& attributes);
+// The same, for draws whose table is known only by its variable names and fingerprint.
+void write_draws(const std::string& path, const std::vector<std::string>& variables,
+                 std::uint64_t table_fingerprint, const std::vector<Dag>& dags,
+                 const std::vector<double>& log_weights, const nlohmann::json& attributes);
 
 // Reads and validates a draws file (InputError naming the file when it is not one, is corrupt,
 // or holds a graph with a cycle or a self-loop).
