@@ -22,8 +22,9 @@ constexpr const char* kDrawsKind = "cover-draws";
 }  // namespace
 
 CoverDrawBatch draw_cover_batch(const CoverSampler& sampler, std::uint64_t seed, std::size_t count,
-                                bool show_progress) {
-  require_draws_memory(static_cast<double>(count), sampler.num_variables(), "number of draws");
+                                bool show_progress, std::uint64_t memory_limit) {
+  require_draws_memory(static_cast<double>(count), sampler.num_variables(), "number of draws",
+                       memory_limit);
   CoverDrawBatch batch;
   batch.dags.resize(count);
   const std::size_t blocks = (count + kCoverDrawBlock - 1) / kCoverDrawBlock;

@@ -1,7 +1,5 @@
 #include "covey/cover_sampler.hpp"
 
-#include <unistd.h>
-
 #include <tbb/blocked_range.h>
 #include <tbb/parallel_for.h>
 
@@ -20,6 +18,7 @@
 #include "covey/cover_class.hpp"
 #include "covey/error.hpp"
 #include "covey/logmath.hpp"
+#include "covey/memory.hpp"
 #include "covey/progress.hpp"
 
 namespace covey {
@@ -206,20 +205,6 @@ double build_unit(const CoverLocalScores& local, const UnitGeometry& g,
   return static_cast<double>(static_cast<long double>(log_scale_sum) + log_scale + std::log(total));
 }
 
-std::size_t available_memory_limit() {
-  const long pages = ::sysconf(_SC_PHYS_PAGES);
-  const long page_size = ::sysconf(_SC_PAGE_SIZE);
-  const double bytes =
-      pages > 0 && page_size > 0 ? double(pages) * double(page_size) : 4.0 * (1ULL << 30);
-  return static_cast<std::size_t>(0.8 * bytes);
-}
-
-std::string gib(double bytes) {
-  char buf[64];
-  std::snprintf(buf, sizeof buf, "%.2f GiB", bytes / double(1ULL << 30));
-  return buf;
-}
-
 }  // namespace
 
 double SamplerData::unit_bytes(int m, int num_outside) {
@@ -338,12 +323,13 @@ CoverSampler CoverSampler::build(const ScoreTable& table, int k,
   const int n = table.num_variables();
   const double need = estimate_memory_bytes(n, k);
   const std::size_t limit =
-      options.memory_limit_bytes ? options.memory_limit_bytes : detail::available_memory_limit();
+      options.memory_limit_bytes ? options.memory_limit_bytes : default_memory_limit();
   if (need > double(limit))
     throw ResourceError("exact sampler for cover bound " + std::to_string(k) + " on " +
                         std::to_string(n) + " variables: its split tables need about " +
-                        detail::gib(need) + ", more than the memory limit of " +
-                        detail::gib(double(limit)) + "; a smaller --cover shrinks them");
+                        format_bytes(need) + ", more than the memory limit of " +
+                        format_bytes(double(limit)) +
+                        "; a smaller --cover shrinks them (or raise --memory-limit)");
   CoverSampler sampler;
   sampler.impl_ = std::make_unique<Impl>();
   Impl& d = *sampler.impl_;

@@ -12,6 +12,7 @@
 
 #include "covey/atomic_file.hpp"
 #include "covey/error.hpp"
+#include "covey/memory.hpp"
 
 namespace covey {
 
@@ -424,6 +425,10 @@ DataTable parse_csv(std::string text, const std::string& name, const CsvOptions&
   return t;
 }
 
+double csv_load_bytes(double file_bytes) {
+  return 2.0 * file_bytes;
+}
+
 DataTable read_csv(const std::string& path, const CsvOptions& options) {
   require_readable(path);
   std::unique_ptr<std::FILE, int (*)(std::FILE*)> file(std::fopen(path.c_str(), "rb"), std::fclose);
@@ -433,7 +438,12 @@ DataTable read_csv(const std::string& path, const CsvOptions& options) {
   std::fseek(file.get(), 0, SEEK_END);
   const long size = std::ftell(file.get());
   std::fseek(file.get(), 0, SEEK_SET);
-  if (size > 0) text.reserve(static_cast<std::size_t>(size));
+  if (size > 0) {
+    require_memory(csv_load_bytes(static_cast<double>(size)), options.memory_limit,
+                   "reading " + path + " (" + format_bytes(static_cast<double>(size)) + ")",
+                   "fewer rows or columns per file shrink it, or raise --memory-limit");
+    text.reserve(static_cast<std::size_t>(size));
+  }
   for (;;) {
     const std::size_t got = std::fread(chunk, 1, sizeof chunk, file.get());
     text.append(chunk, got);

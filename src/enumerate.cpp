@@ -10,7 +10,8 @@ namespace {
 
 class LayerEnumerator {
  public:
-  LayerEnumerator(int n, const ParentSetFilter& allowed, const std::function<void(const Dag&)>& visit)
+  LayerEnumerator(int n, const ParentSetFilter& allowed,
+                  const std::function<void(const Dag&)>& visit)
       : n_(n), visit_(visit), dag_(n), options_(n) {
     // Each vertex's allowed parent sets, listed once (2^(n-1) candidates each for n <= 8).
     for (int v = 0; v < n; ++v) {

@@ -3,7 +3,6 @@
 #include "covey/exact_posterior.hpp"
 
 #include <tbb/parallel_for.h>
-#include <unistd.h>
 
 #include <algorithm>
 #include <cmath>
@@ -42,13 +41,6 @@ ExactRoute exact_route_from_string(const std::string& text) {
   throw InputError("--route: expected auto, layered or signed, got '" + text + "'");
 }
 
-std::size_t default_exact_memory_limit() {
-  const long pages = ::sysconf(_SC_PHYS_PAGES);
-  const long page = ::sysconf(_SC_PAGE_SIZE);
-  if (pages <= 0 || page <= 0) return std::size_t{4} << 30;
-  return static_cast<std::size_t>(pages) * static_cast<std::size_t>(page) / 2;
-}
-
 namespace {
 
 // Seconds per elementary step on one core, fitted to `covey exact --threads 1` at n = 14 and 16
@@ -62,15 +54,6 @@ constexpr int kMaxExactEngineVariables = 30;
 
 double power(double base, int n) {
   return std::pow(base, n);
-}
-
-std::string human_bytes(double bytes) {
-  char buf[64];
-  if (bytes >= 1024.0 * 1024 * 1024)
-    std::snprintf(buf, sizeof buf, "%.1f GiB", bytes / (1024.0 * 1024 * 1024));
-  else
-    std::snprintf(buf, sizeof buf, "%.1f MiB", bytes / (1024.0 * 1024));
-  return buf;
 }
 
 std::string human_seconds(double s) {
@@ -116,16 +99,17 @@ ExactCost estimate_exact_cost(int n, ExactRoute route, bool draws) {
 }
 
 ExactCost plan_exact(int n, ExactRoute requested, bool draws, const ExactLimits& limits) {
+  const std::size_t max_bytes = limits.max_bytes ? limits.max_bytes : default_memory_limit();
   auto fits = [&](const ExactCost& c) {
-    return static_cast<double>(c.bytes) <= static_cast<double>(limits.max_bytes) &&
+    return static_cast<double>(c.bytes) <= static_cast<double>(max_bytes) &&
            c.seconds <= limits.max_seconds;
   };
   auto describe = [&](const ExactCost& c) {
     return std::string(to_string(c.route)) + " route: about " + human_seconds(c.seconds) +
-           " on one core and " + human_bytes(static_cast<double>(c.bytes));
+           " on one core and " + format_bytes(static_cast<double>(c.bytes));
   };
   const std::string limit_text = "limits " + human_seconds(limits.max_seconds) + " and " +
-                                 human_bytes(static_cast<double>(limits.max_bytes));
+                                 format_bytes(static_cast<double>(max_bytes));
   if (n > kMaxExactEngineVariables) {
     const ExactCost c = estimate_exact_cost(n, ExactRoute::kSigned, false);
     throw ResourceError("the exact posterior over all DAGs of " + std::to_string(n) +
@@ -140,20 +124,20 @@ ExactCost plan_exact(int n, ExactRoute requested, bool draws, const ExactLimits&
     if (fits(layered)) return layered;
     throw ResourceError("exact " + std::string(draws ? "draws" : "posterior") + " for " +
                         std::to_string(n) + " variables needs " + describe(layered) +
-                        ", beyond the " + limit_text + " (raise --max-memory/--max-seconds)");
+                        ", beyond the " + limit_text + " (raise --memory-limit or --max-seconds)");
   }
   if (requested == ExactRoute::kSigned) {
     if (fits(signed_cost)) return signed_cost;
     throw ResourceError("exact posterior for " + std::to_string(n) + " variables needs " +
                         describe(signed_cost) + ", beyond the " + limit_text +
-                        " (raise --max-memory/--max-seconds)");
+                        " (raise --memory-limit or --max-seconds)");
   }
   if (fits(layered)) return layered;
   if (fits(signed_cost)) return signed_cost;
   throw ResourceError("exact posterior for " + std::to_string(n) + " variables needs " +
                       describe(layered) + " or " + describe(signed_cost) + ", beyond the " +
                       limit_text +
-                      " (raise --max-memory/--max-seconds, or use the cover-bounded or MCMC "
+                      " (raise --memory-limit or --max-seconds, or use the cover-bounded or MCMC "
                       "commands)");
 }
 
@@ -246,6 +230,7 @@ std::vector<int> members(std::uint64_t m) {
 
 struct ExactEngine::Impl {
   ExactCost plan;
+  std::size_t memory_limit = 0;  // the limits' max_bytes (0: the default limit)
   int n = 0;
   std::optional<SubsetScores> scores;
   LayerTable layers;
@@ -374,6 +359,7 @@ ExactEngine::ExactEngine(const ScoreTable& table, const ExactOptions& options)
   Impl& m = *impl_;
   m.n = table.num_variables();
   m.plan = plan_exact(m.n, options.route, options.draws, options.limits);
+  m.memory_limit = options.limits.max_bytes;
   const std::uint64_t full = m.n ? (std::uint64_t{1} << m.n) - 1 : 0;
   SubsetWeights w;
   if (m.plan.route == ExactRoute::kLayered) {
@@ -431,7 +417,8 @@ Dag ExactEngine::draw(Rng& rng) const {
 
 std::vector<Dag> ExactEngine::draw_many(std::size_t count, std::uint64_t seed) const {
   if (!impl_->can_draw) throw Error("exact engine was built without draws");
-  require_draws_memory(static_cast<double>(count), impl_->n, "number of draws");
+  require_draws_memory(static_cast<double>(count), impl_->n, "number of draws",
+                       impl_->memory_limit);
   std::vector<Dag> out(count);
   const std::size_t blocks = (count + kDrawsPerStream - 1) / kDrawsPerStream;
   tbb::parallel_for(std::size_t{0}, blocks, [&](std::size_t b) {

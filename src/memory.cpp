@@ -82,13 +82,14 @@ double dag_list_bytes(double count, int num_variables) {
                   8.0 * static_cast<double>(num_variables));
 }
 
-void require_draws_memory(double count, int num_variables, const std::string& option) {
+void require_draws_memory(double count, int num_variables, const std::string& option,
+                          std::uint64_t limit) {
   // The draws, plus one row of parent words per draw when they are written out.
   const double bytes =
       dag_list_bytes(count, num_variables) + count * 8.0 * static_cast<double>(num_variables);
   char what[64];
   std::snprintf(what, sizeof what, "%.4g draws of %d variables", count, num_variables);
-  require_memory(bytes, 0, what, "a smaller " + option + " shrinks it");
+  require_memory(bytes, limit, what, "a smaller " + option + " shrinks it");
 }
 
 }  // namespace covey

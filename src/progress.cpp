@@ -11,9 +11,13 @@ Progress::Progress(std::string label, bool enabled)
   last_ = start_ - std::chrono::seconds(1);
 }
 
-Progress::~Progress() { finish(); }
+Progress::~Progress() {
+  finish();
+}
 
-bool Progress::stderr_is_terminal() { return ::isatty(STDERR_FILENO) == 1; }
+bool Progress::stderr_is_terminal() {
+  return ::isatty(STDERR_FILENO) == 1;
+}
 
 void Progress::update(double done, double total, const std::string& status) {
   if (!enabled_) return;

@@ -3,6 +3,7 @@
 // columns, level order, and size (256 columns, 10^6 rows).
 #include <gtest/gtest.h>
 
+#include <fstream>
 #include <string>
 
 #include "covey/data.hpp"
@@ -181,6 +182,28 @@ TEST(Csv, ReadsAMillionRows) {
 
 TEST(Csv, MissingFileIsAnInputError) {
   EXPECT_THROW(read_csv("/nonexistent/covey/data.csv"), InputError);
+}
+
+TEST(Csv, FileBeyondTheMemoryLimitIsRefusedBeforeReading) {
+  testing_util::TempDir dir;
+  const std::string path = dir.file("wide.csv");
+  {
+    std::ofstream out(path);
+    out << "a,b\n";
+    for (int i = 0; i < 1000; ++i) out << (i % 2 ? "x,y\n" : "z,w\n");
+  }
+  CsvOptions options;
+  options.memory_limit = 1024;
+  try {
+    read_csv(path, options);
+    ADD_FAILURE() << "expected a ResourceError";
+  } catch (const ResourceError& e) {
+    const std::string m = e.what();
+    EXPECT_NE(m.find(path), std::string::npos) << m;
+    EXPECT_NE(m.find("--memory-limit"), std::string::npos) << m;
+  }
+  options.memory_limit = std::uint64_t{1} << 20;
+  EXPECT_EQ(read_csv(path, options).num_rows(), 1000u);
 }
 
 }  // namespace

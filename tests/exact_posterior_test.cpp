@@ -236,7 +236,7 @@ TEST(ExactPosterior, TooLargeIsRefusedWithEstimates) {
   } catch (const ResourceError& e) {
     const std::string m = e.what();
     EXPECT_NE(m.find("exact draws for 16 variables"), std::string::npos) << m;
-    EXPECT_NE(m.find("64.0 MiB"), std::string::npos) << m;
+    EXPECT_NE(m.find("64.00 MiB"), std::string::npos) << m;
   }
   // Without draws the signed route takes over where the layer table does not fit.
   EXPECT_EQ(plan_exact(16, ExactRoute::kAuto, false, tight).route, ExactRoute::kSigned);

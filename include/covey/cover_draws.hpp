@@ -19,9 +19,10 @@ struct CoverDrawBatch {
 // Draws per block of a random stream: draw i uses stream make_stream(seed, i / kCoverDrawBlock).
 inline constexpr std::size_t kCoverDrawBlock = 256;
 
-// `count` exact draws, parallel over blocks (TBB); identical for any thread count.
+// `count` exact draws, parallel over blocks (TBB); identical for any thread count. Refused with a
+// ResourceError when they would not fit in `memory_limit` bytes (0: default_memory_limit()).
 CoverDrawBatch draw_cover_batch(const CoverSampler& sampler, std::uint64_t seed, std::size_t count,
-                                bool show_progress = true);
+                                bool show_progress = true, std::uint64_t memory_limit = 0);
 
 // Z_k estimate U * accepted / trials with the Wilson 95% interval of the acceptance probability
 // (common practice for a binomial proportion), all on log scale.

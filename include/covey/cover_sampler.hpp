@@ -35,7 +35,7 @@
 namespace covey {
 
 struct CoverSamplerOptions {
-  std::size_t memory_limit_bytes = 0;  // 0: 80% of RAM
+  std::size_t memory_limit_bytes = 0;  // 0: default_memory_limit()
   bool show_progress = true;           // progress line on stderr when it is a terminal
 };
 

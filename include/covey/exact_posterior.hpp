@@ -29,11 +29,8 @@ enum class ExactRoute { kAuto, kLayered, kSigned };
 const char* to_string(ExactRoute route);
 ExactRoute exact_route_from_string(const std::string& text);  // throws InputError
 
-// Half the physical memory: the default ceiling of the engine's estimated peak memory.
-std::size_t default_exact_memory_limit();
-
 struct ExactLimits {
-  std::size_t max_bytes = default_exact_memory_limit();
+  std::size_t max_bytes = 0;  // ceiling of the estimated peak memory; 0: default_memory_limit()
   double max_seconds = 3600;  // estimated single-core seconds
 };
 

@@ -52,7 +52,8 @@ void append_rows(H5::Group& group, const std::string& name, const std::vector<st
 void create_series_double(H5::Group& group, const std::string& name, std::size_t chunk = 4096);
 void append_series(H5::Group& group, const std::string& name, const std::vector<double>& data);
 void create_series_int64(H5::Group& group, const std::string& name, std::size_t chunk = 4096);
-void append_series(H5::Group& group, const std::string& name, const std::vector<std::int64_t>& data);
+void append_series(H5::Group& group, const std::string& name,
+                   const std::vector<std::int64_t>& data);
 // Shrinks a growing dataset to `rows` rows (used by resume to drop work after a checkpoint).
 void truncate_rows(H5::Group& group, const std::string& name, std::size_t rows);
 std::size_t num_rows(const H5::Group& group, const std::string& name);

@@ -27,6 +27,7 @@ void require_memory(double bytes, std::uint64_t limit, const std::string& what,
 double dag_list_bytes(double count, int num_variables);
 // The check before holding `count` draws of n variables (and the rows that write them): throws
 // the ResourceError of require_memory naming `option` (e.g. "--count") as what shrinks it.
-void require_draws_memory(double count, int num_variables, const std::string& option);
+void require_draws_memory(double count, int num_variables, const std::string& option,
+                          std::uint64_t limit = 0);
 
 }  // namespace covey

@@ -17,7 +17,9 @@ using Rng = boost::random::mt19937_64;
 Rng make_stream(std::uint64_t seed, std::uint64_t stream_id);
 
 // Uniform double in [0, 1): the 53 high bits of one draw, identical on every platform.
-inline double uniform01(Rng& rng) { return static_cast<double>(rng() >> 11) * 0x1.0p-53; }
+inline double uniform01(Rng& rng) {
+  return static_cast<double>(rng() >> 11) * 0x1.0p-53;
+}
 
 // Uniform integer in [0, bound) by Lemire's multiply-shift with rejection (exact, no modulo bias).
 inline std::uint64_t uniform_below(Rng& rng, std::uint64_t bound) {

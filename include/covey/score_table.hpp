@@ -25,18 +25,18 @@ struct ScoreMetadata {
   std::string score = "imported";  // "bdeu", "bge" or "imported"
   std::string prior = "uniform";   // "uniform", "edge-penalty", "parent-count"
   nlohmann::json parameters = nlohmann::json::object();  // score and prior parameters
-  int max_indegree = -1;           // -1: not bounded by construction
-  long long num_rows = -1;         // rows of data scored; -1 when imported
-  std::string source;              // data file the table was made from
+  int max_indegree = -1;                                 // -1: not bounded by construction
+  long long num_rows = -1;                               // rows of data scored; -1 when imported
+  std::string source;                                    // data file the table was made from
   std::string command_line;
   std::string covey_version;
 };
 
 // The scores of one node, as handed to the ScoreTable constructor.
 struct NodeScores {
-  std::vector<int> candidates;        // candidate parents (variable indices, distinct)
-  std::vector<ParentMask> masks;      // allowed parent sets, as masks over `candidates`
-  std::vector<double> log_scores;     // one finite log score per mask
+  std::vector<int> candidates;     // candidate parents (variable indices, distinct)
+  std::vector<ParentMask> masks;   // allowed parent sets, as masks over `candidates`
+  std::vector<double> log_scores;  // one finite log score per mask
 };
 
 class ScoreTable {

@@ -18,7 +18,7 @@ namespace covey::cli {
 namespace {
 
 struct DrawOptions {
-  std::string scores, output, save_sampler, load_sampler;
+  std::string scores, output, save_sampler, load_sampler, memory_limit;
   int cover = 0;
   std::size_t count = 0;
   std::uint64_t seed = 1;
@@ -31,8 +31,9 @@ void run_draw(const DrawOptions& o) {
   // Fail on a bad output path before the long work.
   for (const std::string& path : {o.output, o.save_sampler})
     if (!path.empty()) AtomicOutput probe(path);
+  const std::uint64_t limit = memory_limit(o.memory_limit);
   const ScoreTable table = load_scores(o.scores);
-  require_draws_memory(static_cast<double>(o.count), table.num_variables(), "--count");
+  require_draws_memory(static_cast<double>(o.count), table.num_variables(), "--count", limit);
   CoverSampler sampler;
   if (!o.load_sampler.empty()) {
     sampler = CoverSampler::load(o.load_sampler, table);
@@ -41,11 +42,13 @@ void run_draw(const DrawOptions& o) {
                        std::to_string(sampler.cover_bound()) + ", not --cover " +
                        std::to_string(o.cover));
   } else {
-    sampler = CoverSampler::build(table, o.cover);
+    CoverSamplerOptions options;
+    options.memory_limit_bytes = limit;
+    sampler = CoverSampler::build(table, o.cover, options);
   }
   if (!o.save_sampler.empty()) sampler.save(o.save_sampler);
 
-  CoverDrawBatch batch = draw_cover_batch(sampler, o.seed, o.count);
+  CoverDrawBatch batch = draw_cover_batch(sampler, o.seed, o.count, true, limit);
   const auto estimate = estimate_log_total_weight(sampler.log_upper_bound(), o.count, batch.trials);
   const auto edges = edge_frequencies(batch.dags, table.num_variables());
   const double acceptance = double(o.count) / double(batch.trials);
@@ -129,6 +132,7 @@ void setup_draw(CLI::App& app) {
   cmd->add_option("--load-sampler", o->load_sampler,
                   "use a sampler saved by --save-sampler (must match SCORES and --cover)")
       ->check(CLI::ExistingFile);
+  add_memory_limit_option(*cmd, o->memory_limit);
   add_threads_option(*cmd, o->threads);
   cmd->callback([o] { run_draw(*o); });
 }

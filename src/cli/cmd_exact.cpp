@@ -26,7 +26,7 @@ struct ExactArgs {
   std::size_t draws = 0;
   std::uint64_t seed = 1;
   int threads = 0;
-  double max_memory_gib = 0;  // 0: half the physical memory
+  std::string memory_limit;  // --memory-limit; empty: default_memory_limit()
   double max_seconds = 3600;
   int top = 10;
   int cover = -1;  // -1: no cover bound
@@ -86,8 +86,7 @@ void print_top(const std::string& title, std::vector<Feature> features, const Sc
 
 ExactLimits limits_of(const ExactArgs& a) {
   ExactLimits limits;
-  if (a.max_memory_gib > 0)
-    limits.max_bytes = static_cast<std::size_t>(a.max_memory_gib * 1024.0 * 1024.0 * 1024.0);
+  limits.max_bytes = memory_limit(a.memory_limit);
   limits.max_seconds = a.max_seconds;
   return limits;
 }
@@ -109,10 +108,11 @@ void run_exact(const ExactArgs& a) {
   const bool cover_from_draws = a.cover >= 0 && table.num_variables() > kCoverMassEnumerationMax;
   options.draws = a.draws > 0 || cover_from_draws;
   if (a.draws > 0)
-    require_draws_memory(static_cast<double>(a.draws), table.num_variables(), "--draws");
+    require_draws_memory(static_cast<double>(a.draws), table.num_variables(), "--draws",
+                         options.limits.max_bytes);
   else if (cover_from_draws)
-    require_draws_memory(static_cast<double>(a.cover_draws), table.num_variables(),
-                         "--cover-draws");
+    require_draws_memory(static_cast<double>(a.cover_draws), table.num_variables(), "--cover-draws",
+                         options.limits.max_bytes);
   const ExactEngine engine(table, options);
   const ExactPosterior& post = engine.posterior();
 
@@ -221,9 +221,7 @@ void setup_exact(CLI::App& app) {
   cmd->add_option("--route", args->route,
                   "auto, layered (positive sums; draws) or signed (inclusion-exclusion, less "
                   "memory)");
-  cmd->add_option("--max-memory", args->max_memory_gib,
-                  "Refuse when the estimated memory exceeds this many GiB (default: half the RAM)")
-      ->check(kNonNegative);
+  add_memory_limit_option(*cmd, args->memory_limit);
   cmd->add_option("--max-seconds", args->max_seconds,
                   "Refuse when the estimated single-core time exceeds this (default 3600)")
       ->check(kPositive);

@@ -34,8 +34,7 @@ void run(ScoreArgs& a) {
   a.options.prior = prior_kind_from_string(a.prior);
   if (a.edge_penalty->count() && a.options.prior != PriorKind::kEdgePenalty)
     throw InputError("--edge-penalty needs --prior edge-penalty");
-  a.options.memory_limit =
-      a.memory_limit.empty() ? 0 : parse_memory_size(a.memory_limit, "--memory-limit");
+  a.options.memory_limit = memory_limit(a.memory_limit);
 
   CsvOptions csv;
   csv.kind = a.discrete   ? ColumnKindChoice::kDiscrete
@@ -43,6 +42,7 @@ void run(ScoreArgs& a) {
                           : ColumnKindChoice::kInfer;
   csv.drop_incomplete = a.drop_incomplete;
   csv.allow_constant = a.allow_constant;
+  csv.memory_limit = a.options.memory_limit;
   const DataTable data = read_csv(a.data, csv);
 
   const bool discrete = data.kind() == VariableKind::kDiscrete;
@@ -125,9 +125,7 @@ void setup_score(CLI::App& app) {
       ->check(CLI::Range(1, kMaxCandidates));
   cmd->add_option("--forbid", a->forbid, "TSV of forbidden edges: from<TAB>to per line");
   cmd->add_option("--require", a->require, "TSV of required edges: from<TAB>to per line");
-  cmd->add_option(
-      "--memory-limit", a->memory_limit,
-      "Refuse to start above this estimated memory (e.g. 512M, 4G; default 80% of RAM)");
+  add_memory_limit_option(*cmd, a->memory_limit);
   add_threads_option(*cmd, a->threads);
   cmd->add_flag("--json", a->json, "Print a JSON summary");
   cmd->callback([a] { run(*a); });

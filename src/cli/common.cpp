@@ -5,6 +5,8 @@
 #include <iostream>
 #include <thread>
 
+#include "covey/memory.hpp"
+
 namespace covey::cli {
 
 namespace {
@@ -47,6 +49,16 @@ void add_threads_option(CLI::App& cmd, int& threads) {
   cmd.add_option("--threads", threads,
                  "Worker threads (0 = all cores); results do not depend on it")
       ->check(kNonNegative);
+}
+
+void add_memory_limit_option(CLI::App& cmd, std::string& text) {
+  cmd.add_option("--memory-limit", text,
+                 "Refuse to start above this estimated memory (e.g. 512M, 4G; default "
+                 "COVEY_MEMORY_LIMIT or 80% of RAM)");
+}
+
+std::uint64_t memory_limit(const std::string& text) {
+  return text.empty() ? 0 : parse_memory_size(text, "--memory-limit");
 }
 
 std::unique_ptr<tbb::global_control> apply_threads(int threads) {

@@ -1,6 +1,7 @@
 #pragma once
 // Pieces every command shares: thread control, JSON printing, the reconstructed command line.
 #include <CLI/CLI.hpp>
+#include <cstdint>
 #include <exception>
 #include <memory>
 #include <nlohmann/json.hpp>
@@ -21,6 +22,10 @@ extern const CLI::Validator kNonNegative;
 
 // Adds --threads to a subcommand; apply_threads() installs the limit (0 = all cores).
 void add_threads_option(CLI::App& cmd, int& threads);
+// --memory-limit SIZE, the ceiling of every command's memory estimate; memory_limit() parses it
+// (0 when not given: default_memory_limit(), that is COVEY_MEMORY_LIMIT or 80% of RAM).
+void add_memory_limit_option(CLI::App& cmd, std::string& text);
+std::uint64_t memory_limit(const std::string& text);
 std::unique_ptr<tbb::global_control> apply_threads(int threads);
 
 // JSON has no NaN or infinity: undefined values are null, infinite ones the string "inf".
