@@ -67,7 +67,7 @@ struct ChainSupport::Impl {
 };
 
 ChainSupport::ChainSupport(const ScoreTable& table, const ChainRunOptions& options,
-                           const std::string& sampler_path)
+                           const std::string& sampler_path, std::uint64_t memory_limit)
     : impl_(std::make_unique<Impl>()) {
   if (options.teleport_cover >= 0 && options.cover_limit >= 0 &&
       options.cover_limit < options.teleport_cover)
@@ -76,8 +76,11 @@ ChainSupport::ChainSupport(const ScoreTable& table, const ChainRunOptions& optio
                      std::to_string(options.teleport_cover) +
                      " (teleports draw from D_k, which must lie inside the target class)");
   if (options.teleport_cover >= 0) {
-    CoverSampler sampler = sampler_path.empty() ? CoverSampler::build(table, options.teleport_cover)
-                                                : CoverSampler::load(sampler_path, table);
+    CoverSamplerOptions sampler_options;
+    sampler_options.memory_limit_bytes = memory_limit;
+    CoverSampler sampler = sampler_path.empty()
+                               ? CoverSampler::build(table, options.teleport_cover, sampler_options)
+                               : CoverSampler::load(sampler_path, table);
     if (sampler.cover_bound() != options.teleport_cover)
       throw InputError(sampler_path + ": the saved sampler is for cover bound " +
                        std::to_string(sampler.cover_bound()) + ", not --teleport-cover " +

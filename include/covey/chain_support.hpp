@@ -2,6 +2,7 @@
 // The pieces a chain run takes from other modules, built from the run options: the exact
 // teleport sampler of D_k (cover_sampler.hpp), the class D_k' of --cover-limit
 // (cover_class.hpp), and the convergence check of --until-rhat/--until-ess (diagnostics.hpp).
+#include <cstdint>
 #include <memory>
 #include <string>
 
@@ -17,9 +18,10 @@ ConvergenceStatus edge_convergence(const RunFeatures& features, double max_rhat,
 
 class ChainSupport {
  public:
-  // `sampler_path`: a saved cover sampler to load instead of building one ("" to build).
+  // `sampler_path`: a saved cover sampler to load instead of building one ("" to build);
+  // `memory_limit`: the ceiling of the sampler's estimated memory (0: default_memory_limit()).
   ChainSupport(const ScoreTable& table, const ChainRunOptions& options,
-               const std::string& sampler_path = "");
+               const std::string& sampler_path = "", std::uint64_t memory_limit = 0);
   ~ChainSupport();
   ChainSupport(const ChainSupport&) = delete;
   ChainSupport& operator=(const ChainSupport&) = delete;

@@ -31,7 +31,8 @@ struct ChainArgs {
   std::string checkpoint_every = "5m";
   std::string max_time;
   double until_rhat = 0, until_ess = 0;
-  std::string sampler;  // saved cover sampler for --teleport-cover
+  std::string sampler;       // saved cover sampler for --teleport-cover
+  std::string memory_limit;  // ceiling of the teleport sampler's memory
   bool resume = false, json = false;
 };
 
@@ -154,8 +155,9 @@ void run_chain_command(CLI::App* cmd, const ChainArgs& a) {
   o.until_rhat = a.until_rhat;
   o.until_ess = a.until_ess;
   const auto thread_limit = apply_threads(a.threads);
+  const std::uint64_t limit = memory_limit(a.memory_limit);
   const ScoreTable table = load_scores(a.scores);
-  ChainSupport support(table, o, a.sampler);
+  ChainSupport support(table, o, a.sampler, limit);
   ChainRunHooks hooks = support.hooks();
   hooks.stop_signal = &g_stop_signal;
   hooks.command_line = command_line();
@@ -194,6 +196,7 @@ void setup_chain(CLI::App& app) {
   cmd->add_option("--thin", a->thin, "keep every t-th state (default 1000)");
   cmd->add_option("--burn-in", a->burn_in, "steps discarded at the start (default 0)");
   cmd->add_option("--seed", a->seed, "seed; chain c uses stream (seed, c) (default 1)");
+  add_memory_limit_option(*cmd, a->memory_limit);
   add_threads_option(*cmd, a->threads);
   cmd->add_option("--teleport-cover", a->teleport_cover,
                   "k: teleport from the exact sampler of the cover-bounded class D_k");
