@@ -44,7 +44,7 @@ asan-test: build-asan
 
 # libFuzzer targets of the readers (tests/fuzz/): FUZZ_SMOKE_SECONDS each in `make test`,
 # FUZZ_SECONDS each in `make fuzz`.
-FUZZ_SMOKE_SECONDS ?= 30
+FUZZ_SMOKE_SECONDS ?= 20
 FUZZ_SECONDS ?= 600
 fuzz-smoke: build-asan
 	FUZZ_SEED=1 tests/fuzz/run_fuzz.sh build-asan $(FUZZ_SMOKE_SECONDS)
