@@ -14,6 +14,7 @@
 #include <cstring>
 #include <filesystem>
 #include <limits>
+#include <optional>
 
 #include "chain_file_writer.hpp"
 #include "covey/atomic_file.hpp"
@@ -117,6 +118,24 @@ void append_blocks(H5::H5File& file, const std::vector<ChainBlock>& blocks, std:
       kCheckpointWidth);
 }
 
+// The root attributes a run file and a manifest share: what the file is, who wrote it, and the
+// table and variables its chains are over.
+void write_identity(H5::H5File& file, const char* format, long long version, const Header& header) {
+  h5::set_attr(file, "format", std::string(format));
+  h5::set_attr(file, "format_version", version);
+  h5::set_attr(file, "covey_version", std::string(kVersion));
+  h5::set_attr(file, "command_line", header.session.value("command_line", std::string()));
+  h5::set_attr(file, "table_fingerprint", format_fingerprint(header.fingerprint));
+  h5::set_attr(file, "num_variables", static_cast<long long>(header.variables.size()));
+}
+
+// The file-size limit of this process (ulimit -f), if there is one.
+std::optional<std::uintmax_t> file_size_limit() {
+  rlimit limit{};
+  if (::getrlimit(RLIMIT_FSIZE, &limit) != 0 || limit.rlim_cur == RLIM_INFINITY) return {};
+  return static_cast<std::uintmax_t>(limit.rlim_cur);
+}
+
 }  // namespace
 
 std::string chain_group_name(int chain) {
@@ -130,12 +149,7 @@ void create(const std::string& path, const Header& header, const std::vector<Cha
   AtomicOutput out(path);
   h5::guard(path, [&] {
     H5::H5File file = h5::create(out.temp_path());
-    h5::set_attr(file, "format", std::string(kChainRunFormat));
-    h5::set_attr(file, "format_version", kChainRunFormatVersion);
-    h5::set_attr(file, "covey_version", std::string(kVersion));
-    h5::set_attr(file, "command_line", header.session.value("command_line", std::string()));
-    h5::set_attr(file, "table_fingerprint", format_fingerprint(header.fingerprint));
-    h5::set_attr(file, "num_variables", static_cast<long long>(header.variables.size()));
+    write_identity(file, kChainRunFormat, kChainRunFormatVersion, header);
     h5::set_attr(file, "words_per_node", static_cast<long long>(header.words_per_node));
     h5::set_attr(file, "num_chains", static_cast<long long>(header.num_chains));
     std::vector<int> global = header.global_chains;
@@ -204,13 +218,11 @@ std::uintmax_t checkpoint_growth_bound(const std::vector<ChainBlock>& blocks) {
 // released by release_reservation().
 void reserve_checkpoint_room(const std::string& path, const std::string& temp,
                              std::uintmax_t need) {
-  rlimit limit{};
-  if (::getrlimit(RLIMIT_FSIZE, &limit) == 0 && limit.rlim_cur != RLIM_INFINITY &&
-      need > limit.rlim_cur)
+  if (const auto limit = file_size_limit(); limit && need > *limit)
     throw ResourceError(path + ": cannot write the next checkpoint: the file would need up to " +
                         format_bytes(static_cast<double>(need)) +
                         ", above the file size limit (ulimit -f) of " +
-                        format_bytes(static_cast<double>(limit.rlim_cur)) +
+                        format_bytes(static_cast<double>(*limit)) +
                         "; the last checkpoint is intact (raise the limit, then --resume)");
   const int fd = ::open(temp.c_str(), O_WRONLY);
   if (fd < 0) return;
@@ -241,9 +253,7 @@ void append_checkpoint(const std::string& path, const std::vector<ChainBlock>& b
   const std::uintmax_t old_size = std::filesystem::file_size(path, ec);
   if (ec) throw InputError(path + ": cannot read the run file: " + ec.message());
   const std::uintmax_t need = old_size + checkpoint_growth_bound(blocks);
-  rlimit limit{};
-  if (::getrlimit(RLIMIT_FSIZE, &limit) == 0 && limit.rlim_cur != RLIM_INFINITY &&
-      old_size > limit.rlim_cur)
+  if (const auto limit = file_size_limit(); limit && old_size > *limit)
     throw ResourceError(path + ": cannot copy the run file for a checkpoint: it is larger than " +
                         "the file size limit (ulimit -f); the last checkpoint is intact");
   std::filesystem::copy_file(path, out.temp_path(),
@@ -287,12 +297,7 @@ void write_manifest(const std::string& path, const std::vector<std::string>& mem
   AtomicOutput out(path);
   h5::guard(path, [&] {
     H5::H5File file = h5::create(out.temp_path());
-    h5::set_attr(file, "format", std::string(kChainManifestFormat));
-    h5::set_attr(file, "format_version", kChainManifestFormatVersion);
-    h5::set_attr(file, "covey_version", std::string(kVersion));
-    h5::set_attr(file, "command_line", header.session.value("command_line", std::string()));
-    h5::set_attr(file, "table_fingerprint", format_fingerprint(header.fingerprint));
-    h5::set_attr(file, "num_variables", static_cast<long long>(header.variables.size()));
+    write_identity(file, kChainManifestFormat, kChainManifestFormatVersion, header);
     h5::set_attr(file, "num_chains", static_cast<long long>(total));
     h5::set_attr(file, "num_ranks", static_cast<long long>(members.size()));
     h5::set_attr_json(file, "options", header.options);

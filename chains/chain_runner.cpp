@@ -184,10 +184,7 @@ class Runner {
   }
 
   void resume() {
-    if (ranks_ > 1) {
-      if (!is_run_manifest(path_))
-        throw InputError(path_ + ": not the manifest of an MPI run (the run was made by one " +
-                         "process; resume it without mpirun)");
+    if (is_run_manifest(path_)) {
       const RunManifest m = read_run_manifest(path_);
       if (static_cast<int>(m.members.size()) != ranks_)
         throw InputError(path_ + ": the run was made by " + std::to_string(m.members.size()) +
@@ -195,10 +192,9 @@ class Runner {
                          std::to_string(m.members.size()));
       if (m.num_chains != o_.chains) throw Error("run_chains: chain count differs from manifest");
       member_ = run_member_files(path_)[std::size_t(rank_)];
-    } else if (is_run_manifest(path_)) {
-      const RunManifest m = read_run_manifest(path_);
-      throw InputError(path_ + ": the run was made by " + std::to_string(m.members.size()) +
-                       " MPI ranks; resume it with mpirun -np " + std::to_string(m.members.size()));
+    } else if (ranks_ > 1) {
+      throw InputError(path_ + ": not the manifest of an MPI run (the run was made by one " +
+                       "process; resume it without mpirun)");
     }
     chain_file::remove_stale_temporaries(member_);
     const ChainRun run = ChainRun::open(member_);
@@ -422,7 +418,7 @@ class Runner {
     if (rank_ == 0) {
       std::vector<ChainRun> runs;
       for (int r = 0; r < ranks_; ++r)
-        runs.push_back(ChainRun::open(r == 0 ? member_ : chain_file::member_path(path_, r)));
+        runs.push_back(ChainRun::open(chain_file::member_path(path_, r)));
       const ConvergenceStatus s = hooks_.convergence(RunFeatures(runs), rhat, ess);
       verdict = {s.converged ? 1.0 : 0.0, s.max_rhat,        s.min_ess,
                  double(s.features),      double(s.failing), double(s.undefined)};

@@ -321,15 +321,10 @@ CoverSampler CoverSampler::build(const ScoreTable& table, int k,
                                  const CoverSamplerOptions& options) {
   check_cover_bound(table, k);
   const int n = table.num_variables();
-  const double need = estimate_memory_bytes(n, k);
-  const std::size_t limit =
-      options.memory_limit_bytes ? options.memory_limit_bytes : default_memory_limit();
-  if (need > double(limit))
-    throw ResourceError("exact sampler for cover bound " + std::to_string(k) + " on " +
-                        std::to_string(n) + " variables: its split tables need about " +
-                        format_bytes(need) + ", more than the memory limit of " +
-                        format_bytes(double(limit)) +
-                        "; a smaller --cover shrinks them (or raise --memory-limit)");
+  require_memory(estimate_memory_bytes(n, k), options.memory_limit_bytes,
+                 "the split tables of the exact sampler for cover bound " + std::to_string(k) +
+                     " on " + std::to_string(n) + " variables",
+                 "a smaller --cover shrinks them (or raise --memory-limit)");
   CoverSampler sampler;
   sampler.impl_ = std::make_unique<Impl>();
   Impl& d = *sampler.impl_;
