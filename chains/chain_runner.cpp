@@ -150,7 +150,7 @@ class Runner {
     }
     steps_ = 0;
     chain_file::Header header;
-    for (const auto& v : table_.variables()) header.variables.push_back(v.name);
+    header.variables = variable_names(table_.variables());
     header.fingerprint = table_.fingerprint();
     header.words_per_node = (table_.num_variables() + 63) / 64;
     header.num_chains = local_;

@@ -39,9 +39,8 @@ void write_scalar_attributes(H5::H5File& file, const nlohmann::json& attributes)
 
 void write_draws(const std::string& path, const ScoreTable& table, const std::vector<Dag>& dags,
                  const std::vector<double>& log_weights, const nlohmann::json& attributes) {
-  std::vector<std::string> names;
-  for (const Variable& v : table.variables()) names.push_back(v.name);
-  write_draws(path, names, table.fingerprint(), dags, log_weights, attributes);
+  write_draws(path, variable_names(table.variables()), table.fingerprint(), dags, log_weights,
+              attributes);
 }
 
 void write_draws(const std::string& path, const std::vector<std::string>& names,
@@ -138,9 +137,7 @@ DrawsFile read_draws(const std::string& path) {
 
 void check_draws_match_table(const DrawsFile& draws, const ScoreTable& table,
                              const std::string& path) {
-  std::vector<std::string> names;
-  for (const Variable& v : table.variables()) names.push_back(v.name);
-  if (draws.variables != names)
+  if (draws.variables != variable_names(table.variables()))
     throw InputError(path + ": the draws are over other variables than the score table");
   if (draws.table_fingerprint != table.fingerprint())
     throw InputError(path + ": the draws were made from a different score table (fingerprint " +

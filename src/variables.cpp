@@ -14,6 +14,13 @@ VariableKind variable_kind_from_string(const std::string& text) {
   throw InputError("unknown variable kind '" + text + "' (expected discrete or gaussian)");
 }
 
+std::vector<std::string> variable_names(const std::vector<Variable>& variables) {
+  std::vector<std::string> names;
+  names.reserve(variables.size());
+  for (const Variable& v : variables) names.push_back(v.name);
+  return names;
+}
+
 int find_variable(const std::vector<Variable>& variables, const std::string& name,
                   const std::string& context) {
   for (std::size_t i = 0; i < variables.size(); ++i)

@@ -16,6 +16,9 @@ struct Variable {
   std::vector<std::string> levels;  // discrete only, in code order
 };
 
+// The names, in order.
+std::vector<std::string> variable_names(const std::vector<Variable>& variables);
+
 // Index of the variable with this name; throws InputError naming `context` when unknown.
 int find_variable(const std::vector<Variable>& variables, const std::string& name,
                   const std::string& context);

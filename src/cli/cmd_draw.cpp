@@ -55,7 +55,7 @@ void run_draw(const DrawOptions& o) {
 
   if (!o.output.empty()) {
     CoverDrawsFile file;
-    for (const Variable& v : table.variables()) file.variables.push_back(v.name);
+    file.variables = variable_names(table.variables());
     file.cover_bound = o.cover;
     file.seed = o.seed;
     file.trials = batch.trials;

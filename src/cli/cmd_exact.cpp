@@ -143,9 +143,7 @@ void run_exact(const ExactArgs& a) {
     nlohmann::json out;
     out["file"] = a.scores;
     out["num_variables"] = table.num_variables();
-    nlohmann::json names = nlohmann::json::array();
-    for (const Variable& v : table.variables()) names.push_back(v.name);
-    out["variables"] = names;
+    out["variables"] = variable_names(table.variables());
     out["log_total_weight"] = post.log_total_weight;
     out["route"] = to_string(engine.plan().route);
     out["discrepancy"] = post.discrepancy;
