@@ -11,7 +11,7 @@ JOBS ?= $(shell nproc 2>/dev/null || echo 2)
 SUDO := $(shell [ "$$(id -u)" -eq 0 ] || echo sudo)
 CMAKE_FLAGS ?=
 
-.PHONY: deps build build-asan test unit-test asan-test fuzz-smoke fuzz demo bench format cli-docs clean
+.PHONY: deps build build-asan check test unit-test asan-test fuzz-smoke fuzz demo bench format cli-docs install clean
 
 deps:
 	@missing=$$(for p in $(DEBIAN_PACKAGES); do \
@@ -31,6 +31,12 @@ build: deps
 build-asan: deps
 	CC=clang CXX=clang++ cmake -S . -B build-asan -DCMAKE_BUILD_TYPE=RelWithDebInfo -DCOVEY_SANITIZE=ON -DCOVEY_FUZZ=ON $(CMAKE_FLAGS) >/dev/null
 	cmake --build build-asan -j $(JOBS) --target covey covey_tests covey_fuzz_targets
+
+# The fast unit group alone (tests/CMakeLists.txt lists the groups): builds only what it needs.
+check: deps
+	cmake -S . -B build -DCMAKE_BUILD_TYPE=Release $(CMAKE_FLAGS) >/dev/null
+	cmake --build build -j $(JOBS) --target covey_unit_tests
+	cd build && ctest --output-on-failure -j $(JOBS) -L unit
 
 unit-test: build
 	cd build && ctest --output-on-failure -j $(JOBS)
@@ -59,6 +65,11 @@ demo: build
 
 bench: build
 	build/bench/covey_bench --benchmark_counters_tabular=true
+
+# Installs headers, libraries, the covey binary, the CMake package and covey.pc under PREFIX.
+PREFIX ?= /usr/local
+install: build
+	cmake --install build --prefix $(PREFIX)
 
 cli-docs: build
 	docs/generate_cli_reference.sh build/covey > docs/cli.md

@@ -1,9 +1,9 @@
 #pragma once
 // Random score tables for the benchmarks: every parent set of size <= d of each node's
-// candidates, with log scores Normal(0, sd) - penalty * |S| (the shape of DESIGN's reference
-// model), from the given random stream.
-#include "covey/random.hpp"
-#include "covey/score_table.hpp"
+// candidates, with log scores Normal(0, sd) - penalty * |S| (a common shape for sparse
+// local scores), from the given random stream.
+#include "covey/core/random.hpp"
+#include "covey/scores/score_table.hpp"
 
 namespace covey::bench {
 

@@ -12,9 +12,9 @@
 #include <functional>
 #include <vector>
 
-#include "covey/random.hpp"
-#include "covey/score_table.hpp"
-#include "covey/structure_chain.hpp"
+#include "covey/chains/structure_chain.hpp"
+#include "covey/core/random.hpp"
+#include "covey/scores/score_table.hpp"
 
 namespace {
 

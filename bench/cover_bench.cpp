@@ -1,4 +1,4 @@
-// Speed targets of the cover-bounded engines (DESIGN.md section 6), on random score tables with
+// Speed targets of the cover-bounded engines (docs/exact-engine.md), on random score tables with
 // every parent set of size <= 3 (made here): best DAG n = 30, k = 3 within 10 s; sampler
 // preprocessing n = 20, k = 3 and n = 40, k = 2 within 30 s each; at least 20,000 accepted draws
 // per second after preprocessing (n = 20, k = 3). Each figure is printed with its ratio to the
@@ -12,10 +12,10 @@
 #include <functional>
 #include <memory>
 
-#include "covey/cover_best.hpp"
-#include "covey/cover_draws.hpp"
-#include "covey/cover_sampler.hpp"
-#include "covey/random.hpp"
+#include "covey/core/random.hpp"
+#include "covey/exact/cover_best.hpp"
+#include "covey/exact/cover_draws.hpp"
+#include "covey/exact/cover_sampler.hpp"
 
 namespace {
 

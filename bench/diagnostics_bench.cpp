@@ -12,8 +12,8 @@
 #include <ctime>
 #include <vector>
 
-#include "covey/diagnostics.hpp"
-#include "covey/random.hpp"
+#include "covey/core/random.hpp"
+#include "covey/diagnostics/diagnostics.hpp"
 
 namespace {
 

@@ -9,8 +9,8 @@
 #include <chrono>
 #include <functional>
 
-#include "covey/exact_posterior.hpp"
-#include "covey/random.hpp"
+#include "covey/core/random.hpp"
+#include "covey/exact/exact_posterior.hpp"
 
 namespace {
 

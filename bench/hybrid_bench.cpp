@@ -23,15 +23,15 @@
 #include <string>
 #include <vector>
 
-#include "covey/chain_run_file.hpp"
-#include "covey/chain_runner.hpp"
-#include "covey/chain_support.hpp"
-#include "covey/cover_sampler.hpp"
-#include "covey/data.hpp"
-#include "covey/diagnostics.hpp"
-#include "covey/exact_posterior.hpp"
-#include "covey/random.hpp"
-#include "covey/scores.hpp"
+#include "covey/chains/chain_run_file.hpp"
+#include "covey/chains/chain_runner.hpp"
+#include "covey/chains/chain_support.hpp"
+#include "covey/core/random.hpp"
+#include "covey/data/data.hpp"
+#include "covey/diagnostics/diagnostics.hpp"
+#include "covey/exact/cover_sampler.hpp"
+#include "covey/exact/exact_posterior.hpp"
+#include "covey/scores/scores.hpp"
 
 namespace {
 

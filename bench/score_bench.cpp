@@ -10,9 +10,9 @@
 #include <string>
 #include <vector>
 
-#include "covey/data.hpp"
-#include "covey/random.hpp"
-#include "covey/scores.hpp"
+#include "covey/core/random.hpp"
+#include "covey/data/data.hpp"
+#include "covey/scores/scores.hpp"
 
 namespace {
 

@@ -6,8 +6,8 @@
 #include <functional>
 #include <vector>
 
-#include "covey/random.hpp"
-#include "covey/score_table.hpp"
+#include "covey/core/random.hpp"
+#include "covey/scores/score_table.hpp"
 
 namespace {
 

@@ -1,5 +1,5 @@
 // Chain-run files: writer (chains/chain_file_writer.hpp) and reader
-// (include/covey/chain_run_file.hpp). Layout: docs/file-formats.md, "Chain runs".
+// (include/covey/chains/chain_run_file.hpp). Layout: docs/file-formats.md, "Chain runs".
 #include <fcntl.h>
 #include <signal.h>
 #include <sys/resource.h>
@@ -17,11 +17,11 @@
 #include <optional>
 
 #include "chain_file_writer.hpp"
-#include "covey/atomic_file.hpp"
-#include "covey/error.hpp"
-#include "covey/h5.hpp"
-#include "covey/memory.hpp"
-#include "covey/version.hpp"
+#include "core/h5.hpp"
+#include "covey/core/atomic_file.hpp"
+#include "covey/core/error.hpp"
+#include "covey/core/memory.hpp"
+#include "covey/core/version.hpp"
 
 namespace covey {
 namespace chain_file {

@@ -1,6 +1,6 @@
 #pragma once
 // Writing chain-run files (internal to the chain runner; the layout is in
-// docs/file-formats.md, "Chain runs", and the reader in include/covey/chain_run_file.hpp).
+// docs/file-formats.md, "Chain runs", and the reader in include/covey/chains/chain_run_file.hpp).
 //
 // Crash safety: every write produces a complete new file beside the target and renames it over
 // the target (AtomicOutput). A checkpoint copies the current file, appends to the copy, and
@@ -12,7 +12,7 @@
 #include <string>
 #include <vector>
 
-#include "covey/chain_run_file.hpp"
+#include "covey/chains/chain_run_file.hpp"
 
 namespace covey::chain_file {
 

@@ -1,4 +1,6 @@
-#include "covey/chain_runner.hpp"
+#include "covey/chains/chain_runner.hpp"
+
+#include "core/progress.hpp"
 
 #include <tbb/parallel_for.h>
 
@@ -11,11 +13,11 @@
 #include <memory>
 
 #include "chain_file_writer.hpp"
-#include "covey/edge_constraints.hpp"
-#include "covey/error.hpp"
-#include "covey/mpi_context.hpp"
-#include "covey/random.hpp"
-#include "covey/version.hpp"
+#include "core/mpi_context.hpp"
+#include "covey/core/error.hpp"
+#include "covey/core/random.hpp"
+#include "covey/core/version.hpp"
+#include "covey/data/edge_constraints.hpp"
 
 namespace covey {
 namespace {
@@ -112,7 +114,7 @@ class Runner {
     // Rank r runs the block [first_chain(r), first_chain(r + 1)) of the chains.
     first_ = first_chain(rank_);
     local_ = first_chain(rank_ + 1) - first_;
-    if (rank_ != 0) hooks_.progress = false;
+    if (rank_ != 0 || !Progress::stderr_is_terminal()) hooks_.progress = false;
     width_ = std::size_t(table.num_variables()) * ((table.num_variables() + 63) / 64);
     config_.rev_rate = o_.rev_rate;
     config_.teleport_rate = o_.teleport_rate;

@@ -1,11 +1,11 @@
-#include "covey/chain_support.hpp"
+#include "covey/chains/chain_support.hpp"
 
 #include <cmath>
 
-#include "covey/cover_class.hpp"
-#include "covey/cover_sampler.hpp"
-#include "covey/diagnostics.hpp"
-#include "covey/error.hpp"
+#include "covey/core/error.hpp"
+#include "covey/diagnostics/diagnostics.hpp"
+#include "covey/exact/cover_sampler.hpp"
+#include "covey/graph/cover_class.hpp"
 
 namespace covey {
 

@@ -1,4 +1,4 @@
-// Graph features of chain-run draws (include/covey/chain_run_file.hpp, RunFeatures): edge,
+// Graph features of chain-run draws (include/covey/chains/chain_run_file.hpp, RunFeatures): edge,
 // adjacency and ancestor indicators, the log score, membership in D_k, and the tours between
 // teleport regenerations.
 #include <tbb/blocked_range.h>
@@ -9,10 +9,10 @@
 #include <bit>
 #include <cstdio>
 
-#include "covey/chain_run_file.hpp"
-#include "covey/cover_class.hpp"
-#include "covey/dag.hpp"
-#include "covey/error.hpp"
+#include "covey/chains/chain_run_file.hpp"
+#include "covey/core/error.hpp"
+#include "covey/graph/cover_class.hpp"
+#include "covey/graph/dag.hpp"
 
 namespace covey {
 

@@ -1,11 +1,11 @@
-#include "covey/structure_chain.hpp"
+#include "covey/chains/structure_chain.hpp"
 
 #include <algorithm>
 #include <bit>
 #include <cmath>
 #include <numbers>
 
-#include "covey/error.hpp"
+#include "covey/core/error.hpp"
 
 namespace covey {
 namespace {

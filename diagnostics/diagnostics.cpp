@@ -13,8 +13,8 @@
 #include <string>
 #include <unsupported/Eigen/FFT>
 
-#include "covey/diagnostics.hpp"
-#include "covey/error.hpp"
+#include "covey/core/error.hpp"
+#include "covey/diagnostics/diagnostics.hpp"
 #include "diagnostics_internal.hpp"
 
 namespace covey {

@@ -6,7 +6,7 @@
 #include <span>
 #include <vector>
 
-#include "covey/diagnostics.hpp"
+#include "covey/diagnostics/diagnostics.hpp"
 
 namespace covey::diagnostics_detail {
 

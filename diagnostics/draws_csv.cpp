@@ -1,5 +1,5 @@
 // Reading draws of named quantities from CSV (see draws_csv.hpp for the layout).
-#include "covey/draws_csv.hpp"
+#include "covey/diagnostics/draws_csv.hpp"
 
 #include <algorithm>
 #include <charconv>
@@ -8,8 +8,8 @@
 #include <map>
 #include <numeric>
 
-#include "covey/atomic_file.hpp"
-#include "covey/error.hpp"
+#include "covey/core/atomic_file.hpp"
+#include "covey/core/error.hpp"
 
 namespace covey {
 

@@ -2,8 +2,8 @@
 #include <cmath>
 #include <string>
 
-#include "covey/diagnostics.hpp"
-#include "covey/error.hpp"
+#include "covey/core/error.hpp"
+#include "covey/diagnostics/diagnostics.hpp"
 
 namespace covey {
 

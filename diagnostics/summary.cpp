@@ -11,8 +11,8 @@
 #include <string>
 #include <thread>
 
-#include "covey/diagnostics.hpp"
-#include "covey/error.hpp"
+#include "covey/core/error.hpp"
+#include "covey/diagnostics/diagnostics.hpp"
 #include "diagnostics_internal.hpp"
 
 namespace covey {

@@ -21,7 +21,7 @@
 #include <set>
 #include <sstream>
 
-#include "covey/score_io.hpp"
+#include "covey/scores/score_io.hpp"
 #include "test_util.hpp"
 
 namespace covey {

@@ -12,11 +12,11 @@
 #include <map>
 #include <numeric>
 
-#include "covey/data.hpp"
-#include "covey/enumerate.hpp"
-#include "covey/error.hpp"
-#include "covey/random.hpp"
-#include "covey/scores.hpp"
+#include "covey/core/error.hpp"
+#include "covey/core/random.hpp"
+#include "covey/data/data.hpp"
+#include "covey/graph/enumerate.hpp"
+#include "covey/scores/scores.hpp"
 #include "test_util.hpp"
 
 namespace covey {

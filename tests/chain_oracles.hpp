@@ -1,19 +1,19 @@
 #pragma once
 // Brute-force ground truth for the chain tests (n <= 5): the exact posterior over all DAGs of a
 // table by enumeration (for_each_dag, itself checked against OEIS A003024), an independent
-// membership test for the cover-bounded class D_k straight from its characterization (DESIGN.md
-// section 3: C is a vertex cover of the moral graph iff every vertex outside C has all its
-// parents in C and every vertex inside C has at most one parent outside C), and an exact
-// sampler of w restricted to a class by inversion over the enumerated DAGs.
+// membership test for the cover-bounded class D_k straight from its characterization
+// (docs/mathematics.md section 2: C is a vertex cover of the moral graph iff every vertex outside C
+// has all its parents in C and every vertex inside C has at most one parent outside C), and an
+// exact sampler of w restricted to a class by inversion over the enumerated DAGs.
 #include <algorithm>
 #include <bit>
 #include <cmath>
 #include <map>
 #include <vector>
 
-#include "covey/enumerate.hpp"
-#include "covey/logmath.hpp"
-#include "covey/structure_chain.hpp"
+#include "covey/chains/structure_chain.hpp"
+#include "covey/core/logmath.hpp"
+#include "covey/graph/enumerate.hpp"
 
 namespace covey::testing_util {
 

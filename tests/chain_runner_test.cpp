@@ -17,13 +17,13 @@
 #include <thread>
 
 #include "chain_oracles.hpp"
-#include "covey/chain_run_file.hpp"
-#include "covey/chain_runner.hpp"
-#include "covey/chain_support.hpp"
-#include "covey/diagnostics.hpp"
-#include "covey/error.hpp"
-#include "covey/h5.hpp"
-#include "covey/score_io.hpp"
+#include "core/h5.hpp"
+#include "covey/chains/chain_run_file.hpp"
+#include "covey/chains/chain_runner.hpp"
+#include "covey/chains/chain_support.hpp"
+#include "covey/core/error.hpp"
+#include "covey/diagnostics/diagnostics.hpp"
+#include "covey/scores/score_io.hpp"
 #include "test_util.hpp"
 
 namespace covey {

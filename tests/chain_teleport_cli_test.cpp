@@ -3,7 +3,7 @@
 
 #include <nlohmann/json.hpp>
 
-#include "covey/score_io.hpp"
+#include "covey/scores/score_io.hpp"
 #include "test_util.hpp"
 
 namespace covey {

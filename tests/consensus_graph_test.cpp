@@ -1,16 +1,16 @@
 // The consensus graph: thresholding, cycle marking (checked against covey's DAG module on
 // random matrices), DOT text (parsed by graphviz's own `dot` program), rendering to SVG (parsed
 // by Python's xml.etree) and PNG (read back with cairo).
-#include "covey/consensus_graph.hpp"
+#include "covey/report/consensus_graph.hpp"
 
 #include <gtest/gtest.h>
 
 #include <filesystem>
 
-#include "covey/atomic_file.hpp"
-#include "covey/dag.hpp"
-#include "covey/error.hpp"
-#include "covey/random.hpp"
+#include "covey/core/atomic_file.hpp"
+#include "covey/core/error.hpp"
+#include "covey/core/random.hpp"
+#include "covey/graph/dag.hpp"
 #include "image_check.hpp"
 #include "test_util.hpp"
 

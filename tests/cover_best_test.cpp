@@ -1,4 +1,5 @@
-// The best DAG of D_k (DESIGN.md section 4) against full enumeration of all DAGs (n = 4, 5).
+// The best DAG of D_k (docs/mathematics.md section 3) against full enumeration of all DAGs (n = 4,
+// 5).
 #include <gtest/gtest.h>
 #include <tbb/global_control.h>
 
@@ -6,9 +7,9 @@
 #include <cmath>
 
 #include "cover_test_util.hpp"
-#include "covey/cover_best.hpp"
-#include "covey/cover_class.hpp"
-#include "covey/error.hpp"
+#include "covey/core/error.hpp"
+#include "covey/exact/cover_best.hpp"
+#include "covey/graph/cover_class.hpp"
 
 namespace covey {
 namespace {

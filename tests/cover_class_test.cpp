@@ -1,5 +1,5 @@
-// The cover-bounded class (DESIGN.md section 3) against brute force: moral graphs from the
-// definition, minimum vertex covers and splits by trying every vertex subset, for all DAGs on
+// The cover-bounded class (docs/mathematics.md section 2) against brute force: moral graphs from
+// the definition, minimum vertex covers and splits by trying every vertex subset, for all DAGs on
 // n = 5 (enumeration), and the split bound m(G) <= 2^k on all DAGs with n <= 6.
 #include <gtest/gtest.h>
 
@@ -9,9 +9,9 @@
 #include <utility>
 #include <vector>
 
-#include "covey/cover_class.hpp"
-#include "covey/enumerate.hpp"
-#include "covey/random.hpp"
+#include "covey/core/random.hpp"
+#include "covey/graph/cover_class.hpp"
+#include "covey/graph/enumerate.hpp"
 
 namespace covey {
 namespace {
@@ -73,7 +73,7 @@ TEST(CoverClass, AgreesWithBruteForceOnAllDagsWithFiveNodes) {
           expected.push_back(c);
       const auto got = splits(g, k);
       ASSERT_EQ(got, expected);
-      // DESIGN.md section 3: every DAG of D_k has at least one split.
+      // docs/mathematics.md section 2: every DAG of D_k has at least one split.
       if (min_cover <= k) {
         ASSERT_FALSE(got.empty());
       }

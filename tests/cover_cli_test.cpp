@@ -8,11 +8,11 @@
 #include <set>
 
 #include "cover_test_util.hpp"
-#include "covey/cover_best.hpp"
-#include "covey/cover_draws.hpp"
-#include "covey/draws_file.hpp"
-#include "covey/error.hpp"
-#include "covey/score_io.hpp"
+#include "covey/core/error.hpp"
+#include "covey/exact/cover_best.hpp"
+#include "covey/exact/cover_draws.hpp"
+#include "covey/graph/draws_file.hpp"
+#include "covey/scores/score_io.hpp"
 
 namespace covey {
 namespace {

@@ -1,4 +1,4 @@
-// The exact sampler on D_k (DESIGN.md section 5) against full enumeration of all DAGs
+// The exact sampler on D_k (docs/mathematics.md section 4) against full enumeration of all DAGs
 // (n = 4, 5; k = 1, 2, 3; fixed seeds): U, per-cover-set weights, the signed formula, the
 // Z_k estimate, chi-square tests of the draws (and of a broken sampler, which must fail),
 // Robinson's DAG counts (OEIS A003024), thread-count invariance and save/load.
@@ -10,11 +10,11 @@
 #include <cmath>
 
 #include "cover_test_util.hpp"
-#include "covey/cover_class.hpp"
-#include "covey/cover_draws.hpp"
-#include "covey/cover_sampler.hpp"
-#include "covey/error.hpp"
-#include "covey/logmath.hpp"
+#include "covey/core/error.hpp"
+#include "covey/core/logmath.hpp"
+#include "covey/exact/cover_draws.hpp"
+#include "covey/exact/cover_sampler.hpp"
+#include "covey/graph/cover_class.hpp"
 
 namespace covey {
 namespace {
@@ -95,8 +95,8 @@ TEST(CoverSampler, UpperBoundAndCoverWeightsMatchEnumeration) {
 }
 
 TEST(CoverSampler, SignedSplitFormulaMatchesEnumerationAndPositiveEngine) {
-  // DESIGN.md's signed inclusion-exclusion for each split (C, L), against enumeration and
-  // summed over L against the positive engine's cover-set weight.
+  // the signed inclusion-exclusion of docs/mathematics.md section 4 for each split (C, L), against
+  // enumeration and summed over L against the positive engine's cover-set weight.
   for (auto& c : cases(5)) {
     const Enumeration e = cover_testing::enumerate_all(c.table);
     for (int k = 1; k <= 2; ++k) {

@@ -9,9 +9,9 @@
 #include <utility>
 #include <vector>
 
-#include "covey/enumerate.hpp"
-#include "covey/random.hpp"
-#include "covey/score_table.hpp"
+#include "covey/core/random.hpp"
+#include "covey/graph/enumerate.hpp"
+#include "covey/scores/score_table.hpp"
 #include "test_util.hpp"
 
 namespace covey::cover_testing {

@@ -6,8 +6,8 @@
 #include <fstream>
 #include <string>
 
-#include "covey/data.hpp"
-#include "covey/error.hpp"
+#include "covey/core/error.hpp"
+#include "covey/data/data.hpp"
 #include "test_util.hpp"
 
 namespace covey {

@@ -7,10 +7,10 @@
 
 #include <nlohmann/json.hpp>
 
-#include "covey/chain_run_file.hpp"
-#include "covey/cover_sampler.hpp"
-#include "covey/random.hpp"
-#include "covey/score_io.hpp"
+#include "covey/chains/chain_run_file.hpp"
+#include "covey/core/random.hpp"
+#include "covey/exact/cover_sampler.hpp"
+#include "covey/scores/score_io.hpp"
 #include "test_util.hpp"
 
 namespace covey {

@@ -16,10 +16,10 @@
 #include <string>
 #include <vector>
 
-#include "covey/diagnostics.hpp"
-#include "covey/draws_csv.hpp"
-#include "covey/error.hpp"
-#include "covey/random.hpp"
+#include "covey/core/error.hpp"
+#include "covey/core/random.hpp"
+#include "covey/diagnostics/diagnostics.hpp"
+#include "covey/diagnostics/draws_csv.hpp"
 #include "test_util.hpp"
 
 namespace covey {

@@ -4,7 +4,7 @@
 
 #include <set>
 
-#include "covey/enumerate.hpp"
+#include "covey/graph/enumerate.hpp"
 #include "test_util.hpp"
 
 namespace covey {
@@ -45,8 +45,9 @@ TEST(Enumerate, TableVersionGivesWeights) {
     EXPECT_DOUBLE_EQ(lw, log_weight(t, d));
   });
   std::uint64_t direct = 0;
-  for_each_dag(4, [](int, std::uint64_t s) { return __builtin_popcountll(s) <= 2; },
-               [&](const Dag&) { ++direct; });
+  for_each_dag(
+      4, [](int, std::uint64_t s) { return __builtin_popcountll(s) <= 2; },
+      [&](const Dag&) { ++direct; });
   EXPECT_EQ(visited, direct);
 }
 

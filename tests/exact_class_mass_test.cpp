@@ -1,5 +1,5 @@
-// The posterior mass of a class of DAGs (DESIGN section 9), exact by enumeration or estimated
-// from exact draws with the Wilson interval; the interval itself against R's prop.test.
+// The posterior mass of a class of DAGs (docs/mathematics.md section 7), exact by enumeration or
+// estimated from exact draws with the Wilson interval; the interval itself against R's prop.test.
 #include <gtest/gtest.h>
 
 #include <bit>
@@ -7,12 +7,12 @@
 #include <fstream>
 #include <sstream>
 
-#include "covey/cover_class.hpp"
-#include "covey/cover_draws.hpp"
-#include "covey/cover_sampler.hpp"
-#include "covey/error.hpp"
-#include "covey/exact_posterior.hpp"
-#include "covey/proportion.hpp"
+#include "covey/core/error.hpp"
+#include "covey/core/proportion.hpp"
+#include "covey/exact/cover_draws.hpp"
+#include "covey/exact/cover_sampler.hpp"
+#include "covey/exact/exact_posterior.hpp"
+#include "covey/graph/cover_class.hpp"
 #include "exact_test_util.hpp"
 #include "test_util.hpp"
 
@@ -85,10 +85,10 @@ TEST(ClassMass, EnumerationAndDrawsAgreeWithDirectSums) {
 TEST(ClassMass, CoverMassTimesTotalAgreesWithTheCoverEngineAtEightVariables) {
   // Two independent routes to log Z_2 at n = 8 (beyond enumeration of every DAG): the exact
   // all-DAG engine's log Z plus the log of D_2's mass estimated from its exact draws (Wilson
-  // interval), and the cover-bounded engine's U * accepted / trials (DESIGN section 5). A factor
-  // lost on either route (say the 2^k of the split multiplicity) would put them far apart.
-  // Random scores with an extra 1.5 nats per parent, so that sparse DAGs (most of them in D_2)
-  // carry a real share of the posterior.
+  // interval), and the cover-bounded engine's U * accepted / trials (docs/mathematics.md section
+  // 4). A factor lost on either route (say the 2^k of the split multiplicity) would put them far
+  // apart. Random scores with an extra 1.5 nats per parent, so that sparse DAGs (most of them in
+  // D_2) carry a real share of the posterior.
   const ScoreTable base = random_full_table(8, 3, 1200);
   std::vector<NodeScores> nodes(8);
   for (int v = 0; v < 8; ++v) {

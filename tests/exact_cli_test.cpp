@@ -4,9 +4,9 @@
 
 #include <nlohmann/json.hpp>
 
-#include "covey/draws_file.hpp"
-#include "covey/exact_posterior.hpp"
-#include "covey/score_io.hpp"
+#include "covey/exact/exact_posterior.hpp"
+#include "covey/graph/draws_file.hpp"
+#include "covey/scores/score_io.hpp"
 #include "exact_test_util.hpp"
 #include "test_util.hpp"
 

@@ -1,15 +1,15 @@
 // The exact engine over all DAGs, checked against outside standards: Robinson's DAG counts
 // (Robinson 1973; OEIS A003024), Robinson's recurrence in exact integer arithmetic, and brute-force
 // enumeration of every DAG (for_each_dag, itself checked against OEIS A003024).
-#include "covey/exact_posterior.hpp"
+#include "covey/exact/exact_posterior.hpp"
 
 #include <gtest/gtest.h>
 #include <tbb/global_control.h>
 
 #include <cmath>
 
-#include "covey/error.hpp"
-#include "covey/random.hpp"
+#include "covey/core/error.hpp"
+#include "covey/core/random.hpp"
 #include "exact_test_util.hpp"
 #include "test_util.hpp"
 

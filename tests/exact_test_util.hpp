@@ -7,10 +7,10 @@
 #include <map>
 #include <vector>
 
-#include "covey/dag.hpp"
-#include "covey/enumerate.hpp"
-#include "covey/logmath.hpp"
-#include "covey/score_table.hpp"
+#include "covey/core/logmath.hpp"
+#include "covey/graph/dag.hpp"
+#include "covey/graph/enumerate.hpp"
+#include "covey/scores/score_table.hpp"
 
 namespace covey::exact_testing {
 

@@ -1,13 +1,13 @@
 // The plotting layer: PNGs read back with cairo (size, not blank, the expected colours where
 // the data put them), SVGs parsed by Python's xml.etree (well-formed, holding their labels).
-#include "covey/plot.hpp"
+#include "covey/report/plot.hpp"
 
 #include <gtest/gtest.h>
 
 #include <cmath>
 #include <filesystem>
 
-#include "covey/error.hpp"
+#include "covey/core/error.hpp"
 #include "image_check.hpp"
 #include "test_util.hpp"
 

@@ -9,13 +9,13 @@
 #include <map>
 #include <sstream>
 
-#include "covey/chain_run_file.hpp"
-#include "covey/cover_class.hpp"
-#include "covey/dag.hpp"
-#include "covey/diagnostics.hpp"
-#include "covey/enumerate.hpp"
-#include "covey/logmath.hpp"
-#include "covey/score_io.hpp"
+#include "covey/chains/chain_run_file.hpp"
+#include "covey/core/logmath.hpp"
+#include "covey/diagnostics/diagnostics.hpp"
+#include "covey/graph/cover_class.hpp"
+#include "covey/graph/dag.hpp"
+#include "covey/graph/enumerate.hpp"
+#include "covey/scores/score_io.hpp"
 #include "test_util.hpp"
 
 namespace covey {
@@ -344,7 +344,7 @@ TEST(Compare, CoverDrawsAgainstExactTableGivesLogZOverAllDags) {
 }
 
 // The chain's mass of D_2 with the cover draws' log Z_2: log Z over all DAGs by the delta
-// method (DESIGN section 9), its interval covering the enumerated value.
+// method (docs/mathematics.md section 7), its interval covering the enumerated value.
 TEST(Compare, ChainRunAgainstCoverDrawsEstimatesLogZ) {
   const Fixture& fx = fixture();
   const Enumerated e = enumerate_table(fx.table, fx.k);

@@ -10,8 +10,8 @@
 #include <string>
 #include <vector>
 
-#include "covey/random.hpp"
-#include "covey/report.hpp"
+#include "covey/core/random.hpp"
+#include "covey/report/report.hpp"
 
 namespace covey::testing_util {
 

@@ -2,7 +2,7 @@
 // report folder (every reference resolves, parsed by Python's html.parser; written atomically;
 // the caution present), and a real browser (headless Chromium) loading every image and
 // rendering a page that is not blank.
-#include "covey/report.hpp"
+#include "covey/report/report.hpp"
 
 #include <gtest/gtest.h>
 
@@ -10,8 +10,8 @@
 #include <fstream>
 #include <set>
 
-#include "covey/atomic_file.hpp"
-#include "covey/error.hpp"
+#include "covey/core/atomic_file.hpp"
+#include "covey/core/error.hpp"
 #include "image_check.hpp"
 #include "report_fixture.hpp"
 #include "test_util.hpp"

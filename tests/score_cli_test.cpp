@@ -5,9 +5,9 @@
 
 #include <filesystem>
 
-#include "covey/data.hpp"
-#include "covey/score_io.hpp"
-#include "covey/scores.hpp"
+#include "covey/data/data.hpp"
+#include "covey/scores/score_io.hpp"
+#include "covey/scores/scores.hpp"
 #include "test_util.hpp"
 
 namespace covey {

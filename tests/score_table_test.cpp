@@ -5,9 +5,9 @@
 #include <filesystem>
 #include <fstream>
 
-#include "covey/error.hpp"
-#include "covey/score_io.hpp"
-#include "covey/score_table.hpp"
+#include "covey/core/error.hpp"
+#include "covey/scores/score_io.hpp"
+#include "covey/scores/score_table.hpp"
 #include "test_util.hpp"
 
 namespace covey {
@@ -29,7 +29,8 @@ TEST(ScoreTable, LookupAndCanonicalOrder) {
 }
 
 TEST(ScoreTable, RejectsDuplicatesAndNonFinite) {
-  std::vector<Variable> vars{{"a", VariableKind::kDiscrete, {}}, {"b", VariableKind::kDiscrete, {}}};
+  std::vector<Variable> vars{{"a", VariableKind::kDiscrete, {}},
+                             {"b", VariableKind::kDiscrete, {}}};
   std::vector<NodeScores> nodes(2);
   nodes[0] = {{1}, {0, 1, 1}, {0.0, 1.0, 2.0}};
   nodes[1] = {{0}, {0}, {0.0}};

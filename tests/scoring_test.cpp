@@ -10,10 +10,10 @@
 #include <cstdlib>
 #include <cstring>
 
-#include "covey/edge_constraints.hpp"
-#include "covey/error.hpp"
-#include "covey/memory.hpp"
-#include "covey/scores.hpp"
+#include "covey/core/error.hpp"
+#include "covey/core/memory.hpp"
+#include "covey/data/edge_constraints.hpp"
+#include "covey/scores/scores.hpp"
 #include "test_util.hpp"
 
 namespace covey {

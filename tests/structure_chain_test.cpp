@@ -11,8 +11,8 @@
 #include <string>
 
 #include "chain_oracles.hpp"
-#include "covey/error.hpp"
-#include "covey/structure_chain.hpp"
+#include "covey/chains/structure_chain.hpp"
+#include "covey/core/error.hpp"
 #include "test_util.hpp"
 
 namespace covey {

@@ -12,7 +12,7 @@
 #include <fstream>
 #include <sstream>
 
-#include "covey/random.hpp"
+#include "covey/core/random.hpp"
 
 namespace covey::testing_util {
 

@@ -6,9 +6,9 @@
 
 #include <nlohmann/json.hpp>
 
-#include "covey/dag.hpp"
-#include "covey/data.hpp"
-#include "covey/score_table.hpp"
+#include "covey/data/data.hpp"
+#include "covey/graph/dag.hpp"
+#include "covey/scores/score_table.hpp"
 
 namespace covey::testing_util {
 
@@ -25,7 +25,7 @@ class TempDir {
 };
 
 // A table over n variables holding every parent set of size <= max_indegree, with log scores
-// drawn as Normal(0, 1.2) - 0.5*|S| from a fixed seed (the shape of DESIGN's reference model).
+// drawn as Normal(0, 1.2) - 0.5*|S| from a fixed seed (a common shape for sparse local scores).
 ScoreTable random_full_table(int n, int max_indegree, std::uint64_t seed);
 // A table holding every parent set with log score 0 (all DAG weights 1: counts DAGs).
 ScoreTable unit_table(int n, int max_indegree);

@@ -5,9 +5,9 @@
 
 #include "command.hpp"
 #include "common.hpp"
-#include "covey/atomic_file.hpp"
-#include "covey/cover_best.hpp"
-#include "covey/score_io.hpp"
+#include "covey/core/atomic_file.hpp"
+#include "covey/exact/cover_best.hpp"
+#include "covey/scores/score_io.hpp"
 
 namespace covey::cli {
 namespace {

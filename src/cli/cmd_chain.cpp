@@ -8,11 +8,11 @@
 
 #include "command.hpp"
 #include "common.hpp"
-#include "covey/chain_runner.hpp"
-#include "covey/chain_support.hpp"
-#include "covey/error.hpp"
-#include "covey/mpi_context.hpp"
-#include "covey/score_io.hpp"
+#include "core/mpi_context.hpp"
+#include "covey/chains/chain_runner.hpp"
+#include "covey/chains/chain_support.hpp"
+#include "covey/core/error.hpp"
+#include "covey/scores/score_io.hpp"
 
 namespace covey::cli {
 namespace {

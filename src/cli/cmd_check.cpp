@@ -11,12 +11,12 @@
 
 #include "command.hpp"
 #include "common.hpp"
-#include "covey/diagnostics.hpp"
-#include "covey/draws_csv.hpp"
-#include "covey/error.hpp"
-#include "covey/progress.hpp"
-#include "covey/report.hpp"
-#include "covey/run_diagnostics.hpp"
+#include "core/progress.hpp"
+#include "covey/analysis/run_diagnostics.hpp"
+#include "covey/core/error.hpp"
+#include "covey/diagnostics/diagnostics.hpp"
+#include "covey/diagnostics/draws_csv.hpp"
+#include "covey/report/report.hpp"
 
 namespace covey::cli {
 namespace {

@@ -7,9 +7,9 @@
 
 #include "command.hpp"
 #include "common.hpp"
-#include "covey/error.hpp"
-#include "covey/posterior_compare.hpp"
-#include "covey/report.hpp"
+#include "covey/analysis/posterior_compare.hpp"
+#include "covey/core/error.hpp"
+#include "covey/report/report.hpp"
 
 namespace covey::cli {
 namespace {

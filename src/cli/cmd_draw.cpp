@@ -6,13 +6,13 @@
 
 #include "command.hpp"
 #include "common.hpp"
-#include "covey/atomic_file.hpp"
-#include "covey/cover_draws.hpp"
-#include "covey/cover_sampler.hpp"
-#include "covey/error.hpp"
-#include "covey/memory.hpp"
-#include "covey/score_io.hpp"
-#include "covey/version.hpp"
+#include "covey/core/atomic_file.hpp"
+#include "covey/core/error.hpp"
+#include "covey/core/memory.hpp"
+#include "covey/core/version.hpp"
+#include "covey/exact/cover_draws.hpp"
+#include "covey/exact/cover_sampler.hpp"
+#include "covey/scores/score_io.hpp"
 
 namespace covey::cli {
 namespace {

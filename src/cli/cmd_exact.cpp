@@ -8,12 +8,12 @@
 
 #include "command.hpp"
 #include "common.hpp"
-#include "covey/draws_file.hpp"
-#include "covey/error.hpp"
-#include "covey/exact_posterior.hpp"
-#include "covey/memory.hpp"
-#include "covey/score_io.hpp"
-#include "covey/version.hpp"
+#include "covey/core/error.hpp"
+#include "covey/core/memory.hpp"
+#include "covey/core/version.hpp"
+#include "covey/exact/exact_posterior.hpp"
+#include "covey/graph/draws_file.hpp"
+#include "covey/scores/score_io.hpp"
 
 namespace covey::cli {
 namespace {

@@ -6,12 +6,13 @@
 
 #include "command.hpp"
 #include "common.hpp"
-#include "covey/atomic_file.hpp"
-#include "covey/error.hpp"
-#include "covey/posterior_compare.hpp"
-#include "covey/progress.hpp"
-#include "covey/report.hpp"
-#include "covey/run_diagnostics.hpp"
+#include "core/progress.hpp"
+#include "covey/analysis/posterior_compare.hpp"
+#include "covey/analysis/run_diagnostics.hpp"
+#include "covey/core/atomic_file.hpp"
+#include "covey/core/error.hpp"
+#include "covey/report/report.hpp"
+#include "covey/report/run_report.hpp"
 
 namespace covey::cli {
 namespace {

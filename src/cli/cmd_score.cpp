@@ -4,13 +4,13 @@
 
 #include "command.hpp"
 #include "common.hpp"
-#include "covey/atomic_file.hpp"
-#include "covey/data.hpp"
-#include "covey/error.hpp"
-#include "covey/memory.hpp"
-#include "covey/progress.hpp"
-#include "covey/score_io.hpp"
-#include "covey/scores.hpp"
+#include "core/progress.hpp"
+#include "covey/core/atomic_file.hpp"
+#include "covey/core/error.hpp"
+#include "covey/core/memory.hpp"
+#include "covey/data/data.hpp"
+#include "covey/scores/score_io.hpp"
+#include "covey/scores/scores.hpp"
 
 namespace covey::cli {
 namespace {

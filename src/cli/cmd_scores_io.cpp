@@ -4,7 +4,7 @@
 
 #include "command.hpp"
 #include "common.hpp"
-#include "covey/score_io.hpp"
+#include "covey/scores/score_io.hpp"
 
 namespace covey::cli {
 namespace {

@@ -5,7 +5,7 @@
 #include <iostream>
 #include <thread>
 
-#include "covey/memory.hpp"
+#include "covey/core/memory.hpp"
 
 namespace covey::cli {
 

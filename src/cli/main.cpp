@@ -6,8 +6,8 @@
 
 #include "command.hpp"
 #include "common.hpp"
-#include "covey/error.hpp"
-#include "covey/version.hpp"
+#include "covey/core/error.hpp"
+#include "covey/core/version.hpp"
 
 int main(int argc, char** argv) {
   covey::cli::set_command_line(argc, argv);

@@ -1,6 +1,6 @@
 // libFuzzer target: the chain-run reader (ChainRun::open, every per-chain series and the
 // features), on edited run files (fuzz_h5_edit.hpp).
-#include "covey/chain_run_file.hpp"
+#include "covey/chains/chain_run_file.hpp"
 #include "fuzz_h5_edit.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {

@@ -4,8 +4,8 @@
 #include <cstdint>
 #include <string>
 
-#include "covey/data.hpp"
-#include "covey/error.hpp"
+#include "covey/core/error.hpp"
+#include "covey/data/data.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {
   if (size == 0) return 0;

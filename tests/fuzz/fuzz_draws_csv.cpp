@@ -1,5 +1,5 @@
 // libFuzzer target: the draws CSV reader of `covey check --draws` (read_draws_csv).
-#include "covey/draws_csv.hpp"
+#include "covey/diagnostics/draws_csv.hpp"
 #include "fuzz_util.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {

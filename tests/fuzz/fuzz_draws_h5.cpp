@@ -1,7 +1,7 @@
 // libFuzzer target: the two HDF5 draws readers (read_draws, the common draws layout, and
 // read_cover_draws, the files of `covey draw`), on edited draws files (fuzz_h5_edit.hpp).
-#include "covey/cover_draws.hpp"
-#include "covey/draws_file.hpp"
+#include "covey/exact/cover_draws.hpp"
+#include "covey/graph/draws_file.hpp"
 #include "fuzz_h5_edit.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {

@@ -21,7 +21,7 @@
 #include <string>
 #include <vector>
 
-#include "covey/h5.hpp"
+#include "core/h5.hpp"
 #include "fuzz_util.hpp"
 
 #ifndef COVEY_FUZZ_H5_BASES

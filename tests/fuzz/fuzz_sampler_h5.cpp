@@ -5,9 +5,9 @@
 // proposals.
 #include <cstdlib>
 
-#include "covey/cover_sampler.hpp"
-#include "covey/random.hpp"
-#include "covey/score_io.hpp"
+#include "covey/core/random.hpp"
+#include "covey/exact/cover_sampler.hpp"
+#include "covey/scores/score_io.hpp"
 #include "fuzz_h5_edit.hpp"
 
 #ifndef COVEY_FUZZ_SAMPLER_TABLE

@@ -1,6 +1,6 @@
 // libFuzzer target: the HDF5 score-table reader (read_scores_hdf5), on edited score files
 // (fuzz_h5_edit.hpp).
-#include "covey/score_io.hpp"
+#include "covey/scores/score_io.hpp"
 #include "fuzz_h5_edit.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {

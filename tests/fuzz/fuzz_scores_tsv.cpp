@@ -1,5 +1,5 @@
 // libFuzzer target: the TSV local-score reader (read_scores_tsv).
-#include "covey/score_io.hpp"
+#include "covey/scores/score_io.hpp"
 #include "fuzz_util.hpp"
 
 extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size) {

@@ -11,7 +11,7 @@
 #include <cstdlib>
 #include <string>
 
-#include "covey/error.hpp"
+#include "covey/core/error.hpp"
 
 namespace covey::fuzz {
 

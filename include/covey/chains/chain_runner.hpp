@@ -1,0 +1,111 @@
+#pragma once
+// Running structure chains for a long time (docs/mathematics.md section 6): C chains in parallel
+// under TBB, each with its own random stream make_stream(seed, chain), thinned DAGs and log scores
+// written to one HDF5 run file (include/covey/chains/chain_run_file.hpp), checkpoints every few
+// minutes, resume that continues bit for bit, and stopping by steps, wall time or convergence.
+//
+// Determinism: a chain's trajectory depends only on its stream and its step count, never on the
+// thread count, on when checkpoints happen, or on whether the run was stopped and resumed: the
+// same seed gives identical draws with 1 or 8 threads, and N steps + resume to 2N equals 2N
+// steps straight.
+#include <atomic>
+#include <cmath>
+#include <cstdint>
+#include <functional>
+#include <nlohmann/json.hpp>
+#include <string>
+#include <vector>
+
+#include "covey/chains/chain_run_file.hpp"
+#include "covey/chains/structure_chain.hpp"
+#include "covey/scores/score_table.hpp"
+
+namespace covey {
+
+struct ChainRunOptions {
+  // Fixed at creation (stored in the file; a resume must not change them).
+  int chains = 4;
+  std::uint64_t thin = 1000;  // keep the state after every thin-th step
+  std::uint64_t burn_in = 0;  // keep only steps > burn_in
+  std::uint64_t seed = 1;
+  double rev_rate = 1.0 / 15;   // REV probability per step
+  double teleport_rate = 0;     // teleport probability per step
+  int teleport_cover = -1;      // k of the teleport sampler (also used by start "exact"); -1 none
+  int cover_limit = -1;         // k' of a target restricted to D_k'; -1 none
+  std::string start = "empty";  // "empty", "exact" or a DAG file of `from<TAB>to` edges
+  // Stopping and checkpointing (may be given anew on resume).
+  std::uint64_t steps = 0;                 // total steps per chain; 0: no step limit
+  double max_seconds = 0;                  // wall time of this session; 0: no limit
+  double until_rhat = 0;                   // stop when every edge feature has R-hat < this ...
+  double until_ess = 0;                    // ... and bulk and tail ESS > this (0: rule off)
+  double checkpoint_every = 300;           // seconds between checkpoints
+  unsigned drop_hastings_for_testing = 0;  // see ChainConfig (never set by the CLI)
+
+  bool until_enabled() const { return until_rhat > 0 || until_ess > 0; }
+  // The options fixed at creation, as stored in the run file.
+  nlohmann::json fixed_to_json() const;
+  // Reads the fixed options of a run file into *this (leaving the stopping options).
+  void fixed_from_json(const nlohmann::json& stored, const std::string& path);
+};
+
+// Result of a convergence check over a run file's draws.
+struct ConvergenceStatus {
+  bool converged = false;
+  double max_rhat = NAN;  // over the assessed features
+  double min_ess = NAN;   // smallest bulk or tail ESS
+  std::size_t features = 0, failing = 0, undefined = 0;
+  nlohmann::json to_json() const;
+};
+// Judges the draws of all chains (over MPI: of every rank's chains, read by rank 0).
+using ConvergenceCheck =
+    std::function<ConvergenceStatus(const RunFeatures& run, double max_rhat, double min_ess)>;
+
+struct ChainRunHooks {
+  const TeleportSource* teleport = nullptr;       // exact D_k sampler: teleports and start "exact"
+  const DagClass* restriction = nullptr;          // D_k' for cover_limit
+  ConvergenceCheck convergence;                   // for until_rhat / until_ess
+  const std::atomic<int>* stop_signal = nullptr;  // nonzero: checkpoint now and stop
+  bool progress = true;  // a progress line, shown only when stderr is a terminal
+  std::string command_line;
+};
+
+struct ChainRunSummary {
+  std::string path;
+  int chains = 0;
+  std::uint64_t steps = 0;          // per chain, whole run
+  std::uint64_t session_steps = 0;  // per chain, this session
+  std::uint64_t draws = 0;          // thinned draws per chain
+  std::size_t checkpoints = 0;
+  double seconds = 0;                        // this session's wall time
+  double checkpoint_seconds = 0;             // of which writing checkpoints
+  std::uint64_t session_proposals = 0;       // all chains, this session
+  MoveCounts counts;                         // all chains, whole run
+  std::vector<std::uint64_t> regenerations;  // per chain, whole run
+  std::string stop_reason;                   // "steps", "max-time", "converged", "signal"
+  int stop_signal = 0;
+  bool convergence_checked = false;
+  ConvergenceStatus convergence;
+  nlohmann::json to_json() const;
+};
+
+// Creates `path` (or, with resume, continues the run in it) and runs until a stopping rule
+// holds. Throws InputError for inconsistent options (naming the option).
+//
+// Under MPI with P > 1 ranks (src/core/mpi_context.hpp, docs/cluster.md) every rank calls
+// this with the same arguments: rank r runs a block of the chains (still with the streams
+// make_stream(seed, global chain)) and writes them to its member file (RUN.rank<r>.h5 beside
+// `path`), rank 0 writes the manifest at `path`; stopping decisions (steps, time, signals,
+// convergence) and checkpoints are collective, so every member ends at the same step. The
+// summary describes the whole run on every rank.
+ChainRunSummary run_chains(const ScoreTable& table, const std::string& path,
+                           const ChainRunOptions& options, const ChainRunHooks& hooks, bool resume);
+
+// Parses a duration: a number with an optional unit s, m, h or d ("90s", "10m", "2h", "1.5h",
+// "45" = seconds). Throws InputError naming `option`.
+double parse_duration(const std::string& text, const std::string& option);
+
+// Reads a start DAG: one edge `from<TAB>to` per line with variable names ('#' lines and blank
+// lines ignored; the edge-file format of docs/file-formats.md), as global parent words.
+std::vector<std::uint64_t> read_start_dag(const std::string& path, const ScoreTable& table);
+
+}  // namespace covey

@@ -1,0 +1,188 @@
+#pragma once
+// One Markov chain over DAGs (docs/mathematics.md section 6). Target: w(G) = prod_v f_v(G_v) over
+// the DAGs whose parent sets are all in the score table, optionally restricted to a class of DAGs
+// (the cover-bounded class D_k' of `--cover-limit`). Each step is one of three kernels, chosen with
+// fixed probabilities so that each kernel satisfies detailed balance on its own:
+//
+//  * local move (probability 1 - rev_rate - teleport_rate): draw an ordered candidate pair (u, v)
+//    (u a candidate parent of v) uniformly and a fair coin. If u -> v is absent, propose adding
+//    it; if present, propose deleting it (heads) or reversing it (tails). Proposal probabilities:
+//    add 1/|P|, delete 1/(2|P|), reverse 1/(2|P|), so the Hastings factors are 1/2 for an add,
+//    2 for a delete and 1 for a reversal. Cycles, parent sets missing from the table and DAGs
+//    outside the class are rejections.
+//  * REV (rev_rate): the edge reversal with parent resampling of Grzegorczyk & Husmeier (2008),
+//    with their acceptance ratio N(G)/N(G') * Z*(i|G0,j) Z(j|G+) / (Z*(j|G0,i) Z(i|G'+)); see
+//    rev_move() in chains/structure_chain.cpp for the derivation used here.
+//  * teleport (teleport_rate): an independence proposal from an exact sampler of w restricted
+//    to a class D_k (the cover-bounded sampler). With proposal weights equal to w, the
+//    Metropolis-Hastings ratio w(G') w(G) 1[G in D_k] / (w(G) w(G')) is 1[G in D_k]: the teleport
+//    is accepted exactly when the current DAG lies in D_k, and the new state is then independent
+//    of the past (a regeneration point).
+//
+// Acyclicity is checked with maintained ancestor bitsets (n bits per node, as 64-bit words), so
+// an add costs one bit test, a reversal one bit test per parent; accepted moves update the
+// ancestor sets of the affected descendants only. Parent sets are local masks over each node's
+// candidate list, so score lookups are O(1) (ScoreTable::find). Nothing is allocated in the
+// local-move and REV paths (teleports and class tests use the cover module, which may).
+#include <array>
+#include <cstdint>
+#include <span>
+#include <string>
+#include <vector>
+
+#include "covey/core/random.hpp"
+#include "covey/graph/dag.hpp"
+#include "covey/scores/score_table.hpp"
+
+namespace covey {
+
+enum class Move : int { kAdd = 0, kDelete = 1, kReverse = 2, kRev = 3, kTeleport = 4 };
+inline constexpr int kNumMoves = 5;
+// "add", "delete", "reverse", "rev", "teleport" (the names used in files and JSON).
+const char* move_name(Move move);
+inline const char* move_name(int move) {
+  return move_name(static_cast<Move>(move));
+}
+
+struct MoveCounts {
+  std::array<std::uint64_t, kNumMoves> proposed{};
+  std::array<std::uint64_t, kNumMoves> accepted{};
+  std::uint64_t total_proposed() const;
+  MoveCounts& operator+=(const MoveCounts& other);
+  bool operator==(const MoveCounts&) const = default;
+};
+
+// A class of DAGs (n <= 64) that a chain may be restricted to, or that a teleport samples from.
+class DagClass {
+ public:
+  virtual ~DagClass() = default;
+  virtual bool contains(const Dag& dag) const = 0;
+};
+
+// Exact independent draws from w restricted to a class (the teleport proposal).
+class TeleportSource {
+ public:
+  virtual ~TeleportSource() = default;
+  // The class the draws come from (membership of the current state decides acceptance).
+  virtual const DagClass& support() const = 0;
+  virtual Dag draw(Rng& rng) const = 0;
+};
+
+struct ChainConfig {
+  double rev_rate = 0.0;       // probability of a REV step
+  double teleport_rate = 0.0;  // probability of a teleport step (needs `teleport`)
+  const TeleportSource* teleport = nullptr;
+  const DagClass* restriction = nullptr;  // target restricted to this class (n <= 64), or none
+  // Test-only hook: bit m set makes move m accept with the bare weight ratio min(1, w(G')/w(G)),
+  // dropping its Hastings factor (for teleports also the 1[G in D_k] factor). The chain then
+  // targets the wrong distribution; the tests use it to show that their checks can fail.
+  unsigned drop_hastings_for_testing = 0;
+};
+
+class StructureChain {
+ public:
+  // The chain starts at the empty graph when the table allows it (else call set_parents()).
+  StructureChain(const ScoreTable& table, const ChainConfig& config);
+
+  int num_variables() const { return n_; }
+  int words_per_node() const { return words_; }  // ceil(n / 64)
+
+  // Sets the state from global parent bitsets: words_per_node() words per node, node-major
+  // (bit u of node v's words: edge u -> v). Throws InputError naming `what` when the graph has a
+  // cycle, a parent set is not in the table, or it lies outside the restriction class.
+  void set_parents(std::span<const std::uint64_t> words, const std::string& what = "start DAG");
+  void set_dag(const Dag& dag, const std::string& what = "start DAG");  // n <= 64
+  // Whether the table allows the empty graph (every node may have no parents).
+  bool empty_graph_allowed() const;
+
+  // One transition of the chain. Returns true when a teleport regenerated the chain.
+  bool step(Rng& rng);
+
+  // log w(G), summed node by node in index order from the table's values (so it is identical
+  // after a checkpoint restore).
+  double log_score() const;
+  void write_parents(std::uint64_t* out) const;  // n * words_per_node() words
+  std::vector<std::uint64_t> parents_words() const;
+  Dag dag() const;  // n <= 64
+  bool has_edge(int from, int to) const;
+  std::uint64_t num_edges() const { return num_edges_; }
+
+  const MoveCounts& counts() const { return counts_; }
+  void set_counts(const MoveCounts& counts) { counts_ = counts; }
+
+  // Recomputes ancestors, scores and edge count from scratch and compares (for tests).
+  bool check_invariants() const;
+
+ private:
+  struct Pair {
+    std::int32_t from, to;
+    std::int8_t pos_in_to;    // position of `from` in to's candidate list
+    std::int8_t pos_in_from;  // position of `to` in from's candidate list, or -1
+  };
+  // A sum of f_v(S) over the allowed sets S of v with all `required` bits and no `forbidden`
+  // bit, as total * exp(shift).
+  struct MaskedSum {
+    long double total = 0;
+    double shift = 0;
+    bool exact = false;  // weights exp(s - shift) computed on the fly (tiny sums)
+    double log() const;
+  };
+
+  void local_move(Rng& rng);
+  void propose_add(Rng& rng, int u, int v, ParentMask bit);
+  void propose_delete(Rng& rng, int u, int v, ParentMask bit);
+  void propose_reverse(Rng& rng, const Pair& pair, ParentMask bit);
+  void rev_move(Rng& rng);
+  bool teleport(Rng& rng);
+  bool dropped(Move move) const { return (config_.drop_hastings_for_testing >> int(move)) & 1U; }
+  bool in_restriction(const Dag& dag) const;
+
+  void load_state(const std::vector<ParentMask>& local, const std::string& what);
+  // Moves to an accepted teleport draw without load_state's validation and allocations.
+  void load_teleport_draw(const Dag& next);
+  void rebuild_ancestors();
+  // Ancestor sets of `root` and all its (current) descendants, recomputed from the parent masks.
+  void recompute_ancestors_below(int root);
+  // Post-order over the marked nodes (mark_ == 1): visit(x) after all of x's marked parents.
+  template <class Visit>
+  void visit_marked_parents_first(int count, Visit&& visit);
+  // Marks root and its descendants (per the ancestor sets); returns how many.
+  int mark_descendants(int root, bool include_root);
+
+  MaskedSum masked_sum(int v, ParentMask required, ParentMask forbidden) const;
+  ParentMask sample_masked(int v, ParentMask required, ParentMask forbidden, const MaskedSum& sum,
+                           Rng& rng) const;
+
+  std::uint64_t* anc(int v) { return &anc_[std::size_t(v) * words_]; }
+  const std::uint64_t* anc(int v) const { return &anc_[std::size_t(v) * words_]; }
+  static bool test(const std::uint64_t* bits, int i) { return (bits[i >> 6] >> (i & 63)) & 1U; }
+  int candidate(int v, int pos) const { return cand_[std::size_t(v) * kMaxCandidates + pos]; }
+
+  const ScoreTable* table_;
+  ChainConfig config_;
+  int n_ = 0;
+  int words_ = 0;
+  std::uint64_t rev_threshold_ = 0;       // rng() below this: REV
+  std::uint64_t teleport_threshold_ = 0;  // rng() below this (and above REV's): teleport
+  bool mixed_kernels_ = false;
+  std::vector<Pair> pairs_;
+  std::vector<std::int32_t> cand_;  // n * 64 candidate variables
+  std::vector<ParentMask> local_;   // current parent set of each node (local mask)
+  std::vector<double> score_;       // its log score
+  std::vector<std::uint64_t> anc_;  // n * words: ancestors of each node
+  std::uint64_t num_edges_ = 0;
+  Dag dag_;  // global masks, kept in step when n <= 64 (for class tests)
+  bool track_dag_ = false;
+  MoveCounts counts_;
+  // REV: per node, the allowed sets' weights exp(s - max_v) (flat, offsets per node).
+  std::vector<std::size_t> set_offset_;
+  std::vector<double> set_weight_;
+  std::vector<double> set_max_;
+  // Scratch, sized once.
+  std::vector<std::int32_t> list_, stack_;
+  std::vector<ParentMask> stack_rest_;
+  std::vector<std::uint8_t> mark_;
+  std::vector<std::uint64_t> bits_a_, bits_b_, bits_c_, bits_d_;
+};
+
+}  // namespace covey

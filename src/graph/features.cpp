@@ -1,0 +1,67 @@
+#include "covey/graph/features.hpp"
+
+#include <sstream>
+
+#include "covey/core/error.hpp"
+
+namespace covey {
+
+const char* to_string(FeatureKind kind) {
+  switch (kind) {
+    case FeatureKind::kEdge:
+      return "edge";
+    case FeatureKind::kAdjacency:
+      return "adjacency";
+    case FeatureKind::kAncestor:
+      return "ancestor";
+    case FeatureKind::kScore:
+      return "score";
+  }
+  return "?";
+}
+
+FeatureKinds parse_feature_kinds(const std::string& text, const std::string& option) {
+  FeatureKinds kinds{false, false, false, false};
+  std::stringstream in(text);
+  std::string item;
+  bool any = false;
+  while (std::getline(in, item, ',')) {
+    if (item == "edges" || item == "edge") {
+      kinds.edges = true;
+    } else if (item == "adjacencies" || item == "adjacency") {
+      kinds.adjacencies = true;
+    } else if (item == "ancestors" || item == "ancestor") {
+      kinds.ancestors = true;
+    } else if (item == "score") {
+      kinds.score = true;
+    } else if (item == "all") {
+      kinds = FeatureKinds{};
+    } else {
+      throw InputError(option + ": unknown feature kind '" + item +
+                       "' (expected a comma-separated list of edges, adjacencies, ancestors, "
+                       "score)");
+    }
+    any = true;
+  }
+  if (!any) throw InputError(option + ": no feature kind given");
+  return kinds;
+}
+
+std::vector<FeatureId> list_features(int n, const FeatureKinds& kinds) {
+  std::vector<FeatureId> out;
+  if (kinds.edges)
+    for (int u = 0; u < n; ++u)
+      for (int v = 0; v < n; ++v)
+        if (u != v) out.push_back({FeatureKind::kEdge, u, v});
+  if (kinds.adjacencies)
+    for (int u = 0; u < n; ++u)
+      for (int v = u + 1; v < n; ++v) out.push_back({FeatureKind::kAdjacency, u, v});
+  if (kinds.ancestors)
+    for (int u = 0; u < n; ++u)
+      for (int v = 0; v < n; ++v)
+        if (u != v) out.push_back({FeatureKind::kAncestor, u, v});
+  if (kinds.score) out.push_back({FeatureKind::kScore, -1, -1});
+  return out;
+}
+
+}  // namespace covey

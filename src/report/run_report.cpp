@@ -1,0 +1,109 @@
+#include "covey/report/run_report.hpp"
+
+#include <cmath>
+#include <cstdio>
+#include <numeric>
+
+#include "covey/chains/structure_chain.hpp"
+#include "covey/core/error.hpp"
+
+namespace covey {
+
+namespace {
+
+std::string option_text(const nlohmann::json& value) {
+  if (value.is_string()) return value.get<std::string>();
+  if (value.is_number_float()) {
+    char buffer[32];
+    std::snprintf(buffer, sizeof buffer, "%.4g", value.get<double>());
+    return buffer;
+  }
+  return value.dump();
+}
+
+RunFacts run_facts(const std::vector<ChainRun>& runs, const RunDiagnostics& d) {
+  RunFacts facts;
+  facts.chains = d.chains;
+  facts.draws_per_chain = d.iterations;
+  facts.steps_per_chain = static_cast<std::int64_t>(runs.front().steps());
+  MoveCounts total;
+  std::int64_t regenerations = 0;
+  bool teleports = false;
+  for (const ChainRun& run : runs) {
+    for (int c = 0; c < run.num_chains(); ++c) {
+      const ChainCheckpoint cp = run.checkpoint(c);
+      total += cp.counts;
+      regenerations += static_cast<std::int64_t>(cp.regenerations);
+    }
+    teleports = teleports || run.options().value("teleport_rate", 0.0) > 0;
+  }
+  for (int m = 0; m < kNumMoves; ++m) {
+    if (total.proposed[m] == 0) continue;
+    facts.acceptance.push_back({move_name(m), static_cast<std::int64_t>(total.proposed[m]),
+                                static_cast<std::int64_t>(total.accepted[m])});
+  }
+  facts.regenerations = teleports ? regenerations : -1;
+  double seconds = 0;
+  for (const ChainRun& run : runs) seconds += run.elapsed_seconds();
+  char buffer[64];
+  std::snprintf(buffer, sizeof buffer, "%.1f s", seconds);
+  facts.extra.push_back({"sampling time (all files)", buffer});
+  facts.extra.push_back({"run files", std::to_string(runs.size())});
+  const auto& o = runs.front().options();
+  for (const char* key : {"thin", "burn_in", "seed", "rev_rate", "teleport_rate", "teleport_cover",
+                          "cover_limit", "start"})
+    if (o.contains(key)) facts.extra.push_back({key, option_text(o[key])});
+  return facts;
+}
+
+std::vector<std::vector<double>> edge_matrix(const RunDiagnostics& d, int n) {
+  std::vector<std::vector<double>> m(std::size_t(n), std::vector<double>(std::size_t(n), 0.0));
+  for (int v = 0; v < n; ++v) m[std::size_t(v)][std::size_t(v)] = std::nan("");
+  for (std::size_t i = 0; i < d.features.size(); ++i)
+    if (d.features[i].kind == FeatureKind::kEdge)
+      m[std::size_t(d.features[i].from)][std::size_t(d.features[i].to)] = d.summaries[i].mean;
+  return m;
+}
+
+}  // namespace
+
+ReportData report_data_from_runs(const std::vector<ChainRun>& runs, const RunFeatures& draws,
+                                 const RunDiagnostics& d, const Thresholds& thresholds) {
+  ReportData data;
+  data.variables = runs.front().variables();
+  for (const ChainRun& run : runs) data.source += (data.source.empty() ? "" : ", ") + run.path();
+  // The traces come from the draws already in memory (cut to a common length).
+  for (int c = 0; c < draws.chains(); ++c) {
+    const auto steps = draws.draw_steps(c);
+    const auto scores = draws.log_scores(c);
+    data.traces.push_back({{steps.begin(), steps.end()}, {scores.begin(), scores.end()}});
+  }
+  for (std::size_t i = 0; i < d.features.size(); ++i) {
+    ReportFeature f;
+    f.kind = d.features[i].kind;
+    f.from = d.features[i].from;
+    f.to = d.features[i].to;
+    const FeatureSummary& s = d.summaries[i];
+    f.probability = s.mean;
+    f.rhat = s.rhat;
+    f.ess_bulk = s.ess_bulk;
+    f.ess_tail = s.ess_tail;
+    f.mcse = s.mcse;
+    data.features.push_back(f);
+  }
+  data.edge_probability = edge_matrix(d, draws.num_variables());
+  data.run = run_facts(runs, d);
+  data.rhat_threshold = thresholds.max_rhat;
+  data.ess_threshold = thresholds.min_ess;
+  const Verdict verdict = judge(d.summaries, thresholds);
+  if (verdict.passing + verdict.failing > 0 && !verdict.converged())
+    data.cautions.push_back(std::to_string(verdict.failing) +
+                            " features fail the convergence thresholds: the probabilities "
+                            "shown are not yet reliable; run the chains longer.");
+  if (d.chains < 4)
+    data.cautions.push_back("Only " + std::to_string(d.chains) +
+                            " chains: R-hat is more reliable with 4 or more.");
+  return data;
+}
+
+}  // namespace covey
