@@ -14,16 +14,17 @@
 namespace covey {
 namespace {
 
-// Seconds per unit of work of a block step, fitted to `covey_bench --benchmark_filter=BlockStep`
-// (Release, x86-64; docs/chains.md): the engine's completion pass and draw per (state, next
-// layer) pair and per layer-factor exponential, the subset transforms, and the derived weights
-// per allowed parent set of a block node. A local or REV step costs about kSecondsPerLocalStep.
-constexpr double kSecondsPerPair = 1.5e-9;
-constexpr double kSecondsPerFactor = 6e-9;
-constexpr double kSecondsPerZeta = 1.2e-8;
+// Seconds per unit of work of a block step, fitted to block steps of m = 8, 10, 11, 12 on the
+// 12 Boston columns (`covey chain --block-rate 1 --block-size M --threads 1`, Release, x86-64;
+// 1.5, 12, 36 and 140 ms; docs/chains.md): the engine's completion pass and draw per (state, next
+// layer) pair, its subset transforms per m^3 2^m / 4, and the derived weights per allowed
+// parent set of a block node. A local or REV step took 0.23 us alone on the same table and about
+// twice that with four chains on two cores (thinned writes, shared caches): 0.5 us.
+constexpr double kSecondsPerPair = 6e-9;
+constexpr double kSecondsPerZeta = 2.2e-8;
 constexpr double kSecondsPerDerivedSet = 2e-8;
 constexpr double kSecondsPerBlockStep = 2e-5;  // fixed: allocations, thread pool, one draw
-constexpr double kSecondsPerLocalStep = 2.5e-7;
+constexpr double kSecondsPerLocalStep = 5e-7;
 
 double mean_parent_sets(const ScoreTable& table) {
   return double(table.total_parent_sets()) / std::max(1, table.num_variables());
@@ -68,9 +69,9 @@ std::vector<std::vector<int>> strongest_neighbour_blocks(const ScoreTable& table
 }
 
 double estimate_block_step_seconds(const ScoreTable& table, int m) {
-  const double pairs = std::pow(4.0, m), factors = m * std::pow(3.0, m - 1);
+  const double pairs = std::pow(4.0, m);
   const double zeta = double(m) * m * m * std::pow(2.0, m) / 4;
-  return pairs * kSecondsPerPair + factors * kSecondsPerFactor + zeta * kSecondsPerZeta +
+  return pairs * kSecondsPerPair + zeta * kSecondsPerZeta +
          m * mean_parent_sets(table) * kSecondsPerDerivedSet + kSecondsPerBlockStep;
 }
 

@@ -127,7 +127,7 @@ double one_step_p_value(const ScoreTable& table, const AllDags& all, const Dag& 
   Rng rng = make_stream(seed, 0);
   const std::vector<int> block = members(block_mask);
   std::vector<Dag> draws;
-  constexpr int kDraws = 20000;
+  constexpr int kDraws = 12000;
   for (int i = 0; i < kDraws; ++i) {
     chain.set_dag(state);
     EXPECT_TRUE(chain.block_move_on(block, rng));

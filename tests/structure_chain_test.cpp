@@ -266,7 +266,7 @@ TEST(StructureChainStationarity, TeleportsFromExactSampler) {
 // block's parent sets from their exact conditional (docs/mathematics.md, "Exact block moves").
 // The broken twin ignores the paths through the nodes outside the block when deriving g: its
 // draws may close cycles, which the check sees as wrong edge frequencies.
-constexpr std::uint64_t kBlockSteps = 100'000;
+constexpr std::uint64_t kBlockSteps = 60'000;
 
 TEST(StructureChainStationarity, BlockMovesAloneN5) {
   const ScoreTable table = testing_util::random_full_table(5, 3, 18);
