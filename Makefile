@@ -4,7 +4,7 @@
 
 DEBIAN_PACKAGES := cmake g++ make pkg-config libeigen3-dev libboost-random-dev libtbb-dev \
   libhdf5-dev hdf5-tools libcli11-dev nlohmann-json3-dev libgtest-dev libbenchmark-dev \
-  python3 python3-numpy python3-scipy python3-h5py r-base-core r-cran-posterior \
+  python3 python3-numpy python3-scipy python3-h5py r-base-core r-cran-posterior r-cran-mass \
   libcairo2-dev graphviz libgraphviz-dev fonts-dejavu-core chromium clang \
   openmpi-bin libopenmpi-dev
 JOBS ?= $(shell nproc 2>/dev/null || echo 2)

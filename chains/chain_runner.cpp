@@ -12,7 +12,9 @@
 #include <filesystem>
 #include <memory>
 
+#include "block_move.hpp"
 #include "chain_file_writer.hpp"
+#include "chain_start.hpp"
 #include "core/mpi_context.hpp"
 #include "covey/core/error.hpp"
 #include "covey/core/random.hpp"
@@ -76,6 +78,7 @@ void check_options(const ChainRunOptions& o, const ChainRunHooks& hooks, const S
         "give a stopping rule: --steps N, --max-time DURATION or --until-rhat / "
         "--until-ess");
   if (o.checkpoint_every < 0) throw InputError("--checkpoint-every must be >= 0");
+  check_block_options(o, table);
 }
 
 std::string percent(std::uint64_t a, std::uint64_t p) {
@@ -121,6 +124,10 @@ class Runner {
     config_.teleport = o_.teleport_rate > 0 ? hooks.teleport : nullptr;
     config_.restriction = o_.cover_limit >= 0 ? hooks.restriction : nullptr;
     config_.drop_hastings_for_testing = o_.drop_hastings_for_testing;
+    config_.block_rate = o_.block_rate;
+    config_.block_size = o_.block_size;
+    if (o_.block_size > 0 && o_.block_size < table.num_variables())
+      config_.block_family = strongest_neighbour_blocks(table, o_.block_size);
     session_ = {{"command_line", hooks.command_line},
                 {"covey_version", kVersion},
                 {"unix_time", static_cast<long long>(std::time(nullptr))}};
@@ -129,7 +136,8 @@ class Runner {
   void start_new() {
     chain_file::remove_stale_temporaries(member_);
     std::vector<std::uint64_t> file_start;
-    if (o_.start != "empty" && o_.start != "exact") file_start = read_start_dag(o_.start, table_);
+    if (o_.start != "empty" && o_.start != "exact" && o_.start != "greedy")
+      file_start = read_start_dag(o_.start, table_);
     for (int c = 0; c < local_; ++c) {
       auto slot = std::make_unique<Slot>(table_, config_);
       // The stream of the global chain: the trace does not depend on which rank runs it.
@@ -139,6 +147,9 @@ class Runner {
           throw InputError(
               "--start empty: the score table does not allow the empty graph "
               "(required edges?); use --start exact or --start FILE");
+      } else if (o_.start == "greedy") {
+        // From the chain's own stream: every chain climbs from its own random node order.
+        slot->chain.set_parents(greedy_start(table_, slot->rng), "greedy start");
       } else if (o_.start == "exact") {
         // The chain's own stream makes its first state an exact draw from D_k: a regeneration
         // at step 0.
@@ -489,6 +500,8 @@ nlohmann::json ChainRunOptions::fixed_to_json() const {
           {"teleport_cover", teleport_cover},
           {"cover_limit", cover_limit},
           {"start", start},
+          {"block_size", block_size},
+          {"block_rate", block_rate},
           {"steps", steps},
           {"max_seconds", max_seconds},
           {"until_rhat", until_rhat},
@@ -508,6 +521,8 @@ void ChainRunOptions::fixed_from_json(const nlohmann::json& s, const std::string
     teleport_cover = s.at("teleport_cover").get<int>();
     cover_limit = s.at("cover_limit").get<int>();
     start = s.at("start").get<std::string>();
+    block_size = s.value("block_size", 0);  // runs made before block moves have none
+    block_rate = s.value("block_rate", 0.0);
     drop_hastings_for_testing = s.value("drop_hastings_for_testing", 0u);
   } catch (const nlohmann::json::exception& e) {
     throw InputError(path + ": corrupt run options: " + e.what());
@@ -561,8 +576,19 @@ nlohmann::json ChainRunSummary::to_json() const {
 ChainRunSummary run_chains(const ScoreTable& table, const std::string& path,
                            const ChainRunOptions& options, const ChainRunHooks& hooks,
                            bool resume) {
-  check_options(options, hooks, table, resume);
-  Runner runner(table, path, options, hooks);
+  ChainRunOptions o = options;
+  if (!resume && (o.block_size < 0 || o.block_rate < 0)) {
+    const BlockSettings chosen = choose_block_settings(table);
+    if (o.block_size < 0) o.block_size = chosen.size;
+    if (o.block_rate < 0)
+      o.block_rate =
+          o.block_size == chosen.size ? chosen.rate : choose_block_rate(table, o.block_size);
+    // What REV and teleports leave.
+    o.block_rate = std::min(o.block_rate, std::max(0.0, 1 - o.rev_rate - o.teleport_rate));
+    if (o.block_size == 0) o.block_rate = 0;
+  }
+  check_options(o, hooks, table, resume);
+  Runner runner(table, path, o, hooks);
   if (resume)
     runner.resume();
   else

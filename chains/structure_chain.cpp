@@ -5,6 +5,7 @@
 #include <cmath>
 #include <numbers>
 
+#include "block_move.hpp"
 #include "covey/core/error.hpp"
 
 namespace covey {
@@ -43,6 +44,8 @@ const char* move_name(Move move) {
       return "rev";
     case Move::kTeleport:
       return "teleport";
+    case Move::kBlock:
+      return "block";
   }
   return "?";
 }
@@ -67,8 +70,10 @@ double StructureChain::MaskedSum::log() const {
 
 StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& config)
     : table_(&table), config_(config), n_(table.num_variables()), words_((n_ + 63) / 64) {
-  if (config.rev_rate < 0 || config.teleport_rate < 0 || config.rev_rate + config.teleport_rate > 1)
-    throw InputError("move rates: --rev-rate and --teleport-rate must be >= 0 with sum <= 1");
+  if (config.rev_rate < 0 || config.teleport_rate < 0 || config.block_rate < 0 ||
+      config.rev_rate + config.teleport_rate + config.block_rate > 1)
+    throw InputError(
+        "move rates: --rev-rate, --teleport-rate and --block-rate must be >= 0 with sum <= 1");
   if (config.teleport_rate > 0 && !config.teleport)
     throw InputError("--teleport-rate > 0 needs a teleport sampler (--teleport-cover)");
   track_dag_ = n_ <= kMaxExactVariables;
@@ -77,7 +82,10 @@ StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& confi
                      std::to_string(n_));
   rev_threshold_ = probability_threshold(config.rev_rate);
   teleport_threshold_ = probability_threshold(config.rev_rate + config.teleport_rate);
-  mixed_kernels_ = config.rev_rate > 0 || config.teleport_rate > 0;
+  block_threshold_ =
+      probability_threshold(config.rev_rate + config.teleport_rate + config.block_rate);
+  mixed_kernels_ = config.rev_rate > 0 || config.teleport_rate > 0 || config.block_rate > 0;
+  if (config.block_rate > 0 || config.block_size > 0) block_ = make_block_move(table, config);
 
   cand_.assign(std::size_t(n_) * kMaxCandidates, -1);
   set_offset_.assign(std::size_t(n_) + 1, 0);
@@ -110,6 +118,9 @@ StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& confi
   // Start at the empty graph when allowed; otherwise the caller must set a start state.
   for (int v = 0; v < n_; ++v) score_[v] = table.log_score(v, 0);
 }
+
+StructureChain::~StructureChain() = default;
+StructureChain::StructureChain(StructureChain&&) noexcept = default;
 
 bool StructureChain::empty_graph_allowed() const {
   for (int v = 0; v < n_; ++v)
@@ -376,6 +387,7 @@ bool StructureChain::step(Rng& rng) {
       return false;
     }
     if (r < teleport_threshold_) return teleport(rng);
+    if (r < block_threshold_) return block_move(rng);
   }
   local_move(rng);
   return false;

@@ -27,7 +27,9 @@ struct ChainArgs {
   double teleport_rate = -1;  // -1: 0.01 with --teleport-cover, else 0
   double rev_rate = 1.0 / 15;
   int cover_limit = -1;
-  std::string start;  // default: exact with --teleport-cover, else empty
+  std::string start;  // default: exact with --teleport-cover, else greedy
+  int block_size = -1;     // -1: chosen from the cost model when the run is created
+  double block_rate = -1;  // -1: chosen so block steps take about half the time
   std::string checkpoint_every = "5m";
   std::string max_time;
   double until_rhat = 0, until_ess = 0;
@@ -84,7 +86,9 @@ const std::pair<const char*, const char*> kFixedOptions[] = {{"--chains", "chain
                                                              {"--teleport-rate", "teleport_rate"},
                                                              {"--rev-rate", "rev_rate"},
                                                              {"--cover-limit", "cover_limit"},
-                                                             {"--start", "start"}};
+                                                             {"--start", "start"},
+                                                             {"--block-size", "block_size"},
+                                                             {"--block-rate", "block_rate"}};
 
 void print_text(const ChainRunSummary& s) {
   const nlohmann::json j = s.to_json();
@@ -128,7 +132,9 @@ ChainRunOptions fixed_options_of(const ChainArgs& a) {
   o.teleport_rate = a.teleport_rate >= 0 ? a.teleport_rate : (a.teleport_cover >= 0 ? 0.01 : 0.0);
   o.rev_rate = a.rev_rate;
   o.cover_limit = a.cover_limit;
-  o.start = !a.start.empty() ? a.start : (a.teleport_cover >= 0 ? "exact" : "empty");
+  o.start = !a.start.empty() ? a.start : (a.teleport_cover >= 0 ? "exact" : "greedy");
+  o.block_size = a.block_size;
+  o.block_rate = a.block_rate;
   return o;
 }
 
@@ -182,8 +188,8 @@ void run_chain_command(CLI::App* cmd, const ChainArgs& a) {
 void setup_chain(CLI::App& app) {
   auto* cmd = app.add_subcommand(
       "chain",
-      "Hybrid structure MCMC: chains of local moves, REV and teleports from the exact "
-      "cover-bounded sampler, written to an HDF5 run file with checkpoints and resume");
+      "Hybrid structure MCMC: chains of local moves, REV, exact block moves and teleports from "
+      "the exact cover-bounded sampler, written to an HDF5 run file with checkpoints and resume");
   auto a = std::make_shared<ChainArgs>();
   cmd->add_option("SCORES", a->scores, "score table (HDF5 or .tsv)")->required();
   cmd->add_option("-o,--output", a->output,
@@ -210,7 +216,15 @@ void setup_chain(CLI::App& app) {
                   "(default 1/15)");
   cmd->add_option("--cover-limit", a->cover_limit,
                   "k': restrict the target to the cover-bounded class D_k' (k' >= k)");
+  cmd->add_option("--block-size", a->block_size,
+                  "m: nodes per exact block move, whose parent sets are redrawn jointly from "
+                  "their exact conditional (default: the largest m whose step the cost model "
+                  "puts under 20 ms, at most n; 0: no block moves; stored in the run file)");
+  cmd->add_option("--block-rate", a->block_rate,
+                  "probability per step of an exact block move (default: block steps take about "
+                  "half the run time; stored in the run file)");
   cmd->add_option("--start", a->start,
+                  "greedy (each chain the best DAG of its own random node order; the default), "
                   "empty, exact (a D_k draw per chain; default with --teleport-cover) or a DAG "
                   "FILE of from<TAB>to edge lines");
   cmd->add_option("--checkpoint-every", a->checkpoint_every,

@@ -55,6 +55,12 @@ void subset_products(const double* b, std::size_t c, std::vector<double>& prod);
 class SubsetScores {
  public:
   SubsetScores(const ScoreTable& table, bool with_forced);
+  // Dense local weights over a small node set (n = log_weights.size() <= 30), as the exact block
+  // move of the chains derives them (docs/mathematics.md, "Exact block moves"):
+  // log_weights[v][Q] = log g_v(Q) for every Q subset of V, -inf where Q is not allowed (always
+  // where Q holds v). Built with the forced tables (the layered route). Defined in
+  // src/exact/exact_block.cpp.
+  explicit SubsetScores(const std::vector<std::vector<double>>& log_weights);
 
   int n() const { return n_; }
   std::uint64_t full() const { return full_; }
@@ -80,6 +86,8 @@ class SubsetScores {
   std::size_t index(int v, std::uint64_t y) const {
     return (std::size_t(v) << (n_ - 1)) | drop_bit(y, v);
   }
+  // Fills the subset tables from sets_ and scores_ (holding_ and empty_score_ set too).
+  void build_subset_tables(bool with_forced);
   int n_;
   std::uint64_t full_;
   std::vector<std::vector<std::uint64_t>> sets_;

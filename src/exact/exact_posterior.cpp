@@ -239,6 +239,39 @@ struct ExactEngine::Impl {
   double log_z = 0;
   std::optional<ExactPosterior> posterior;
 
+  // The passes over the subset tables in `scores` (route and limits already planned).
+  void run_passes(const ExactOptions& options) {
+    const std::uint64_t full = n ? (std::uint64_t{1} << n) - 1 : 0;
+    SubsetWeights w;
+    if (plan.route == ExactRoute::kLayered) {
+      if (options.features) {
+        w.log_z_of = exact_internal::layered_forward_pass(*scores);
+        w.other_log_z.push_back(w.log_z_of[full]);
+      }
+      layers = exact_internal::layered_completion_pass(*scores, w);
+    } else {
+      w.log_z_of = exact_internal::signed_log_z(*scores, w.clamped);
+      w.log_z = w.log_z_of[full];
+      if (options.features) {
+        double log_z_b = kNegInf;
+        w.log_d = exact_internal::signed_log_d(*scores, w.clamped, log_z_b);
+        w.other_log_z.push_back(log_z_b);
+      }
+    }
+    log_z = w.log_z;
+    if (!(log_z > kNegInf))
+      throw InputError(
+          "no DAG has all its parent sets in the score table (the allowed parent sets force a "
+          "directed cycle)");
+    if (options.features) posterior = assemble(*scores, w);
+    if (options.draws) {
+      build_start();
+      can_draw = true;
+    } else {
+      layers = LayerTable{};
+    }
+  }
+
   void build_start() {
     const std::uint64_t full = scores->full();
     start_cumulative.assign(full, 0.0);
@@ -360,37 +393,19 @@ ExactEngine::ExactEngine(const ScoreTable& table, const ExactOptions& options)
   m.n = table.num_variables();
   m.plan = plan_exact(m.n, options.route, options.draws, options.limits);
   m.memory_limit = options.limits.max_bytes;
-  const std::uint64_t full = m.n ? (std::uint64_t{1} << m.n) - 1 : 0;
-  SubsetWeights w;
-  if (m.plan.route == ExactRoute::kLayered) {
-    m.scores.emplace(table, true);
-    if (options.features) {
-      w.log_z_of = exact_internal::layered_forward_pass(*m.scores);
-      w.other_log_z.push_back(w.log_z_of[full]);
-    }
-    m.layers = exact_internal::layered_completion_pass(*m.scores, w);
-  } else {
-    m.scores.emplace(table, false);
-    w.log_z_of = exact_internal::signed_log_z(*m.scores, w.clamped);
-    w.log_z = w.log_z_of[full];
-    if (options.features) {
-      double log_z_b = kNegInf;
-      w.log_d = exact_internal::signed_log_d(*m.scores, w.clamped, log_z_b);
-      w.other_log_z.push_back(log_z_b);
-    }
-  }
-  m.log_z = w.log_z;
-  if (!(m.log_z > kNegInf))
-    throw InputError(
-        "no DAG has all its parent sets in the score table (the allowed parent sets force a "
-        "directed cycle)");
-  if (options.features) m.posterior = assemble(*m.scores, w);
-  if (options.draws) {
-    m.build_start();
-    m.can_draw = true;
-  } else {
-    m.layers = LayerTable{};
-  }
+  m.scores.emplace(table, m.plan.route == ExactRoute::kLayered);
+  m.run_passes(options);
+}
+
+ExactEngine::ExactEngine(const std::vector<std::vector<double>>& log_weights,
+                         const ExactOptions& options)
+    : impl_(std::make_unique<Impl>()) {
+  Impl& m = *impl_;
+  m.n = static_cast<int>(log_weights.size());
+  m.plan = plan_exact(m.n, ExactRoute::kLayered, options.draws, options.limits);
+  m.memory_limit = options.limits.max_bytes;
+  m.scores.emplace(log_weights);
+  m.run_passes(options);
 }
 
 ExactEngine::~ExactEngine() = default;

@@ -62,6 +62,10 @@ SubsetScores::SubsetScores(const ScoreTable& table, bool with_forced)
       for (std::uint64_t m = sets_[v][i]; m; m &= m - 1)
         holding_[std::size_t(v) * n_ + std::countr_zero(m)].push_back(i);
   }
+  build_subset_tables(with_forced);
+}
+
+void SubsetScores::build_subset_tables(bool with_forced) {
   if (n_ == 0) return;
   const std::size_t per_node = std::size_t{1} << (n_ - 1);
   hmax_.assign(per_node * n_, kNegInf);

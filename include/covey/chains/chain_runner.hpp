@@ -32,7 +32,12 @@ struct ChainRunOptions {
   double teleport_rate = 0;     // teleport probability per step
   int teleport_cover = -1;      // k of the teleport sampler (also used by start "exact"); -1 none
   int cover_limit = -1;         // k' of a target restricted to D_k'; -1 none
-  std::string start = "empty";  // "empty", "exact" or a DAG file of `from<TAB>to` edges
+  std::string start = "empty";  // "empty", "greedy", "exact" or a DAG file of `from<TAB>to` edges
+  // Exact block moves (docs/chains.md): m nodes per block and the probability per step; -1
+  // asks run_chains to choose from the cost model (choose_block_settings) when the run is
+  // created. The chosen values are stored, so a resume reuses them. 0: no block moves.
+  int block_size = 0;
+  double block_rate = 0;
   // Stopping and checkpointing (may be given anew on resume).
   std::uint64_t steps = 0;                 // total steps per chain; 0: no step limit
   double max_seconds = 0;                  // wall time of this session; 0: no limit
@@ -99,6 +104,22 @@ struct ChainRunSummary {
 // summary describes the whole run on every rank.
 ChainRunSummary run_chains(const ScoreTable& table, const std::string& path,
                            const ChainRunOptions& options, const ChainRunHooks& hooks, bool resume);
+
+// The automatic choice of the block moves (docs/chains.md, "Block moves"): the largest block
+// size m <= n whose block step is estimated to cost at most `max_step_seconds`, and the rate
+// that gives block steps a `share` of the run time next to local moves and REV. From the
+// engine's cost model, so the choice depends on the table alone (never on the machine's load):
+// every rank and every rerun with the same seed chooses the same.
+struct BlockSettings {
+  int size = 0;
+  double rate = 0;
+};
+BlockSettings choose_block_settings(const ScoreTable& table, double share = 0.5,
+                                    double max_step_seconds = 0.02);
+// Estimated seconds of one block step with m nodes in the table (engine passes, derived
+// weights and one draw), and of one local or REV step.
+double estimate_block_step_seconds(const ScoreTable& table, int m);
+double estimate_local_step_seconds(const ScoreTable& table);
 
 // Parses a duration: a number with an optional unit s, m, h or d ("90s", "10m", "2h", "1.5h",
 // "45" = seconds). Throws InputError naming `option`.

@@ -18,6 +18,13 @@
 //    Metropolis-Hastings ratio w(G') w(G) 1[G in D_k] / (w(G) w(G')) is 1[G in D_k]: the teleport
 //    is accepted exactly when the current DAG lies in D_k, and the new state is then independent
 //    of the past (a regeneration point).
+//  * exact block move (block_rate): a block B of block_size nodes drawn from a fixed
+//    distribution (uniform subsets mixed with a family of blocks fixed before the run); the
+//    parent sets of B are redrawn jointly from their exact conditional given all other parent
+//    sets, through the exact all-DAG engine on B (docs/mathematics.md, "Exact block moves";
+//    chains/block_move.cpp). A Gibbs step: always accepted, and under a restriction accepted
+//    exactly when the result lies in the class. With block_size = n it is an exact draw from
+//    the whole posterior: a regeneration.
 //
 // Acyclicity is checked with maintained ancestor bitsets (n bits per node, as 64-bit words), so
 // an add costs one bit test, a reversal one bit test per parent; accepted moves update the
@@ -26,6 +33,7 @@
 // local-move and REV paths (teleports and class tests use the cover module, which may).
 #include <array>
 #include <cstdint>
+#include <memory>
 #include <span>
 #include <string>
 #include <vector>
@@ -36,9 +44,9 @@
 
 namespace covey {
 
-enum class Move : int { kAdd = 0, kDelete = 1, kReverse = 2, kRev = 3, kTeleport = 4 };
-inline constexpr int kNumMoves = 5;
-// "add", "delete", "reverse", "rev", "teleport" (the names used in files and JSON).
+enum class Move : int { kAdd = 0, kDelete = 1, kReverse = 2, kRev = 3, kTeleport = 4, kBlock = 5 };
+inline constexpr int kNumMoves = 6;
+// "add", "delete", "reverse", "rev", "teleport", "block" (the names used in files and JSON).
 const char* move_name(Move move);
 inline const char* move_name(int move) {
   return move_name(static_cast<Move>(move));
@@ -68,21 +76,39 @@ class TeleportSource {
   virtual Dag draw(Rng& rng) const = 0;
 };
 
+// Deliberate errors of the block move (tests only): paths through the nodes outside the block
+// ignored when deriving g (R(o) taken empty: draws may close cycles through them), or each
+// parent set drawn uniformly among those with the drawn block parent set instead of by f_v.
+enum class BlockFault { kNone, kIgnoreOutsidePaths, kUniformWithinBlockParentSet };
+
 struct ChainConfig {
   double rev_rate = 0.0;       // probability of a REV step
   double teleport_rate = 0.0;  // probability of a teleport step (needs `teleport`)
   const TeleportSource* teleport = nullptr;
   const DagClass* restriction = nullptr;  // target restricted to this class (n <= 64), or none
+  double block_rate = 0.0;                // probability of an exact block move
+  int block_size = 0;                     // m: nodes per block, 1..n (needed with block_rate)
+  // Blocks of block_size nodes fixed before the run (may be empty); a block move takes one of
+  // them (uniformly) with probability block_family_share, else a uniform m-subset.
+  std::vector<std::vector<int>> block_family;
+  double block_family_share = 0.5;
+  // Test-only switch (no option, not in run files): a deliberately wrong block move, for the
+  // tests to show that their checks catch it.
+  BlockFault block_fault_for_testing = BlockFault::kNone;
   // Test-only hook: bit m set makes move m accept with the bare weight ratio min(1, w(G')/w(G)),
   // dropping its Hastings factor (for teleports also the 1[G in D_k] factor). The chain then
   // targets the wrong distribution; the tests use it to show that their checks can fail.
   unsigned drop_hastings_for_testing = 0;
 };
 
+class BlockMove;  // chains/block_move.hpp
+
 class StructureChain {
  public:
   // The chain starts at the empty graph when the table allows it (else call set_parents()).
   StructureChain(const ScoreTable& table, const ChainConfig& config);
+  ~StructureChain();
+  StructureChain(StructureChain&&) noexcept;
 
   int num_variables() const { return n_; }
   int words_per_node() const { return words_; }  // ceil(n / 64)
@@ -95,8 +121,18 @@ class StructureChain {
   // Whether the table allows the empty graph (every node may have no parents).
   bool empty_graph_allowed() const;
 
-  // One transition of the chain. Returns true when a teleport regenerated the chain.
+  // One transition of the chain. Returns true when a teleport (or a block move over all nodes)
+  // regenerated the chain.
   bool step(Rng& rng);
+
+  // The exact block move on a given block (distinct node indices, any order): redraws the
+  // parent sets of the block's nodes from their exact conditional given all other parent sets
+  // (needs block_size > 0 in the config; the block may have any size up to 30). Returns whether
+  // the draw was accepted (always, unless it leaves the restriction class).
+  bool block_move_on(std::span<const int> block, Rng& rng);
+  // log of the normaliser of that conditional: the sum over the block's parent sets that keep
+  // the graph acyclic (all other parent sets as now) of prod_{v in block} f_v(G_v).
+  double block_log_normaliser(std::span<const int> block);
 
   // log w(G), summed node by node in index order from the table's values (so it is identical
   // after a checkpoint restore).
@@ -134,6 +170,7 @@ class StructureChain {
   void propose_reverse(Rng& rng, const Pair& pair, ParentMask bit);
   void rev_move(Rng& rng);
   bool teleport(Rng& rng);
+  bool block_move(Rng& rng);  // chains/block_move.cpp
   bool dropped(Move move) const { return (config_.drop_hastings_for_testing >> int(move)) & 1U; }
   bool in_restriction(const Dag& dag) const;
 
@@ -164,6 +201,8 @@ class StructureChain {
   int words_ = 0;
   std::uint64_t rev_threshold_ = 0;       // rng() below this: REV
   std::uint64_t teleport_threshold_ = 0;  // rng() below this (and above REV's): teleport
+  std::uint64_t block_threshold_ = 0;     // rng() below this (and above teleport's): block move
+  std::unique_ptr<BlockMove> block_;      // the block move's tables and scratch, when enabled
   bool mixed_kernels_ = false;
   std::vector<Pair> pairs_;
   std::vector<std::int32_t> cand_;  // n * 64 candidate variables

@@ -81,6 +81,12 @@ class ExactEngine {
   // Plans (may throw ResourceError), then runs the passes. Throws InputError when no DAG has all
   // its parent sets in the table.
   explicit ExactEngine(const ScoreTable& table, const ExactOptions& options = {});
+  // The same over all DAGs on m = log_weights.size() nodes whose local weights are given densely:
+  // log_weights[v][Q] = log g_v(Q) for every node set Q (bit u: node u), -inf where Q is not
+  // allowed and always where Q holds v. The layered route only (options.route is ignored). The
+  // exact block move of the chains draws from it with the weights it derives each step
+  // (docs/mathematics.md, "Exact block moves").
+  ExactEngine(const std::vector<std::vector<double>>& log_weights, const ExactOptions& options);
   ~ExactEngine();
   ExactEngine(ExactEngine&&) noexcept;
   ExactEngine& operator=(ExactEngine&&) noexcept;
