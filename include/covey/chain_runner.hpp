@@ -8,6 +8,7 @@
 // thread count, on when checkpoints happen, or on whether the run was stopped and resumed: the
 // same seed gives identical draws with 1 or 8 threads, and N steps + resume to 2N equals 2N
 // steps straight.
+#include <algorithm>
 #include <atomic>
 #include <cmath>
 #include <cstdint>
@@ -100,6 +101,18 @@ struct ChainRunSummary {
 // summary describes the whole run on every rank.
 ChainRunSummary run_chains(const ScoreTable& table, const std::string& path,
                            const ChainRunOptions& options, const ChainRunHooks& hooks, bool resume);
+
+// Makes room for `extra` more elements at the end of `v`. When the capacity is short it at least
+// doubles it, so a buffer that gets one segment of rows after another (the runner's draws
+// between checkpoints) is reallocated O(log size) times rather than once per segment, which
+// copied the whole buffer each time. Returns true when it reallocated.
+template <class T>
+bool reserve_for_append(std::vector<T>& v, std::size_t extra) {
+  const std::size_t need = v.size() + extra;
+  if (need <= v.capacity()) return false;
+  v.reserve(std::max(need, 2 * v.capacity()));
+  return true;
+}
 
 // Parses a duration: a number with an optional unit s, m, h or d ("90s", "10m", "2h", "1.5h",
 // "45" = seconds). Throws InputError naming `option`.
