@@ -70,3 +70,66 @@ BENCHMARK(BM_WithRev_n30_d3)->MinTime(1.0);
 BENCHMARK(BM_WithRev_n200_c20_d3)->MinTime(1.0);
 
 }  // namespace
+
+#include <sys/resource.h>
+#include <unistd.h>
+
+#include <filesystem>
+#include <string>
+
+#include "covey/chains/chain_runner.hpp"
+
+namespace {
+
+double process_cpu_seconds() {
+  rusage u{};
+  ::getrusage(RUSAGE_SELF, &u);
+  return double(u.ru_utime.tv_sec + u.ru_stime.tv_sec) +
+         1e-6 * double(u.ru_utime.tv_usec + u.ru_stime.tv_usec);
+}
+
+// CPU seconds of run_chains on `table` (2 chains, `steps` each) keeping every `thin`-th state, or
+// none when keep is false (all steps are burn-in).
+double run_chains_cpu(const covey::ScoreTable& table, std::uint64_t steps, std::uint64_t thin,
+                      bool keep) {
+  const std::string path = (std::filesystem::temp_directory_path() /
+                            ("covey_bench_run_" + std::to_string(::getpid()) + ".h5"))
+                               .string();
+  std::filesystem::remove(path);
+  covey::ChainRunOptions o;
+  o.chains = 2;
+  o.thin = thin;
+  o.steps = steps;
+  o.burn_in = keep ? 0 : steps;
+  covey::ChainRunHooks hooks;
+  hooks.progress = false;
+  const double start = process_cpu_seconds();
+  covey::run_chains(table, path, o, hooks, false);
+  const double cpu = process_cpu_seconds() - start;
+  std::filesystem::remove(path);
+  return cpu;
+}
+
+// Issue 15: run_chains at n = 200 (20 candidates, in-degree <= 3) keeping thinned draws between
+// checkpoints must cost about what the same run without draws costs (the pending-draws buffer was
+// copied once per 0.2 s segment, quadratic until each checkpoint). Target: CPU with draws kept at
+// thin 100 at most 1.25 x the CPU without (ratio_to_target = (with / without) / 1.25 <= 1).
+void BM_RunChainsKeepingDraws_n200(benchmark::State& state) {
+  const covey::ScoreTable table = make_table(200, 20, 3, 1.0);
+  const std::uint64_t steps = static_cast<std::uint64_t>(state.range(0));
+  double with = 0, without = 0;
+  for (auto _ : state) {
+    without = run_chains_cpu(table, steps, 100, false);
+    with = run_chains_cpu(table, steps, 100, true);
+  }
+  state.counters["cpu_s_with_draws"] = with;
+  state.counters["cpu_s_without"] = without;
+  state.counters["ratio_to_target"] = with / without / 1.25;
+}
+BENCHMARK(BM_RunChainsKeepingDraws_n200)
+    ->Arg(4000000)
+    ->Iterations(1)
+    ->Unit(benchmark::kSecond)
+    ->UseRealTime();
+
+}  // namespace

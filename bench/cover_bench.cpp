@@ -7,10 +7,17 @@
 
 #include "bench_tables.hpp"
 
+#include <unistd.h>
 #include <boost/random/normal_distribution.hpp>
+
 #include <chrono>
+#include <cmath>
+#include <cstdio>
+#include <cstdlib>
+#include <cstring>
 #include <functional>
 #include <memory>
+#include <string>
 
 #include "covey/core/random.hpp"
 #include "covey/exact/cover_best.hpp"
@@ -107,5 +114,86 @@ void BM_CoverDrawBatch(benchmark::State& state) {
   state.counters["ratio_to_target_20000_per_s"] = double(count) / seconds / 20000.0;
 }
 BENCHMARK(BM_CoverDrawBatch)->Args({20, 3})->Iterations(1)->Unit(benchmark::kSecond)->UseRealTime();
+
+}  // namespace
+
+namespace {
+
+// Resident memory of this process from /proc/self/status ("VmRSS" now, "VmHWM" its peak), bytes.
+double status_bytes(const char* field) {
+  std::FILE* f = std::fopen("/proc/self/status", "r");
+  if (!f) return NAN;
+  char line[256];
+  double kib = NAN;
+  const std::size_t len = std::strlen(field);
+  while (std::fgets(line, sizeof line, f))
+    if (std::strncmp(line, field, len) == 0 && line[len] == ':') kib = std::atof(line + len + 1);
+  std::fclose(f);
+  return kib * 1024;
+}
+
+// Restarts the peak (VmHWM) at the current resident size (Linux: "5" > /proc/self/clear_refs).
+void reset_peak_memory() {
+  if (std::FILE* f = std::fopen("/proc/self/clear_refs", "w")) {
+    std::fputs("5", f);
+    std::fclose(f);
+  }
+}
+
+// Issue 15 (k = 3, n = 30): building, saving and loading the sampler. Targets: saving takes no
+// longer than building (ratio_save_to_build <= 1), loading is faster than building
+// (ratio_load_to_build < 1), and each step's peak resident memory above the process before it is
+// the estimate that the memory check used, within 10% (peak_to_estimate_* in [0.9, 1.1]).
+// tables_MiB: the sampler's memory_bytes(); target: half of what long double tables took.
+void BM_CoverSamplerSaveLoad(benchmark::State& state) {
+  const int n = static_cast<int>(state.range(0)), k = static_cast<int>(state.range(1));
+  const covey::ScoreTable table = random_table(n, 3, 2);
+  covey::CoverSamplerOptions options;
+  options.show_progress = false;
+  const double estimate = covey::CoverSampler::estimate_memory_bytes(n, k);
+  const std::string path = "/tmp/covey_bench_sampler_" + std::to_string(::getpid()) + ".h5";
+  double build_s = 0, save_s = 0, load_s = 0, peak_build = 0, peak_save = 0, peak_load = 0;
+  double tables_mib = 0;
+  for (auto _ : state) {
+    reset_peak_memory();
+    double before = status_bytes("VmRSS");
+    auto start = std::chrono::steady_clock::now();
+    {
+      const covey::CoverSampler s = covey::CoverSampler::build(table, k, options);
+      build_s = seconds_since(start);
+      peak_build = status_bytes("VmHWM") - before;
+      reset_peak_memory();
+      start = std::chrono::steady_clock::now();
+      s.save(path);
+      save_s = seconds_since(start);
+      peak_save = status_bytes("VmHWM") - before;
+      tables_mib = double(s.memory_bytes()) / (1 << 20);
+    }
+    reset_peak_memory();
+    before = status_bytes("VmRSS");
+    start = std::chrono::steady_clock::now();
+    {
+      const covey::CoverSampler s = covey::CoverSampler::load(path, table);
+      load_s = seconds_since(start);
+      peak_load = status_bytes("VmHWM") - before;
+    }
+  }
+  std::remove(path.c_str());
+  state.counters["build_s"] = build_s;
+  state.counters["save_s"] = save_s;
+  state.counters["load_s"] = load_s;
+  state.counters["ratio_save_to_build"] = save_s / build_s;
+  state.counters["ratio_load_to_build"] = load_s / build_s;
+  state.counters["estimate_MiB"] = estimate / (1 << 20);
+  state.counters["peak_to_estimate_build"] = peak_build / estimate;
+  state.counters["peak_to_estimate_save"] = peak_save / estimate;
+  state.counters["peak_to_estimate_load"] = peak_load / estimate;
+  state.counters["tables_MiB"] = tables_mib;
+}
+BENCHMARK(BM_CoverSamplerSaveLoad)
+    ->Args({30, 3})
+    ->Iterations(1)
+    ->Unit(benchmark::kSecond)
+    ->UseRealTime();
 
 }  // namespace

@@ -18,6 +18,7 @@
 #include "covey/chains/chain_runner.hpp"
 #include "covey/chains/structure_chain.hpp"
 #include "covey/core/random.hpp"
+#include "covey/exact/exact_posterior.hpp"
 #include "covey/scores/score_table.hpp"
 
 namespace covey {
@@ -39,6 +40,12 @@ class BlockMove {
   // Draws new local parent masks for the block's nodes, in block order (after derive()).
   void draw(Rng& rng, std::vector<ParentMask>& next) const;
   int block_size() const { return block_size_; }
+  // Whether derive() can be skipped: the block is every node and its weights are already held.
+  // Over all nodes nothing lies outside the block, so g_v = f_v whatever the state, and one
+  // engine serves every step (each draw is then an exact draw from the whole posterior).
+  bool holds_whole(std::span<const int> block) const {
+    return whole_ready_ && int(block.size()) == n_;
+  }
 
  private:
   std::uint64_t reach(int o, std::span<const ParentMask> local);
@@ -58,6 +65,10 @@ class BlockMove {
   std::vector<int> reached_list_;
   std::vector<std::vector<double>> log_g_;        // per block position, over 2^m sets Q
   std::vector<std::vector<std::uint64_t>> q_of_;  // per block position, Q(P) per allowed set
+  // The block of every node: its weights (log_g_, q_of_) stay valid across steps, and its
+  // engine is built once, on the first draw.
+  bool whole_ready_ = false;
+  mutable std::unique_ptr<ExactEngine> whole_engine_;
 };
 
 std::unique_ptr<BlockMove> make_block_move(const ScoreTable& table, const ChainConfig& config);

@@ -25,6 +25,23 @@ constexpr double kSecondsPerZeta = 2.2e-8;
 constexpr double kSecondsPerDerivedSet = 2e-8;
 constexpr double kSecondsPerBlockStep = 2e-5;  // fixed: allocations, thread pool, one draw
 constexpr double kSecondsPerLocalStep = 5e-7;
+// A block of every node keeps one engine for the whole run (block_move.hpp, holds_whole), so a
+// step is one exact draw from it plus the chain's bookkeeping; the build is paid once per chain.
+// Measured on the 12 Boston columns: about 8 us a step (docs/chains.md).
+constexpr double kSecondsPerWholeStep = 1e-5;
+// The whole-set engine is chosen automatically when its one build is cheap next to any run and
+// its tables small next to the memory of a machine running several chains.
+constexpr double kMaxWholeBuildSeconds = 5;
+constexpr double kMaxWholeBytes = 512.0 * 1024 * 1024;
+// Refused outright: a one-time build beyond this (the user asked for it with --block-size).
+constexpr double kMaxWholeBuildSecondsAsked = 600;
+
+bool whole_set_affordable(const ScoreTable& table) {
+  const int n = table.num_variables();
+  if (n > kMaxBlockSize) return false;
+  const ExactCost whole = estimate_exact_cost(n, ExactRoute::kLayered, true);
+  return whole.seconds <= kMaxWholeBuildSeconds && double(whole.bytes) <= kMaxWholeBytes;
+}
 
 double mean_parent_sets(const ScoreTable& table) {
   return double(table.total_parent_sets()) / std::max(1, table.num_variables());
@@ -69,6 +86,7 @@ std::vector<std::vector<int>> strongest_neighbour_blocks(const ScoreTable& table
 }
 
 double estimate_block_step_seconds(const ScoreTable& table, int m) {
+  if (m == table.num_variables()) return kSecondsPerWholeStep;
   const double pairs = std::pow(4.0, m);
   const double zeta = double(m) * m * m * std::pow(2.0, m) / 4;
   return pairs * kSecondsPerPair + zeta * kSecondsPerZeta +
@@ -89,7 +107,14 @@ double choose_block_rate(const ScoreTable& table, int m, double share) {
 BlockSettings choose_block_settings(const ScoreTable& table, double share,
                                     double max_step_seconds) {
   BlockSettings s;
-  const int largest = std::min(table.num_variables(), kMaxBlockSize);
+  // Every node at once when the engine over all of them is cheap: each block step is then an
+  // exact draw from the whole posterior, a regeneration.
+  if (whole_set_affordable(table)) {
+    s.size = table.num_variables();
+    s.rate = choose_block_rate(table, s.size, share);
+    return s;
+  }
+  const int largest = std::min(table.num_variables() - 1, kMaxBlockSize);
   for (int m = 1; m <= largest; ++m)
     if (estimate_block_step_seconds(table, m) <= max_step_seconds) s.size = m;
   if (s.size < 2) s.size = 0;  // a block of one node is a Gibbs step of one parent set: skip
@@ -111,8 +136,15 @@ void check_block_options(const ChainRunOptions& o, const ScoreTable& table,
   if (o.rev_rate + o.teleport_rate + o.block_rate > 1 + 1e-12)
     throw InputError("--rev-rate, --teleport-rate and --block-rate must add up to at most 1");
   if (o.block_size == 0) return;
+  if (o.block_size == n) {
+    const double build = estimate_exact_cost(n, ExactRoute::kLayered, true).seconds;
+    if (build > kMaxWholeBuildSecondsAsked)
+      throw InputError("--block-size " + std::to_string(n) +
+                       ": the exact engine over all variables would take about " +
+                       std::to_string(int(build)) + " s to build; choose a smaller block");
+  }
   constexpr double kMaxStepSeconds = 60;
-  const double seconds = estimate_block_step_seconds(table, o.block_size);
+  const double seconds = o.block_size == n ? 0.0 : estimate_block_step_seconds(table, o.block_size);
   if (seconds > kMaxStepSeconds)
     throw InputError("--block-size " + std::to_string(o.block_size) +
                      ": one block step would take about " + std::to_string(int(seconds)) +

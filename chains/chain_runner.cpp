@@ -355,9 +355,9 @@ class Runner {
     tbb::parallel_for(std::size_t{0}, slots_.size(), [&](std::size_t c) {
       Slot& s = *slots_[c];
       auto& p = s.pending;
-      p.draws.reserve(p.draws.size() + rows * width_);
-      p.log_scores.reserve(p.log_scores.size() + rows);
-      p.draw_steps.reserve(p.draw_steps.size() + rows);
+      reserve_for_append(p.draws, rows * width_);
+      reserve_for_append(p.log_scores, rows);
+      reserve_for_append(p.draw_steps, rows);
       for (std::uint64_t step = first; step <= last; ++step) {
         if (s.chain.step(s.rng)) {
           p.regenerations.push_back(static_cast<std::int64_t>(step));

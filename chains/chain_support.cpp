@@ -80,7 +80,7 @@ ChainSupport::ChainSupport(const ScoreTable& table, const ChainRunOptions& optio
     sampler_options.memory_limit_bytes = memory_limit;
     CoverSampler sampler = sampler_path.empty()
                                ? CoverSampler::build(table, options.teleport_cover, sampler_options)
-                               : CoverSampler::load(sampler_path, table);
+                               : CoverSampler::load(sampler_path, table, sampler_options);
     if (sampler.cover_bound() != options.teleport_cover)
       throw InputError(sampler_path + ": the saved sampler is for cover bound " +
                        std::to_string(sampler.cover_bound()) + ", not --teleport-cover " +

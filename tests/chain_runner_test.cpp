@@ -602,6 +602,34 @@ TEST(ChainCli, UntilRhatAndMaxTime) {
   EXPECT_LT(j["seconds"].get<double>(), 5.0);
 }
 
+// The pending-draws buffer between checkpoints gets one segment of rows after another (1500
+// segments of 0.2 s between checkpoints 300 s apart). Reserving exactly each segment's need
+// reallocated (and copied the whole buffer) every segment; reserve_for_append must reallocate
+// only O(log rows) times. The exact reservation is checked to fail the same bound, so the bound
+// can tell the two apart. (Small rows keep the test quick; the count does not depend on them.)
+TEST(ChainRunner, PendingDrawsGrowGeometrically) {
+  constexpr std::size_t kSegments = 1500, kRowWords = 64;
+  std::vector<std::uint64_t> geometric, exact;
+  std::size_t geometric_reallocations = 0, exact_reallocations = 0;
+  for (std::size_t s = 0; s < kSegments; ++s) {
+    if (reserve_for_append(geometric, kRowWords)) ++geometric_reallocations;
+    geometric.resize(geometric.size() + kRowWords);
+    const std::size_t capacity = exact.capacity();
+    exact.reserve(exact.size() + kRowWords);  // the old run_segment
+    if (exact.capacity() != capacity) ++exact_reallocations;
+    exact.resize(exact.size() + kRowWords);
+  }
+  const std::size_t bound = 2 + static_cast<std::size_t>(std::log2(double(kSegments)));
+  EXPECT_LE(geometric_reallocations, bound);
+  EXPECT_GT(exact_reallocations, bound);
+  EXPECT_LE(geometric.capacity(), 2 * geometric.size());
+  // Room already there: no reallocation, and the capacity is kept.
+  const std::size_t capacity = geometric.capacity();
+  geometric.resize(geometric.size() - 10);
+  EXPECT_FALSE(reserve_for_append(geometric, 10));
+  EXPECT_EQ(geometric.capacity(), capacity);
+}
+
 TEST(Duration, ParsesUnits) {
   EXPECT_DOUBLE_EQ(parse_duration("90s", "--x"), 90);
   EXPECT_DOUBLE_EQ(parse_duration("10m", "--x"), 600);

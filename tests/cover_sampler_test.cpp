@@ -10,6 +10,7 @@
 #include <cmath>
 
 #include "cover_test_util.hpp"
+#include "core/h5.hpp"
 #include "covey/core/error.hpp"
 #include "covey/core/logmath.hpp"
 #include "covey/exact/cover_draws.hpp"
@@ -265,11 +266,11 @@ TEST(CoverSampler, LoadRefusesTablesChangedAfterSaving) {
   EXPECT_NO_THROW(CoverSampler::load(dir.file("s.h5"), table));
   {
     H5::H5File file(dir.file("s.h5"), H5F_ACC_RDWR);
-    H5::DataSet ds = file.openDataSet("/tables/mantissa");
-    std::vector<std::uint64_t> m(ds.getSpace().getSimpleExtentNpoints());
-    ds.read(m.data(), H5::PredType::NATIVE_UINT64);
+    H5::DataSet ds = file.openDataSet("/tables/values");
+    std::vector<double> m(ds.getSpace().getSimpleExtentNpoints());
+    ds.read(m.data(), H5::PredType::NATIVE_DOUBLE);
     for (auto& x : m) x = 0;  // every cell of weight 0
-    ds.write(m.data(), H5::PredType::NATIVE_UINT64);
+    ds.write(m.data(), H5::PredType::NATIVE_DOUBLE);
   }
   try {
     CoverSampler::load(dir.file("s.h5"), table);
@@ -278,6 +279,32 @@ TEST(CoverSampler, LoadRefusesTablesChangedAfterSaving) {
     EXPECT_NE(std::string(e.what()).find("s.h5"), std::string::npos) << e.what();
     EXPECT_NE(std::string(e.what()).find("digest"), std::string::npos) << e.what();
   }
+}
+
+// Sampler files of format 1 (long double tables as mantissa and exponent datasets) are refused
+// with a message that says what to do, and so are files of a newer format.
+TEST(CoverSampler, LoadRefusesOtherFormatVersions) {
+  testing_util::TempDir dir;
+  const ScoreTable table = cover_testing::restricted_table(6, 2, 33, 0.8);
+  CoverSampler::build(table, 1).save(dir.file("s.h5"));
+  const auto load_message = [&](long long version) -> std::string {
+    {
+      H5::H5File file(dir.file("s.h5"), H5F_ACC_RDWR);
+      file.removeAttr("format_version");
+      h5::set_attr(file, "format_version", version);
+    }
+    try {
+      CoverSampler::load(dir.file("s.h5"), table);
+    } catch (const InputError& e) {
+      return e.what();
+    }
+    return "loaded";
+  };
+  const std::string old = load_message(1);
+  EXPECT_NE(old.find("s.h5: sampler format 1 of an older covey"), std::string::npos) << old;
+  EXPECT_NE(old.find("--save-sampler"), std::string::npos) << old;
+  EXPECT_NE(load_message(3).find("newer covey"), std::string::npos);
+  EXPECT_EQ(load_message(2), "loaded");
 }
 
 TEST(CoverSampler, RejectsBadInputAndChecksMemoryFirst) {

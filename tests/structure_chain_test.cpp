@@ -286,6 +286,20 @@ TEST(StructureChainStationarity, BlockMovesAloneN5) {
   EXPECT_FALSE(passes(bad)) << "ignoring outside paths went unnoticed: " << describe(bad);
 }
 
+// Blocks of every node (the automatic choice for small tables) keep one engine for the whole run
+// (block_move.hpp, holds_whole): mixed with local moves and REV, the states that the local moves
+// leave must not matter to the cached weights. Against the exact posterior at n = 5.
+TEST(StructureChainStationarity, WholeSetBlocksWithLocalMovesN5) {
+  const ScoreTable table = testing_util::random_full_table(5, 3, 21);
+  const ExactPosterior exact = testing_util::exact_posterior(table, nullptr);
+  ChainConfig config;
+  config.block_rate = 0.02;
+  config.block_size = 5;
+  config.rev_rate = 0.1;
+  const Comparison ok = run_and_compare(table, config, exact, kSteps / 2, 26);
+  EXPECT_TRUE(passes(ok)) << describe(ok);
+}
+
 // Block moves mixed with local moves and REV: n = 4 (edges and TV over all 543 DAGs, blocks
 // from a fixed family mixed with uniform ones) and n = 5 (edges); each with its broken twin.
 TEST(StructureChainStationarity, BlockMovesWithLocalMoves) {

@@ -182,7 +182,7 @@ void print_report(const CheckedInput& in, const std::vector<std::size_t>& worst,
     std::cout << ", " << shown << " of " << order.size() << " assessed shown";
   std::cout << ")\n";
   if (in.regenerations > 0)
-    std::cout << "teleport regenerations: " << in.regenerations << " (" << in.tours
+    std::cout << "regenerations (teleports, whole-set blocks): " << in.regenerations << " (" << in.tours
               << " complete tours)"
               << (in.regenerative_se.empty() ? "" : "; regen_se: regenerative standard error")
               << "\n";

@@ -35,15 +35,15 @@ void run_draw(const DrawOptions& o) {
   const ScoreTable table = load_scores(o.scores);
   require_draws_memory(static_cast<double>(o.count), table.num_variables(), "--count", limit);
   CoverSampler sampler;
+  CoverSamplerOptions options;
+  options.memory_limit_bytes = limit;
   if (!o.load_sampler.empty()) {
-    sampler = CoverSampler::load(o.load_sampler, table);
+    sampler = CoverSampler::load(o.load_sampler, table, options);
     if (sampler.cover_bound() != o.cover)
       throw InputError("--load-sampler " + o.load_sampler + ": built for cover bound " +
                        std::to_string(sampler.cover_bound()) + ", not --cover " +
                        std::to_string(o.cover));
   } else {
-    CoverSamplerOptions options;
-    options.memory_limit_bytes = limit;
     sampler = CoverSampler::build(table, o.cover, options);
   }
   if (!o.save_sampler.empty()) sampler.save(o.save_sampler);

@@ -265,6 +265,19 @@ void write_vector(H5::Group& g, const std::string& n, const std::vector<std::int
   write_numeric(g, n, v, H5::PredType::NATIVE_INT32);
 }
 
+void write_large_doubles(H5::Group& group, const std::string& name, const double* data,
+                         std::size_t count) {
+  quiet();
+  const hsize_t dims[1] = {count};
+  const hsize_t chunk[1] = {std::clamp<hsize_t>(count, 1, hsize_t{1} << 17)};  // 1 MiB chunks
+  H5::DataSpace space(1, dims);
+  H5::DSetCreatPropList props;
+  props.setChunk(1, chunk);
+  props.setFletcher32();
+  H5::DataSet ds = group.createDataSet(name, H5::PredType::NATIVE_DOUBLE, space, props);
+  if (count) ds.write(data, H5::PredType::NATIVE_DOUBLE);
+}
+
 void write_strings(H5::Group& group, const std::string& name, const std::vector<std::string>& v) {
   quiet();
   const hsize_t dims[1] = {v.size()};

@@ -36,6 +36,11 @@ void write_vector(H5::Group& group, const std::string& name, const std::vector<s
 void write_vector(H5::Group& group, const std::string& name, const std::vector<std::int64_t>& v);
 void write_vector(H5::Group& group, const std::string& name, const std::vector<std::int32_t>& v);
 void write_strings(H5::Group& group, const std::string& name, const std::vector<std::string>& v);
+// A large float64 array written straight from memory as a 1-D dataset: chunked and Fletcher32-
+// checksummed like the others but not compressed (deflate would take several times as long as
+// computing the values); read it back with read_doubles.
+void write_large_doubles(H5::Group& group, const std::string& name, const double* data,
+                         std::size_t count);
 std::vector<double> read_doubles(const H5::Group& group, const std::string& name);
 std::vector<std::uint64_t> read_uint64s(const H5::Group& group, const std::string& name);
 std::vector<std::int64_t> read_int64s(const H5::Group& group, const std::string& name);

@@ -71,13 +71,32 @@ std::uint64_t UnitGeometry::global(unsigned sigma_local) const {
 
 namespace {
 
-using Real = long double;
+// log of an upper bound on the weight (in units of the cover set's scale product) that a unit's
+// double tables can lose below DBL_MIN (docs/mathematics.md). A term dropped at step i is below
+// DBL_MIN times that step's normalisation exp(log_norm[i]); each step has at most 2 S^2 such
+// terms (and the tables behind them as many), and a term grows by at most the factor sums
+// `log_step_sum[j]` of the later steps j (from any state, the options of outside vertex j weigh
+// at most their sum) and then by the largest end weight.
+double log_dropped_weight_bound(const std::vector<long double>& log_norm,
+                                const std::vector<double>& log_step_sum, double log_max_end,
+                                int m) {
+  const int no = static_cast<int>(log_step_sum.size());
+  const double log_terms = std::log(4.0) + 4 * m * std::log(2.0);
+  long double worst = -INFINITY, later = std::max(0.0, log_max_end);
+  for (int i = static_cast<int>(log_norm.size()) - 1; i >= 0; --i) {
+    worst = std::max(worst, log_norm[i] + later);
+    if (i > 0 && i - 1 < no) later += std::max(0.0, log_step_sum[i - 1]);
+  }
+  return static_cast<double>(worst) + std::log(std::numeric_limits<Real>::min()) + log_terms +
+         std::log(double(no) + 2);
+}
 
 // Fills one unit's tables (see UnitLayout) and returns its log weight. `oscale`/`cscale` are the
 // per-vertex log scales of this cover set (every factor below is exp(score - scale) <= 1).
+// *log_dropped receives log_dropped_weight_bound for the largest normalisation the unit used.
 double build_unit(const CoverLocalScores& local, const UnitGeometry& g,
                   const std::vector<double>& oscale, const std::vector<double>& cscale,
-                  double log_scale_sum, Real* arena) {
+                  double log_scale_sum, Real* arena, double* log_dropped) {
   const int m = g.m, no = local.num_outside();
   const unsigned P = 1U << m, full = P - 1;
   const std::size_t S = std::size_t{1} << (2 * m);
@@ -89,7 +108,7 @@ double build_unit(const CoverLocalScores& local, const UnitGeometry& g,
     perm[s] = c;
   }
   auto factor = [](double score, double scale) -> Real {
-    return score == -INFINITY ? Real(0) : std::exp(static_cast<Real>(score) - scale);
+    return score == -INFINITY ? Real(0) : std::exp(score - scale);
   };
   Real* leaf = arena + lay.leaf;
   Real* link_parent = arena + lay.link_parent;
@@ -148,6 +167,21 @@ double build_unit(const CoverLocalScores& local, const UnitGeometry& g,
   // Forward pass over the outside vertices, rescaled to max 1 at every step.
   Real* F = arena + lay.forward;
   F[0] = 1;
+  // The sum of each outside vertex's options bounds how much a forward weight grows per step.
+  std::vector<double> log_step_sum(no);
+  for (int i = 0; i < no; ++i) {
+    Real sum = 0;
+    for (unsigned pp = 0; pp < P; ++pp) sum += leaf[(i << m) | pp];
+    const Real* rows = link + (std::size_t(i) * P << m);
+    for (std::size_t x = 0; x < std::size_t{P} * P; ++x) sum += rows[x];
+    log_step_sum[i] = std::log(sum);
+  }
+  std::vector<long double> log_norm(1, 0.0L);  // normalisation of F_0..F_i
+  auto dropped_bound = [&](double log_max_end) {
+    return log_scale_sum + log_dropped_weight_bound(log_norm, log_step_sum, log_max_end, m);
+  };
+  const double log_max_end = m * std::log(double(P));  // R <= (sum of P factors <= 1)^m
+  *log_dropped = dropped_bound(log_max_end);
   long double log_scale = 0;
   for (int i = 0; i < no; ++i) {
     const Real* cur = F + i * S;
@@ -167,11 +201,15 @@ double build_unit(const CoverLocalScores& local, const UnitGeometry& g,
       }
     }
     const Real top = *std::max_element(nxt, nxt + S);
-    if (top == 0) return -INFINITY;
+    if (top == 0) {
+      *log_dropped = dropped_bound(log_max_end);
+      return -INFINITY;
+    }
     arena[lay.step_scale + i] = top;
     const Real inv = 1 / top;
     for (std::size_t s = 0; s < S; ++s) nxt[s] *= inv;
-    log_scale += std::log(top);
+    log_scale += std::log(static_cast<long double>(top));
+    log_norm.push_back(log_scale);
   }
 
   // End: members without a link choose their sets; N and those sets must cover C.
@@ -201,6 +239,7 @@ double build_unit(const CoverLocalScores& local, const UnitGeometry& g,
   const Real* last = F + no * S;
   Real total = 0;
   for (std::size_t s = 0; s < S; ++s) total += last[s] * R[s];
+  *log_dropped = dropped_bound(std::log(*std::max_element(R, R + S)));
   if (total == 0) return -INFINITY;
   return static_cast<double>(static_cast<long double>(log_scale_sum) + log_scale + std::log(total));
 }
@@ -208,7 +247,7 @@ double build_unit(const CoverLocalScores& local, const UnitGeometry& g,
 }  // namespace
 
 double SamplerData::unit_bytes(int m, int num_outside) {
-  return double(UnitLayout::of(m, num_outside).total) * sizeof(long double) + sizeof(UnitGeometry);
+  return double(UnitLayout::of(m, num_outside).total) * sizeof(Real) + kUnitOverheadBytes;
 }
 
 void SamplerData::build_alias() {
@@ -258,7 +297,31 @@ void SamplerData::finish() {
                      "vertex cover of size <= " + std::to_string(k) + " uses only parent sets " +
                      "of the table (required edges may need a larger cover); the total weight " +
                      "U is 0");
+  check_number_range();
   build_alias();
+}
+
+void SamplerData::check_number_range() {
+  // Built here (a loaded sampler was checked when it was built): the weight the double tables
+  // may have dropped must be negligible against U.
+  constexpr double kLogNegligible = -30;  // about 1e-13
+  double worst = -INFINITY;
+  for (double b : log_dropped_bound) worst = std::max(worst, b);
+  log_dropped_bound.clear();
+  log_dropped_bound.shrink_to_fit();
+  if (worst == -INFINITY || worst - log_u < kLogNegligible) return;
+  throw Error("cover bound " + std::to_string(k) +
+              ": the split weights of this score table span more than the exact sampler's "
+              "double-precision tables hold (log U = " +
+              std::to_string(log_u) + ", possible loss up to log " + std::to_string(worst) +
+              "); use a smaller --cover");
+}
+
+void require_sampler_memory(int n, int k, std::size_t limit) {
+  require_memory(CoverSampler::estimate_memory_bytes(n, k), limit,
+                 "the split tables of the exact sampler for cover bound " + std::to_string(k) +
+                     " on " + std::to_string(n) + " variables",
+                 "a smaller --cover shrinks them (or raise --memory-limit)");
 }
 
 void SamplerData::layout_units() {
@@ -321,10 +384,7 @@ CoverSampler CoverSampler::build(const ScoreTable& table, int k,
                                  const CoverSamplerOptions& options) {
   check_cover_bound(table, k);
   const int n = table.num_variables();
-  require_memory(estimate_memory_bytes(n, k), options.memory_limit_bytes,
-                 "the split tables of the exact sampler for cover bound " + std::to_string(k) +
-                     " on " + std::to_string(n) + " variables",
-                 "a smaller --cover shrinks them (or raise --memory-limit)");
+  detail::require_sampler_memory(n, k, options.memory_limit_bytes);
   CoverSampler sampler;
   sampler.impl_ = std::make_unique<Impl>();
   Impl& d = *sampler.impl_;
@@ -332,7 +392,8 @@ CoverSampler CoverSampler::build(const ScoreTable& table, int k,
   d.k = k;
   d.fingerprint = table.fingerprint();
   d.layout_units();
-  d.arena.assign(d.arena_size, 0.0L);
+  d.arena.assign(d.arena_size, 0.0);
+  d.log_dropped_bound.assign(d.units.size(), -INFINITY);
 
   Progress progress("cover sampler: split tables",
                     options.show_progress && Progress::stderr_is_terminal());
@@ -364,12 +425,13 @@ CoverSampler CoverSampler::build(const ScoreTable& table, int k,
         std::iota(order.begin(), order.end(), 0);
         std::size_t u = d.cover_first_unit[c];
         do {
-          UnitGeometry& g = d.units[u++];
+          UnitGeometry& g = d.units[u];
           g.set(order.data(), local.members);
-          g.log_weight = feasible ? detail::build_unit(local, g, oscale, cscale,
-                                                       static_cast<double>(scale_sum),
-                                                       d.arena.data() + g.offset)
+          g.log_weight = feasible ? detail::build_unit(
+                                        local, g, oscale, cscale, static_cast<double>(scale_sum),
+                                        d.arena.data() + g.offset, &d.log_dropped_bound[u])
                                   : -INFINITY;
+          ++u;
         } while (std::next_permutation(order.begin(), order.end()));
       }
     });
@@ -404,7 +466,7 @@ std::size_t CoverSampler::clamped_splits() const {
   return 0;
 }
 std::size_t CoverSampler::memory_bytes() const {
-  return impl_->arena.size() * sizeof(long double) + impl_->units.size() * sizeof(UnitGeometry) +
+  return impl_->arena.size() * sizeof(detail::Real) + impl_->units.size() * sizeof(UnitGeometry) +
          impl_->alias_prob.size() * (sizeof(double) + sizeof(std::size_t));
 }
 std::uint64_t CoverSampler::table_fingerprint() const {

@@ -8,8 +8,6 @@
 namespace covey::detail {
 namespace {
 
-using Real = long double;
-
 // Index i with probability w[i] / sum(w).
 std::size_t pick_index(const Real* w, std::size_t count, Rng& rng) {
   Real total = 0;

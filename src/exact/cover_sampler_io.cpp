@@ -1,16 +1,20 @@
 // Saving and loading the exact cover-bounded sampler (layout: docs/file-formats.md). The tables
-// are stored bit for bit (each long double as a 64-bit mantissa and an exponent), so a loaded
-// sampler gives exactly the draws of the one that was saved.
+// are stored as one float64 dataset written straight from the arena and read straight into it
+// (no per-element conversion, no second copy), so a loaded sampler gives exactly the draws of
+// the one that was saved and saving or loading holds no more memory than the tables themselves.
 #include <cinttypes>
 #include <cmath>
 #include <cstdio>
 #include <cstring>
 #include <limits>
+#include <type_traits>
 
 #include "core/h5.hpp"
 #include "cover_sampler_impl.hpp"
+#include "core/h5.hpp"
 #include "covey/core/atomic_file.hpp"
 #include "covey/core/error.hpp"
+#include "covey/core/memory.hpp"
 #include "covey/core/version.hpp"
 #include "covey/exact/cover_best.hpp"
 
@@ -18,45 +22,60 @@ namespace covey {
 namespace {
 
 constexpr const char* kSamplerKind = "cover-sampler";
-constexpr long long kSamplerFormatVersion = 1;
-static_assert(std::numeric_limits<long double>::digits <= 64,
-              "the sampler file stores long double mantissas in 64 bits");
+// 2: the tables as float64 `/tables/values` (format 1 stored long doubles as mantissa and
+// exponent datasets).
+constexpr long long kSamplerFormatVersion = 2;
+static_assert(std::is_same_v<detail::Real, double>,
+              "the sampler file stores the tables as float64");
 
-// FNV-1a over the stored tables (bit patterns): a sampler file whose contents were changed after
-// saving (checksums recomputed, hand edits) would otherwise give wrong draws or reach states of
-// weight 0; a digest mismatch is reported as a corrupt file instead.
+// A digest of the stored tables: a sampler file whose contents were changed after saving
+// (checksums recomputed, hand edits) would otherwise give wrong draws or reach states of weight
+// 0; a digest mismatch is reported as a corrupt file instead. FNV-1a steps over 64-bit words in
+// four interleaved lanes (docs/file-formats.md), fast enough for tables of many GiB.
 class Digest {
  public:
   template <class T>
-  void add(const std::vector<T>& values) {
-    add_bytes(values.size());
-    for (const T& v : values) add_bytes(v);
+  void add(const T* values, std::size_t count) {
+    add_value(static_cast<std::uint64_t>(count));
+    const std::size_t bytes = count * sizeof(T);
+    const auto* p = reinterpret_cast<const unsigned char*>(values);
+    std::size_t i = 0;
+    for (; i + 32 <= bytes; i += 32)
+      for (int l = 0; l < 4; ++l) {
+        std::uint64_t w;
+        std::memcpy(&w, p + i + 8 * l, 8);
+        h_[l] = (h_[l] ^ w) * kPrime;
+      }
+    for (; i < bytes; ++i) h_[0] = (h_[0] ^ p[i]) * kPrime;
   }
   template <class T>
-  void add_bytes(const T& value) {
-    unsigned char bytes[sizeof(T)];
-    std::memcpy(bytes, &value, sizeof(T));
-    for (unsigned char b : bytes) h_ = (h_ ^ b) * 1099511628211ULL;
+  void add(const std::vector<T>& values) {
+    add(values.data(), values.size());
   }
-  std::uint64_t value() const { return h_; }
+  void add_value(std::uint64_t value) { h_[0] = (h_[0] ^ value) * kPrime; }
+  std::uint64_t value() const {
+    std::uint64_t h = h_[0];
+    for (int l = 1; l < 4; ++l) h = (h ^ h_[l]) * kPrime;
+    return h;
+  }
 
  private:
-  std::uint64_t h_ = 14695981039346656037ULL;
+  static constexpr std::uint64_t kPrime = 1099511628211ULL;
+  std::uint64_t h_[4] = {14695981039346656037ULL, 14695981039346656037ULL ^ 1,
+                         14695981039346656037ULL ^ 2, 14695981039346656037ULL ^ 3};
 };
 
 std::uint64_t tables_digest(long long k, long long n, const std::vector<std::uint64_t>& covers,
                             const std::vector<std::int32_t>& orders,
                             const std::vector<double>& log_weights,
-                            const std::vector<std::uint64_t>& mantissa,
-                            const std::vector<std::int32_t>& exponent) {
+                            const std::vector<detail::Real>& values) {
   Digest d;
-  d.add_bytes(k);
-  d.add_bytes(n);
+  d.add_value(static_cast<std::uint64_t>(k));
+  d.add_value(static_cast<std::uint64_t>(n));
   d.add(covers);
   d.add(orders);
   d.add(log_weights);
-  d.add(mantissa);
-  d.add(exponent);
+  d.add(values);
   return d.value();
 }
 
@@ -86,27 +105,16 @@ void CoverSampler::save(const std::string& path) const {
     h5::write_vector(units, "cover", covers);
     h5::write_vector(units, "order", orders);
     h5::write_vector(units, "log_weight", log_weights);
-    std::vector<std::uint64_t> mantissa(d.arena.size());
-    std::vector<std::int32_t> exponent(d.arena.size());
-    for (std::size_t i = 0; i < d.arena.size(); ++i) {
-      const long double x = d.arena[i];
-      if (x == 0) continue;
-      int e = 0;
-      const long double fraction = std::frexp(x, &e);  // in [0.5, 1)
-      mantissa[i] = static_cast<std::uint64_t>(std::ldexp(fraction, 64));
-      exponent[i] = e;
-    }
     H5::Group tables = file.createGroup("tables");
-    h5::write_vector(tables, "mantissa", mantissa);
-    h5::write_vector(tables, "exponent", exponent);
+    h5::write_large_doubles(tables, "values", d.arena.data(), d.arena.size());
     h5::set_attr(file, "tables_digest",
-                 format_fingerprint(
-                     tables_digest(d.k, d.n, covers, orders, log_weights, mantissa, exponent)));
+                 format_fingerprint(tables_digest(d.k, d.n, covers, orders, log_weights, d.arena)));
   });
   out.commit();
 }
 
-CoverSampler CoverSampler::load(const std::string& path, const ScoreTable& table) {
+CoverSampler CoverSampler::load(const std::string& path, const ScoreTable& table,
+                                const CoverSamplerOptions& options) {
   H5::H5File file = h5::open_read(path);
   CoverSampler sampler;
   sampler.impl_ = std::make_unique<Impl>();
@@ -115,8 +123,13 @@ CoverSampler CoverSampler::load(const std::string& path, const ScoreTable& table
     if (!h5::has_attr(file, "kind") || h5::get_attr_string(file, "kind") != kSamplerKind)
       throw InputError(path + ": not a covey exact-sampler file (kind is not '" +
                        std::string(kSamplerKind) + "')");
-    if (h5::get_attr_int(file, "format_version") > kSamplerFormatVersion)
-      throw InputError(path + ": written by a newer covey");
+    const long long version = h5::get_attr_int(file, "format_version");
+    if (version > kSamplerFormatVersion) throw InputError(path + ": written by a newer covey");
+    if (version < kSamplerFormatVersion)
+      throw InputError(path + ": sampler format " + std::to_string(version) +
+                       " of an older covey (this one reads format " +
+                       std::to_string(kSamplerFormatVersion) +
+                       "); build and save the sampler again with --save-sampler");
     const std::string fingerprint = h5::get_attr_string(file, "table_fingerprint");
     if (h5::get_attr_int(file, "num_variables") != table.num_variables() ||
         fingerprint != format_fingerprint(table.fingerprint()))
@@ -126,6 +139,7 @@ CoverSampler CoverSampler::load(const std::string& path, const ScoreTable& table
     d.n = table.num_variables();
     d.k = static_cast<int>(h5::get_attr_int(file, "cover_bound"));
     check_cover_bound(table, d.k, (path + ": cover bound").c_str());
+    detail::require_sampler_memory(d.n, d.k, options.memory_limit_bytes);
     d.fingerprint = table.fingerprint();
     d.layout_units();
     H5::Group units = file.openGroup("units");
@@ -155,26 +169,19 @@ CoverSampler CoverSampler::load(const std::string& path, const ScoreTable& table
       if (std::isnan(g.log_weight) || g.log_weight == INFINITY)
         throw InputError(path + ": invalid unit weight (corrupted?)");
     }
-    H5::Group tables = file.openGroup("tables");
-    const auto mantissa = h5::read_uint64s(tables, "mantissa");
-    const auto exponent = h5::read_int32s(tables, "exponent");
-    if (mantissa.size() != d.arena_size || exponent.size() != d.arena_size)
-      throw InputError(path + ": the tables do not match the unit list (corrupted?)");
     if (!h5::has_attr(file, "tables_digest"))
       throw InputError(path +
                        ": no tables_digest attribute (saved by an older covey?); save the "
                        "sampler again with --save-sampler");
+    H5::Group tables = file.openGroup("tables");
+    d.arena = h5::read_doubles(tables, "values");
+    if (d.arena.size() != d.arena_size)
+      throw InputError(path + ": the tables do not match the unit list (corrupted?)");
     if (h5::get_attr_string(file, "tables_digest") !=
-        format_fingerprint(
-            tables_digest(d.k, d.n, covers, orders, log_weights, mantissa, exponent)))
+        format_fingerprint(tables_digest(d.k, d.n, covers, orders, log_weights, d.arena)))
       throw InputError(path +
                        ": the sampler tables do not match their digest (the file was "
                        "changed after it was saved; save the sampler again)");
-    d.arena.resize(d.arena_size);
-    for (std::size_t i = 0; i < d.arena_size; ++i)
-      d.arena[i] = mantissa[i] == 0
-                       ? 0.0L
-                       : std::ldexp(static_cast<long double>(mantissa[i]), exponent[i] - 64);
   });
   d.finish();
   return sampler;

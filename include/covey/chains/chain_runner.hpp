@@ -8,6 +8,7 @@
 // thread count, on when checkpoints happen, or on whether the run was stopped and resumed: the
 // same seed gives identical draws with 1 or 8 threads, and N steps + resume to 2N equals 2N
 // steps straight.
+#include <algorithm>
 #include <atomic>
 #include <cmath>
 #include <cstdint>
@@ -120,6 +121,18 @@ BlockSettings choose_block_settings(const ScoreTable& table, double share = 0.5,
 // weights and one draw), and of one local or REV step.
 double estimate_block_step_seconds(const ScoreTable& table, int m);
 double estimate_local_step_seconds(const ScoreTable& table);
+
+// Makes room for `extra` more elements at the end of `v`. When the capacity is short it at least
+// doubles it, so a buffer that gets one segment of rows after another (the runner's draws
+// between checkpoints) is reallocated O(log size) times rather than once per segment, which
+// copied the whole buffer each time. Returns true when it reallocated.
+template <class T>
+bool reserve_for_append(std::vector<T>& v, std::size_t extra) {
+  const std::size_t need = v.size() + extra;
+  if (need <= v.capacity()) return false;
+  v.reserve(std::max(need, 2 * v.capacity()));
+  return true;
+}
 
 // Parses a duration: a number with an optional unit s, m, h or d ("90s", "10m", "2h", "1.5h",
 // "45" = seconds). Throws InputError naming `option`.

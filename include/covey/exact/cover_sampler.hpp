@@ -73,10 +73,15 @@ class CoverSampler {
   // the split it came from. (draw() accepts it iff that split is canonical.)
   Dag draw_proposal(Rng& rng, std::uint64_t* cover = nullptr) const;
 
-  void save(const std::string& path) const;  // HDF5, atomic; stores the table fingerprint
-  static CoverSampler load(const std::string& path, const ScoreTable& table);  // checks it
+  // HDF5, atomic; stores the table fingerprint. Holds no memory beyond the tables.
+  void save(const std::string& path) const;
+  // Checks the fingerprint, and the memory of the tables against options.memory_limit_bytes
+  // before reading them (ResourceError as in build).
+  static CoverSampler load(const std::string& path, const ScoreTable& table,
+                           const CoverSamplerOptions& options = {});
 
-  // Bytes the tables of `build` need for n variables and bound k.
+  // Bytes that building, saving or loading the tables needs at its peak for n variables and
+  // bound k (the tables, plus a few words per unit).
   static double estimate_memory_bytes(int n, int k);
 
  private:
