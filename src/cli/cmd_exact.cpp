@@ -9,6 +9,7 @@
 #include "command.hpp"
 #include "common.hpp"
 #include "covey/core/error.hpp"
+#include "covey/core/logmath.hpp"
 #include "covey/core/memory.hpp"
 #include "covey/core/version.hpp"
 #include "covey/exact/exact_posterior.hpp"
@@ -122,7 +123,14 @@ void run_exact(const ExactArgs& a) {
   else if (cover_from_draws)
     dags = engine.draw_many(a.cover_draws, a.seed);
   std::optional<ClassMass> cover_mass;
-  if (a.cover >= 0) cover_mass = cover_class_mass(table, a.cover, dags);
+  if (a.cover >= 0) {
+    cover_mass = cover_class_mass(table, a.cover, dags);
+    // No exact draw inside D_k: the mass is below 1/draws, so take it as Z_k / Z from the
+    // cover engine, which stays finite however small it is.
+    if (cover_mass->method == "exact-draws" && cover_mass->inside == 0)
+      cover_mass = cover_class_mass_from_weights(table, a.cover, post.log_total_weight, a.seed,
+                                                 2000, memory_limit(a.memory_limit));
+  }
 
   if (a.draws > 0) {
     std::vector<double> log_weights;
@@ -164,14 +172,15 @@ void run_exact(const ExactArgs& a) {
                                     {"ci95", {m.lo, m.hi}},
                                     {"method", m.method},
                                     {"draws", static_cast<unsigned long long>(m.draws)},
-                                    {"inside", static_cast<unsigned long long>(m.inside)}};
+                                    {"inside", static_cast<unsigned long long>(m.inside)},
+                                    {"log10_estimate", m.log_estimate / std::log(10.0)}};
       // log Z_k = log Z + log P(D_k | data); null when no DAG of the class has weight.
-      auto log_of = [&](double p) -> nlohmann::json {
-        if (!(p > 0)) return nullptr;
-        return post.log_total_weight + std::log(p);
+      auto log_weight = [&](double log_mass) -> nlohmann::json {
+        if (!(log_mass > kNegInf)) return nullptr;
+        return post.log_total_weight + log_mass;
       };
-      out["log_cover_weight"] = log_of(m.estimate);
-      out["log_cover_weight_ci95"] = {log_of(m.lo), log_of(m.hi)};
+      out["log_cover_weight"] = log_weight(m.log_estimate);
+      out["log_cover_weight_ci95"] = {log_weight(m.log_lo), log_weight(m.log_hi)};
     }
     print_json(out);
     return;
@@ -190,16 +199,24 @@ void run_exact(const ExactArgs& a) {
     std::cout << a.draws << " exact draws (seed " << a.seed << ") written to " << a.output << '\n';
   if (cover_mass) {
     const ClassMass& m = *cover_mass;
-    char text[200];
+    char text[400];
+    const std::string estimate = format_probability(m.estimate, m.log_estimate);
+    const std::string lo = format_probability(m.lo, m.log_lo);
+    const std::string hi = format_probability(m.hi, m.log_hi);
     if (m.method == "enumeration")
-      std::snprintf(text, sizeof text, "%.6f (exact, by enumeration)", m.estimate);
+      std::snprintf(text, sizeof text, "%s (exact, by enumeration)", estimate.c_str());
+    else if (m.method == "cover-engine")
+      std::snprintf(text, sizeof text,
+                    "%s (95%% interval %s to %s, Z_k / Z from %zu exact draws of D_%d in %zu "
+                    "trials; none of the exact draws over all DAGs was inside)",
+                    estimate.c_str(), lo.c_str(), hi.c_str(), m.inside, a.cover, m.draws);
     else
-      std::snprintf(text, sizeof text, "%.6f (95%% interval %.6f to %.6f, %zu of %zu exact draws)",
-                    m.estimate, m.lo, m.hi, m.inside, m.draws);
+      std::snprintf(text, sizeof text, "%s (95%% interval %s to %s, %zu of %zu exact draws)",
+                    estimate.c_str(), lo.c_str(), hi.c_str(), m.inside, m.draws);
     std::cout << "posterior mass of D_" << a.cover << " (moral graph cover <= " << a.cover
               << "): " << text << '\n';
-    if (m.estimate > 0) {
-      std::snprintf(text, sizeof text, "%.10g", post.log_total_weight + std::log(m.estimate));
+    if (m.log_estimate > kNegInf) {
+      std::snprintf(text, sizeof text, "%.10g", post.log_total_weight + m.log_estimate);
       std::cout << "log total weight of D_" << a.cover << " (log Z_k = log Z + log mass): " << text
                 << '\n';
     }

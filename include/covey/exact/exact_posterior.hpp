@@ -121,9 +121,12 @@ namespace covey {
 struct ClassMass {
   double estimate = 0;     // P(class | data) under the posterior over all DAGs of the table
   double lo = 0, hi = 0;   // 95% interval (Wilson for draws; the estimate itself when exact)
-  std::string method;      // "enumeration" or "exact-draws"
-  std::size_t draws = 0;   // draws used (exact-draws)
+  std::string method;      // "enumeration", "exact-draws" or "cover-engine"
+  std::size_t draws = 0;   // draws used (exact-draws, cover-engine)
   std::size_t inside = 0;  // of which inside the class
+  // The same on a natural-log scale, finite however small the mass (-inf only for no DAG):
+  // tiny masses are shown as powers of ten from these, never as 0.
+  double log_estimate = 0, log_lo = 0, log_hi = 0;
 };
 
 using DagPredicate = std::function<bool(const Dag&)>;
@@ -137,5 +140,15 @@ ClassMass class_mass_from_draws(const std::vector<Dag>& draws, const DagPredicat
 // n <= kCoverMassEnumerationMax, else from `draws` (exact draws of this table).
 inline constexpr int kCoverMassEnumerationMax = 6;
 ClassMass cover_class_mass(const ScoreTable& table, int k, const std::vector<Dag>& draws);
+// The mass of D_k as Z_k / Z: log Z_k from the cover engine's exact draws (log U times the
+// acceptance rate, Wilson interval; docs/mathematics.md section 4) minus `log_total_weight`
+// (log Z over all DAGs). Finite however small the mass: the route when exact draws over all
+// DAGs find none inside D_k. `trials_wanted` accepted cover draws are made from `seed`.
+ClassMass cover_class_mass_from_weights(const ScoreTable& table, int k, double log_total_weight,
+                                        std::uint64_t seed, std::size_t accepted_wanted = 2000,
+                                        std::uint64_t memory_limit = 0);
+// Text of a probability for people: fixed decimals down to 1e-4, below that a power of ten
+// from its natural log ("10^-37.4"), never "0" for a positive mass.
+std::string format_probability(double estimate, double log_estimate);
 
 }  // namespace covey
