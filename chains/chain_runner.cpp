@@ -38,6 +38,10 @@ constexpr std::size_t kMaxPendingBytes = std::size_t{256} << 20;
 // A checkpoint copies the whole file: it is spaced so that writing takes at most 1/20 of the
 // time (a floor on the interval for large files).
 constexpr double kMaxCheckpointShare = 0.05;
+// Teleports into a class holding at most this share of the posterior (log10) are called useless.
+constexpr double kNegligibleMassLog10 = -6;
+// The stream of the greedy ascent that judges teleports: past any chain's id.
+constexpr std::uint64_t kTeleportJudgeStream = std::uint64_t{1} << 62;
 
 struct Slot {
   Slot(const ScoreTable& table, const ChainConfig& config) : chain(table, config) {}
@@ -162,6 +166,7 @@ class Runner {
       slots_.push_back(std::move(slot));
     }
     steps_ = 0;
+    judge_teleports();
     chain_file::Header header;
     header.variables = variable_names(table_.variables());
     header.fingerprint = table_.fingerprint();
@@ -194,6 +199,35 @@ class Runner {
     clear_pending();
     checkpoints_ = 1;
     session_recorded_ = true;
+  }
+
+  // Whether D_k can hold enough of the posterior for teleports to be accepted: P(D_k | data) =
+  // Z_k / Z <= U / w(G) for any DAG G of the table, so the cover engine's log U against the best
+  // score among the starts and a greedy ascent bounds the mass from above (no estimate needed).
+  // Stored in the session record of the run file and said once on the terminal when negligible.
+  void judge_teleports() {
+    if (o_.teleport_rate <= 0 || !hooks_.teleport) return;
+    double level = -std::numeric_limits<double>::infinity();
+    for (const auto& s : slots_) level = std::max(level, s->chain.log_score());
+    // A stream of its own (past every chain's), so the chains' trajectories are unchanged.
+    Rng rng = make_stream(o_.seed, kTeleportJudgeStream);
+    StructureChain probe(table_, ChainConfig{});
+    probe.set_parents(greedy_start(table_, rng), "greedy ascent");
+    level = std::max(level, probe.log_score());
+    const double bound_log10 = (hooks_.teleport->log_class_weight_bound() - level) / std::log(10.0);
+    teleport_mass_bound_log10_ = bound_log10;
+    session_["teleport_mass_bound_log10"] = bound_log10;
+    if (bound_log10 >= kNegligibleMassLog10) return;
+    char text[320];
+    std::snprintf(text, sizeof text,
+                  "teleports: D_%d holds at most 10^%.1f of the posterior mass (the cover engine's "
+                  "total weight against the best score found), so teleports will rarely or never "
+                  "be accepted; block moves (--block-size, on by default) bring the exact engine "
+                  "into the chain instead",
+                  o_.teleport_cover, bound_log10);
+    teleport_note_ = text;
+    session_["teleport_note"] = teleport_note_;
+    if (rank_ == 0) std::fprintf(stderr, "covey: note: %s\n", text);
   }
 
   void resume() {
@@ -343,6 +377,8 @@ class Runner {
     summary.regenerations.assign(totals.begin() + 2 * kNumMoves + 1, totals.end());
     summary.session_proposals = totals[2 * kNumMoves];
     summary.stop_reason = reason;
+    summary.teleport_mass_bound_log10 = teleport_mass_bound_log10_;
+    summary.teleport_note = teleport_note_;
     return summary;
   }
 
@@ -486,6 +522,8 @@ class Runner {
   double prior_elapsed_ = 0, checkpoint_seconds_ = 0;
   nlohmann::json session_;
   bool session_recorded_ = false;
+  double teleport_mass_bound_log10_ = std::numeric_limits<double>::quiet_NaN();
+  std::string teleport_note_;
 };
 
 }  // namespace
@@ -570,6 +608,9 @@ nlohmann::json ChainRunSummary::to_json() const {
       {"regenerations_per_chain", regenerations},
       {"stop_reason", stop_reason}};
   if (convergence_checked) out["convergence"] = convergence.to_json();
+  if (!std::isnan(teleport_mass_bound_log10))
+    out["teleport_mass_bound_log10"] = teleport_mass_bound_log10;
+  if (!teleport_note.empty()) out["teleport_note"] = teleport_note;
   return out;
 }
 

@@ -52,6 +52,7 @@ class CoverTeleport : public TeleportSource {
       : sampler_(std::move(sampler)), support_(sampler_.cover_bound()) {}
   const DagClass& support() const override { return support_; }
   Dag draw(Rng& rng) const override { return sampler_.draw(rng); }
+  double log_class_weight_bound() const override { return sampler_.log_upper_bound(); }
 
  private:
   CoverSampler sampler_;

@@ -32,5 +32,33 @@ TEST(ChainTeleportCli, TeleportsRegenerateAndLimitMustContainTeleportClass) {
       << bad.err;
 }
 
+// Teleports into a class that holds almost none of the posterior are said to be useless, once,
+// on the terminal and in the run's JSON and session record, from the bound U / w(G) of the mass.
+TEST(ChainTeleportCli, SaysWhenTheTeleportClassHoldsNoMass) {
+  testing_util::TempDir dir;
+  write_scores_tsv(testing_util::dense_full_table(6, 31), dir.file("dense.tsv"));
+  const auto r = run_covey("chain " + dir.file("dense.tsv") + " -o " + dir.file("run.h5") +
+                           " --chains 2 --steps 2000 --teleport-cover 0 --teleport-rate 0.01 "
+                           "--seed 3 --json");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  const auto summary = nlohmann::json::parse(r.out);
+  // D_0 is the empty graph alone, a negligible share of this dense posterior.
+  EXPECT_LT(summary["teleport_mass_bound_log10"].get<double>(), -6.0);
+  EXPECT_NE(summary.value("teleport_note", "").find("block moves"), std::string::npos);
+  EXPECT_NE(r.err.find("covey: note: teleports: D_0 holds at most 10^"), std::string::npos)
+      << r.err;
+
+  // Where D_2 holds a real share (the table of the test above), no note.
+  write_scores_tsv(testing_util::random_full_table(5, 2, 17), dir.file("s.tsv"));
+  const auto ok = run_covey("chain " + dir.file("s.tsv") + " -o " + dir.file("run2.h5") +
+                            " --chains 2 --steps 2000 --teleport-cover 2 --teleport-rate 0.05 "
+                            "--seed 3 --json");
+  ASSERT_EQ(ok.exit_code, 0) << ok.err;
+  const auto quiet = nlohmann::json::parse(ok.out);
+  EXPECT_GT(quiet["teleport_mass_bound_log10"].get<double>(), -6.0);
+  EXPECT_FALSE(quiet.contains("teleport_note"));
+  EXPECT_EQ(ok.err.find("note: teleports"), std::string::npos) << ok.err;
+}
+
 }  // namespace
 }  // namespace covey

@@ -133,29 +133,11 @@ TEST(ClassMass, CoverMassTimesTotalAgreesWithTheCoverEngineAtEightVariables) {
   EXPECT_LT(std::abs(cover.log_estimate - exact_estimate), 4 * std::hypot(se_exact, se_cover));
 }
 
-// A table whose posterior sits on dense DAGs: every parent set of size <= 3 with log score
-// 4 |S| plus noise, so D_1 holds a tiny share of the mass.
-ScoreTable dense_table(int n) {
-  const ScoreTable base = testing_util::random_full_table(n, 3, 31);
-  std::vector<NodeScores> nodes(n);
-  for (int v = 0; v < n; ++v) {
-    const auto cands = base.candidates(v);
-    nodes[v].candidates.assign(cands.begin(), cands.end());
-    const auto masks = base.parent_sets(v);
-    const auto scores = base.log_scores(v);
-    for (std::size_t k = 0; k < masks.size(); ++k) {
-      nodes[v].masks.push_back(masks[k]);
-      nodes[v].log_scores.push_back(scores[k] + 4.0 * std::popcount(masks[k]));
-    }
-  }
-  return ScoreTable(base.variables(), nodes);
-}
-
 // A tiny mass of D_k from the cover engine (Z_k / Z) against enumeration at n = 6, where exact
 // draws over all DAGs would find none inside: its 95% interval covers the enumerated mass, and
 // the text shows it as a power of ten, never as 0.
 TEST(ClassMass, TinyCoverMassFromTheCoverEngineMatchesEnumeration) {
-  const ScoreTable table = dense_table(6);
+  const ScoreTable table = testing_util::dense_full_table(6, 31);
   const ClassMass exact =
       class_mass_by_enumeration(table, [](const Dag& d) { return in_cover_class(d, 1); });
   ASSERT_GT(exact.estimate, 0.0);

@@ -54,6 +54,22 @@ ScoreTable random_full_table(int n, int max_indegree, std::uint64_t seed) {
   return full_table(n, max_indegree, seed, false);
 }
 
+ScoreTable dense_full_table(int n, std::uint64_t seed) {
+  const ScoreTable base = random_full_table(n, 3, seed);
+  std::vector<NodeScores> nodes(n);
+  for (int v = 0; v < n; ++v) {
+    const auto cands = base.candidates(v);
+    nodes[v].candidates.assign(cands.begin(), cands.end());
+    const auto masks = base.parent_sets(v);
+    const auto scores = base.log_scores(v);
+    for (std::size_t k = 0; k < masks.size(); ++k) {
+      nodes[v].masks.push_back(masks[k]);
+      nodes[v].log_scores.push_back(scores[k] + 4.0 * std::popcount(masks[k]));
+    }
+  }
+  return ScoreTable(base.variables(), nodes);
+}
+
 ScoreTable unit_table(int n, int max_indegree) {
   return full_table(n, max_indegree, 0, true);
 }

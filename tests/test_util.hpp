@@ -27,6 +27,9 @@ class TempDir {
 // A table over n variables holding every parent set of size <= max_indegree, with log scores
 // drawn as Normal(0, 1.2) - 0.5*|S| from a fixed seed (a common shape for sparse local scores).
 ScoreTable random_full_table(int n, int max_indegree, std::uint64_t seed);
+// random_full_table(n, 3, seed) with 4 |S| added to every log score: the posterior sits on dense
+// DAGs, so small cover-bounded classes (D_1) hold a tiny share of its mass.
+ScoreTable dense_full_table(int n, std::uint64_t seed);
 // A table holding every parent set with log score 0 (all DAG weights 1: counts DAGs).
 ScoreTable unit_table(int n, int max_indegree);
 

@@ -13,6 +13,7 @@
 #include <cmath>
 #include <cstdint>
 #include <functional>
+#include <limits>
 #include <nlohmann/json.hpp>
 #include <string>
 #include <vector>
@@ -91,6 +92,11 @@ struct ChainRunSummary {
   int stop_signal = 0;
   bool convergence_checked = false;
   ConvergenceStatus convergence;
+  // With teleports asked for: log10 of an upper bound of the posterior mass of their class D_k
+  // (the cover engine's U against the best start score; NaN otherwise), and a note when that
+  // bound is negligible (teleports will rarely or never be accepted).
+  double teleport_mass_bound_log10 = std::numeric_limits<double>::quiet_NaN();
+  std::string teleport_note;
   nlohmann::json to_json() const;
 };
 

@@ -33,6 +33,7 @@
 // local-move and REV paths (teleports and class tests use the cover module, which may).
 #include <array>
 #include <cstdint>
+#include <limits>
 #include <memory>
 #include <span>
 #include <string>
@@ -74,6 +75,10 @@ class TeleportSource {
   // The class the draws come from (membership of the current state decides acceptance).
   virtual const DagClass& support() const = 0;
   virtual Dag draw(Rng& rng) const = 0;
+  // An upper bound of log sum_{G in the class} w(G) (the cover engine's log U), or +inf when
+  // none is known. Against the score of a DAG the chain can reach it bounds the posterior mass
+  // of the class from above: Z_class / Z <= U / w(G) for any DAG G of the table.
+  virtual double log_class_weight_bound() const { return std::numeric_limits<double>::infinity(); }
 };
 
 // Deliberate errors of the block move (tests only): paths through the nodes outside the block
