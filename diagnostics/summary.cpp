@@ -11,6 +11,7 @@
 #include <string>
 #include <thread>
 
+#include "covey/core/enum_names.hpp"
 #include "covey/core/error.hpp"
 #include "covey/diagnostics/diagnostics.hpp"
 #include "diagnostics_internal.hpp"
@@ -167,16 +168,14 @@ std::vector<FeatureSummary> summarize_features(std::size_t count, int chains, in
   return out;
 }
 
+namespace {
+constexpr EnumName<FeatureStatus> kStatusNames[] = {{FeatureStatus::kUndefined, "undefined"},
+                                                    {FeatureStatus::kFail, "fail"},
+                                                    {FeatureStatus::kPass, "pass"}};
+}  // namespace
+
 const char* to_string(FeatureStatus status) {
-  switch (status) {
-    case FeatureStatus::kUndefined:
-      return "undefined";
-    case FeatureStatus::kFail:
-      return "fail";
-    case FeatureStatus::kPass:
-      return "pass";
-  }
-  return "?";
+  return enum_name(kStatusNames, status);
 }
 
 FeatureStatus assess(const FeatureSummary& s, const Thresholds& thresholds) {

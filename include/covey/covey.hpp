@@ -2,6 +2,7 @@
 // Every public header of covey, lowest layer first (DEVELOPERS.md, "Layers").
 
 #include "covey/core/atomic_file.hpp"
+#include "covey/core/enum_names.hpp"
 #include "covey/core/error.hpp"
 #include "covey/core/logmath.hpp"
 #include "covey/core/memory.hpp"

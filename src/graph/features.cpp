@@ -2,22 +2,20 @@
 
 #include <sstream>
 
+#include "covey/core/enum_names.hpp"
 #include "covey/core/error.hpp"
 
 namespace covey {
 
+namespace {
+constexpr EnumName<FeatureKind> kFeatureKindNames[] = {{FeatureKind::kEdge, "edge"},
+                                                       {FeatureKind::kAdjacency, "adjacency"},
+                                                       {FeatureKind::kAncestor, "ancestor"},
+                                                       {FeatureKind::kScore, "score"}};
+}  // namespace
+
 const char* to_string(FeatureKind kind) {
-  switch (kind) {
-    case FeatureKind::kEdge:
-      return "edge";
-    case FeatureKind::kAdjacency:
-      return "adjacency";
-    case FeatureKind::kAncestor:
-      return "ancestor";
-    case FeatureKind::kScore:
-      return "score";
-  }
-  return "?";
+  return enum_name(kFeatureKindNames, kind);
 }
 
 FeatureKinds parse_feature_kinds(const std::string& text, const std::string& option) {
