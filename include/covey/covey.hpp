@@ -36,6 +36,7 @@
 #include "covey/chains/chain_support.hpp"
 #include "covey/chains/structure_chain.hpp"
 
+#include "covey/analysis/check.hpp"
 #include "covey/analysis/posterior_compare.hpp"
 #include "covey/analysis/run_diagnostics.hpp"
 

@@ -73,6 +73,7 @@ std::string option_flag(const std::string& field) {
   static const std::pair<const char*, const char*> kRenamed[] = {
       {"ess", "--equivalent-sample-size"},
       {"k", "--cover"},
+      {"max_rhat", "--rhat"},
   };
   for (const auto& [name, flag] : kRenamed)
     if (field == name) return flag;

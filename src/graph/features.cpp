@@ -18,6 +18,17 @@ const char* to_string(FeatureKind kind) {
   return enum_name(kFeatureKindNames, kind);
 }
 
+std::string feature_label(const FeatureId& f, const std::vector<std::string>& names) {
+  if (f.kind == FeatureKind::kScore) return "log score";
+  auto name = [&](int i) {
+    return i >= 0 && i < static_cast<int>(names.size()) ? names[i] : "#" + std::to_string(i);
+  };
+  const char* link = f.kind == FeatureKind::kEdge        ? " \u2192 "
+                     : f.kind == FeatureKind::kAdjacency ? " \u2014 "
+                                                         : " \u21dd ";
+  return name(f.from) + link + name(f.to);
+}
+
 FeatureKinds parse_feature_kinds(const std::string& text, const std::string& option) {
   FeatureKinds kinds{false, false, false, false};
   std::stringstream in(text);

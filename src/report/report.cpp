@@ -20,14 +20,7 @@ const char* const kCausalCaution =
     "safety or health rest with qualified people and local rules.";
 
 std::string feature_label(const ReportFeature& f, const std::vector<std::string>& names) {
-  if (f.kind == FeatureKind::kScore) return "log score";
-  auto name = [&](int i) {
-    return i >= 0 && i < static_cast<int>(names.size()) ? names[i] : "#" + std::to_string(i);
-  };
-  const char* link = f.kind == FeatureKind::kEdge        ? " \u2192 "
-                     : f.kind == FeatureKind::kAdjacency ? " \u2014 "
-                                                         : " \u21dd ";
-  return name(f.from) + link + name(f.to);
+  return feature_label(FeatureId{f.kind, f.from, f.to}, names);
 }
 
 namespace {
@@ -422,7 +415,7 @@ Figure comparison_figure(const ReportData& d, const std::string& dir) {
     pt.x_error = 2 * p.se_a;
     pt.y_error = 2 * p.se_b;
     any_error = any_error || std::isfinite(p.se_a) || std::isfinite(p.se_b);
-    pt.label = feature_label({FeatureKind::kEdge, p.from, p.to}, d.variables);
+    pt.label = feature_label(FeatureId{FeatureKind::kEdge, p.from, p.to}, d.variables);
     sp.points.push_back(pt);
     if (!std::isfinite(p.a) || !std::isfinite(p.b)) continue;
     if (!largest || std::abs(p.b - p.a) > std::abs(largest->b - largest->a)) largest = &p;
@@ -448,7 +441,7 @@ Figure comparison_figure(const ReportData& d, const std::string& dir) {
   if (largest)
     f.caption_html += " Largest difference: <b>" +
                       plot::markup_escape(feature_label(
-                          {FeatureKind::kEdge, largest->from, largest->to}, d.variables)) +
+                          FeatureId{FeatureKind::kEdge, largest->from, largest->to}, d.variables)) +
                       "</b> (" + fixed(largest->a, 3) + " against " + fixed(largest->b, 3) + ").";
   if (any_error)
     f.caption_html += " " + std::to_string(differ) + " of " + std::to_string(cmp.pairs.size()) +
