@@ -2,6 +2,7 @@
 #include "covey/analysis/check.hpp"
 
 #include <algorithm>
+#include <cstdio>
 #include <span>
 
 #include "core/progress.hpp"
@@ -36,11 +37,11 @@ CheckedItem feature_item(const FeatureId& f, const std::vector<std::string>& nam
 
 }  // namespace
 
-void check_thresholds(const Thresholds& thresholds) {
+void check_thresholds(const Thresholds& thresholds, const std::string& context) {
   if (!(thresholds.max_rhat > 1)) {
     char value[32];
     std::snprintf(value, sizeof value, "%g", thresholds.max_rhat);
-    throw OptionError("check: {max_rhat} must exceed 1, got " + std::string(value));
+    throw OptionError(context + ": {max_rhat} must exceed 1, got " + std::string(value));
   }
 }
 

@@ -36,8 +36,8 @@ struct CheckResult {
   Verdict verdict;
 };
 
-// Throws OptionError unless max_rhat > 1.
-void check_thresholds(const Thresholds& thresholds);
+// Throws OptionError ("<context>: {max_rhat} must exceed 1, ...") unless max_rhat > 1.
+void check_thresholds(const Thresholds& thresholds, const std::string& context = "check");
 // Chain-run files taken together (their chains side by side), features of `kinds`; a progress
 // line on a terminal. InputError naming a file that is not a run or does not fit the others.
 CheckResult check_chain_runs(const std::vector<std::string>& files, const FeatureKinds& kinds,
