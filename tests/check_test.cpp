@@ -3,7 +3,9 @@
 
 #include <algorithm>
 #include <fstream>
+#include <limits>
 #include <random>
+#include <span>
 #include <string>
 
 #include "covey/analysis/check.hpp"
@@ -75,6 +77,40 @@ TEST(Check, ThresholdsNameTheFieldAndChainRunsNeedRunFiles) {
   testing_util::TempDir dir;
   EXPECT_THROW(check_chain_runs({dir.file("missing.h5")}, FeatureKinds{}, Thresholds{}),
                InputError);
+}
+
+}  // namespace
+}  // namespace covey
+
+namespace covey {
+namespace {
+
+// judge (diagnostics.hpp): the one verdict, counted per feature and per measure.
+TEST(Verdict, CountsEachMeasureAndStatesTheOutcome) {
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  const Thresholds t;  // R-hat < 1.01, ESS > 400
+  const std::vector<FeatureSummary> s = {
+      {0.5, 1.001, 900, 800, 0, 0.01},  // passes
+      {0.5, 1.001, 900, nan, 0, 0.01},  // passes: an undefined tail ESS alone is not checked
+      {0.5, 1.2, 900, 300, 0, 0.01},    // fails R-hat and tail ESS
+      {1.0, nan, nan, nan, 0, nan}};    // undefined
+  const Verdict v = judge(s, t);
+  EXPECT_EQ(v.features, 4u);
+  EXPECT_EQ(v.passing, 2u);
+  EXPECT_EQ(v.failing, 1u);
+  EXPECT_EQ(v.undefined, 1u);
+  EXPECT_EQ(v.rhat.passing, 2u);
+  EXPECT_EQ(v.rhat.failing, 1u);
+  EXPECT_EQ(v.rhat.undefined, 1u);
+  EXPECT_EQ(v.ess_bulk.passing, 3u);
+  EXPECT_EQ(v.ess_bulk.undefined, 1u);
+  EXPECT_EQ(v.ess_tail.passing, 1u);
+  EXPECT_EQ(v.ess_tail.failing, 1u);
+  EXPECT_EQ(v.ess_tail.undefined, 2u);
+  EXPECT_EQ(v.state, Verdict::State::kNotConverged);
+  EXPECT_EQ(judge(std::span(s).first(2), t).state, Verdict::State::kConverged);
+  EXPECT_EQ(judge(std::span(s).last(1), t).state, Verdict::State::kUndetermined);
+  EXPECT_EQ(judge({}, t).state, Verdict::State::kUndetermined);
 }
 
 }  // namespace
