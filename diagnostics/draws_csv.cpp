@@ -5,9 +5,12 @@
 #include <charconv>
 #include <cmath>
 #include <fstream>
+#include <iterator>
 #include <map>
 #include <numeric>
+#include <optional>
 
+#include "core/csv_tokenizer.hpp"
 #include "covey/core/atomic_file.hpp"
 #include "covey/core/error.hpp"
 
@@ -15,26 +18,21 @@ namespace covey {
 
 namespace {
 
+// Rows of the file through the shared tokenizer, with the line of the current row for messages.
 class CsvReader {
  public:
-  explicit CsvReader(const std::string& path) : path_(path), in_(path) {
+  explicit CsvReader(const std::string& path) : path_(path) {
     require_readable(path);
-    if (!in_) throw InputError(path + ": cannot open for reading");
+    std::ifstream in(path, std::ios::binary);
+    if (!in) throw InputError(path + ": cannot open for reading");
+    text_.assign(std::istreambuf_iterator<char>(in), std::istreambuf_iterator<char>());
+    char* const begin = text_.data();
+    char* const end = begin + text_.size();
+    tokenizer_.emplace(csv::skip_bom(begin, end), end, path_);
   }
 
-  // Reads the next non-blank line; false at the end of the file.
-  bool next(std::vector<std::string>& fields) {
-    std::string line;
-    while (std::getline(in_, line)) {
-      ++line_number_;
-      if (line_number_ == 1 && line.rfind("\xEF\xBB\xBF", 0) == 0) line.erase(0, 3);  // BOM
-      if (!line.empty() && line.back() == '\r') line.pop_back();
-      if (line.find_first_not_of(" \t") == std::string::npos) continue;
-      split(line, fields);
-      return true;
-    }
-    return false;
-  }
+  // Reads the next non-blank row; false at the end of the file.
+  bool next(std::vector<std::string>& fields) { return tokenizer_->next_row(fields, line_number_); }
 
   long line_number() const { return line_number_; }
 
@@ -43,49 +41,9 @@ class CsvReader {
   }
 
  private:
-  static std::string trimmed(const std::string& s) {
-    const auto first = s.find_first_not_of(" \t");
-    if (first == std::string::npos) return "";
-    return s.substr(first, s.find_last_not_of(" \t") - first + 1);
-  }
-
-  // Comma-separated fields; a field may be double-quoted, with "" standing for a quote.
-  void split(const std::string& line, std::vector<std::string>& fields) const {
-    fields.clear();
-    std::size_t i = 0;
-    while (true) {
-      std::string field;
-      while (i < line.size() && (line[i] == ' ' || line[i] == '\t')) ++i;
-      if (i < line.size() && line[i] == '"') {
-        for (++i;; ++i) {
-          if (i >= line.size()) fail("unterminated quoted field");
-          if (line[i] == '"') {
-            if (i + 1 < line.size() && line[i + 1] == '"') {
-              field += '"';
-              ++i;
-            } else {
-              ++i;
-              break;
-            }
-          } else {
-            field += line[i];
-          }
-        }
-        while (i < line.size() && (line[i] == ' ' || line[i] == '\t')) ++i;
-        if (i < line.size() && line[i] != ',') fail("text after a closing quote");
-      } else {
-        const std::size_t end = std::min(line.find(',', i), line.size());
-        field = trimmed(line.substr(i, end - i));
-        i = end;
-      }
-      fields.push_back(std::move(field));
-      if (i >= line.size()) return;
-      ++i;  // the comma
-    }
-  }
-
   std::string path_;
-  std::ifstream in_;
+  std::string text_;
+  std::optional<csv::Tokenizer> tokenizer_;
   long line_number_ = 0;
 };
 

@@ -11,6 +11,7 @@
 #include <string>
 #include <thread>
 
+#include "covey/core/enum_names.hpp"
 #include "covey/core/error.hpp"
 #include "covey/diagnostics/diagnostics.hpp"
 #include "diagnostics_internal.hpp"
@@ -167,23 +168,32 @@ std::vector<FeatureSummary> summarize_features(std::size_t count, int chains, in
   return out;
 }
 
+namespace {
+constexpr EnumName<FeatureStatus> kStatusNames[] = {{FeatureStatus::kUndefined, "undefined"},
+                                                    {FeatureStatus::kFail, "fail"},
+                                                    {FeatureStatus::kPass, "pass"}};
+}  // namespace
+
 const char* to_string(FeatureStatus status) {
-  switch (status) {
-    case FeatureStatus::kUndefined:
-      return "undefined";
-    case FeatureStatus::kFail:
-      return "fail";
-    case FeatureStatus::kPass:
-      return "pass";
-  }
-  return "?";
+  return enum_name(kStatusNames, status);
+}
+
+FeatureStatus assess_rhat(double rhat, const Thresholds& thresholds) {
+  if (std::isnan(rhat)) return FeatureStatus::kUndefined;
+  return rhat < thresholds.max_rhat ? FeatureStatus::kPass : FeatureStatus::kFail;
+}
+
+FeatureStatus assess_ess(double ess, const Thresholds& thresholds) {
+  if (std::isnan(ess)) return FeatureStatus::kUndefined;
+  return ess > thresholds.min_ess ? FeatureStatus::kPass : FeatureStatus::kFail;
 }
 
 FeatureStatus assess(const FeatureSummary& s, const Thresholds& thresholds) {
   if (is_undefined(s)) return FeatureStatus::kUndefined;
-  const bool rhat_ok = s.rhat < thresholds.max_rhat;
-  const bool ess_ok = smallest_ess(s) > thresholds.min_ess;
-  return rhat_ok && ess_ok ? FeatureStatus::kPass : FeatureStatus::kFail;
+  for (const FeatureStatus m : {assess_rhat(s.rhat, thresholds), assess_ess(s.ess_bulk, thresholds),
+                                assess_ess(s.ess_tail, thresholds)})
+    if (m == FeatureStatus::kFail) return FeatureStatus::kFail;  // an undefined tail ESS passes
+  return FeatureStatus::kPass;
 }
 
 std::vector<std::size_t> worst_first(std::span<const FeatureSummary> summaries,
@@ -205,26 +215,47 @@ std::vector<std::size_t> worst_first(std::span<const FeatureSummary> summaries,
   return order;
 }
 
+namespace {
+
+void count(FeatureStatus status, std::size_t& passing, std::size_t& failing,
+           std::size_t& undefined) {
+  switch (status) {
+    case FeatureStatus::kUndefined:
+      ++undefined;
+      break;
+    case FeatureStatus::kFail:
+      ++failing;
+      break;
+    case FeatureStatus::kPass:
+      ++passing;
+      break;
+  }
+}
+
+void count(FeatureStatus status, Verdict::Counts& c) {
+  count(status, c.passing, c.failing, c.undefined);
+}
+
+}  // namespace
+
 Verdict judge(std::span<const FeatureSummary> summaries, const Thresholds& thresholds) {
   Verdict v;
   v.max_rhat = v.min_ess_bulk = v.min_ess_tail = kNaN;
+  v.features = summaries.size();
   // fmax/fmin ignore a NaN operand, so the extremes run over defined values only.
   for (const FeatureSummary& s : summaries) {
-    switch (assess(s, thresholds)) {
-      case FeatureStatus::kUndefined:
-        ++v.undefined;
-        break;
-      case FeatureStatus::kFail:
-        ++v.failing;
-        break;
-      case FeatureStatus::kPass:
-        ++v.passing;
-        break;
-    }
+    count(assess(s, thresholds), v.passing, v.failing, v.undefined);
+    count(assess_rhat(s.rhat, thresholds), v.rhat);
+    count(assess_ess(s.ess_bulk, thresholds), v.ess_bulk);
+    count(assess_ess(s.ess_tail, thresholds), v.ess_tail);
     v.max_rhat = std::fmax(v.max_rhat, s.rhat);
     v.min_ess_bulk = std::fmin(v.min_ess_bulk, s.ess_bulk);
     v.min_ess_tail = std::fmin(v.min_ess_tail, s.ess_tail);
   }
+  using State = Verdict::State;
+  v.state = v.passing + v.failing == 0 ? State::kUndetermined
+            : v.failing == 0           ? State::kConverged
+                                       : State::kNotConverged;
   return v;
 }
 

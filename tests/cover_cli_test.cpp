@@ -140,7 +140,7 @@ TEST_F(CoverCli, DrawReportsJsonWritesDrawsAndIsThreadInvariant) {
   const DrawsFile common = read_draws(out);
   EXPECT_EQ(common.kind, "cover-draws");
   EXPECT_EQ(common.dags, f.dags);
-  EXPECT_EQ(common.attributes["cover_bound"], 2);
+  EXPECT_EQ(attribute_integer(common.attributes, "cover_bound"), 2);
 
   const auto one =
       run_covey("draw " + scores_ + " --cover 2 --count 3000 --seed 4 --json --threads 1");

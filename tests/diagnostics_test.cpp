@@ -512,7 +512,7 @@ TEST(DrawsCsv, ErrorsNameFileAndLine) {
       {head + rows(2, 6) + "2,7,1\n", ": chain 2 has 7 draws but chain 1 has 6"},
       {head + rows(2, 3), ": 3 draws per chain; at least 6"},
       {head, ": no draws after the header"},
-      {"\"chain,iteration,x\n", ":1: unterminated quoted field"},
+      {"\"chain,iteration,x\n", ":1: a quoted field is not closed before the end of the file"},
   };
   for (const auto& [text, message] : cases) {
     const std::string path = write_text(dir, "bad.csv", text);

@@ -7,6 +7,7 @@
 #include <nlohmann/json.hpp>
 
 #include "covey/core/error.hpp"
+#include "covey/core/version.hpp"
 #include "covey/exact/exact_posterior.hpp"
 #include "covey/graph/draws_file.hpp"
 #include "covey/scores/score_io.hpp"
@@ -144,11 +145,11 @@ TEST(DrawsFile, RoundTripAndReadBackByH5py) {
   std::vector<double> lw;
   for (const Dag& d : dags) lw.push_back(log_weight(t, d));
   const std::string path = dir.file("draws.h5");
-  const nlohmann::json attrs = {{"kind", "exact-draws"},
-                                {"seed", 5},
-                                {"log_total_weight", -1.5},
-                                {"command_line", "covey exact t.h5"},
-                                {"nested", {{"a", 1}}}};
+  const Attributes attrs = {{"kind", std::string("exact-draws")},
+                            {"seed", 5LL},
+                            {"log_total_weight", -1.5},
+                            {"command_line", std::string("covey exact t.h5")},
+                            {"flag", true}};
   write_draws(path, t, dags, lw, attrs);
 
   const DrawsFile back = read_draws(path);
@@ -156,8 +157,9 @@ TEST(DrawsFile, RoundTripAndReadBackByH5py) {
   EXPECT_EQ(back.dags, dags);
   EXPECT_EQ(back.log_weights, lw);
   EXPECT_EQ(back.table_fingerprint, t.fingerprint());
-  EXPECT_EQ(back.attributes["nested"]["a"], 1);
-  EXPECT_EQ(back.attributes["seed"], 5);
+  EXPECT_EQ(back.attributes.at("flag"), AttributeValue(true));
+  EXPECT_EQ(attribute_integer(back.attributes, "seed"), 5);
+  EXPECT_EQ(attribute_number(back.attributes, "log_total_weight"), -1.5);
   EXPECT_NO_THROW(check_draws_match_table(back, t, path));
   EXPECT_THROW(check_draws_match_table(back, random_full_table(6, 3, 905), path), InputError);
 
@@ -190,6 +192,33 @@ TEST(DrawsFile, RoundTripAndReadBackByH5py) {
   EXPECT_NE(dump.out.find("( 500, 6 )"), std::string::npos) << dump.out;
 }
 
+TEST(DrawsFile, ExactDrawsFileHoldsTheSchemaTheReaderExpects) {
+  testing_util::TempDir dir;
+  const ScoreTable t = random_full_table(4, 3, 907);
+  ExactOptions options;
+  options.draws = true;
+  const ExactEngine engine(t, options);
+  const std::vector<Dag> dags = engine.draw_many(40, 11);
+  const std::string path = dir.file("exact.h5");
+  write_exact_draws(path, t, engine, dags, 11, "covey exact t.h5 --draws 40");
+
+  const DrawsFile back = read_draws(path);
+  EXPECT_EQ(back.kind, "exact-draws");
+  EXPECT_EQ(back.dags, dags);
+  ASSERT_EQ(back.log_weights.size(), dags.size());
+  for (std::size_t i = 0; i < dags.size(); ++i)
+    EXPECT_EQ(back.log_weights[i], log_weight(t, dags[i]));
+  EXPECT_NO_THROW(check_draws_match_table(back, t, path));
+  const Attributes& a = back.attributes;
+  EXPECT_EQ(attribute_integer(a, "seed"), 11);
+  EXPECT_EQ(attribute_integer(a, "draws_per_stream"),
+            static_cast<long long>(ExactEngine::kDrawsPerStream));
+  EXPECT_EQ(attribute_number(a, "log_total_weight"), engine.posterior().log_total_weight);
+  EXPECT_EQ(attribute_string(a, "route"), std::string(to_string(engine.plan().route)));
+  EXPECT_EQ(attribute_string(a, "command_line"), "covey exact t.h5 --draws 40");
+  EXPECT_EQ(attribute_string(a, "covey_version"), std::string(kVersion));
+}
+
 TEST(DrawsFile, NotADrawsFileIsAnInputError) {
   testing_util::TempDir dir;
   const ScoreTable t = random_full_table(3, 2, 906);
@@ -199,7 +228,7 @@ TEST(DrawsFile, NotADrawsFileIsAnInputError) {
   EXPECT_THROW(read_draws(dir.file("text.h5")), InputError);
   EXPECT_THROW(read_draws(dir.file("missing.h5")), InputError);
   // A kind is required.
-  EXPECT_THROW(write_draws(dir.file("x.h5"), t, {}, {}, nlohmann::json::object()), Error);
+  EXPECT_THROW(write_draws(dir.file("x.h5"), t, {}, {}, Attributes{}), Error);
 }
 
 }  // namespace

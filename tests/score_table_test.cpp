@@ -53,7 +53,7 @@ TEST(ScoreIo, Hdf5RoundTrip) {
   EXPECT_EQ(back.fingerprint(), t.fingerprint());
   EXPECT_NE(testing_util::random_full_table(6, 2, 8).fingerprint(), t.fingerprint());
   EXPECT_EQ(back.metadata().score, "bdeu");
-  EXPECT_EQ(back.metadata().parameters["equivalent_sample_size"], 1.0);
+  EXPECT_EQ(attribute_number(back.metadata().parameters, "equivalent_sample_size"), 1.0);
   for (int v = 0; v < 6; ++v) {
     ASSERT_EQ(back.num_parent_sets(v), t.num_parent_sets(v));
     for (std::size_t i = 0; i < t.num_parent_sets(v); ++i) {

@@ -49,7 +49,7 @@ TEST(StructurePrior, ParentCountAndEdgePenaltyFactors) {
     EXPECT_NEAR(log_structure_prior(PriorKind::kParentCount, 0, 61, k), -exact_log_binomial(60, k),
                 1e-12 * (1 + exact_log_binomial(60, k)));
   EXPECT_EQ(pc.metadata().prior, "parent-count");
-  EXPECT_EQ(ep.metadata().parameters["edge_penalty"], 1.75);
+  EXPECT_EQ(attribute_number(ep.metadata().parameters, "edge_penalty"), 1.75);
   EXPECT_THROW(prior_kind_from_string("flat"), InputError);
 }
 

@@ -2,6 +2,7 @@
 // Every public header of covey, lowest layer first (DEVELOPERS.md, "Layers").
 
 #include "covey/core/atomic_file.hpp"
+#include "covey/core/enum_names.hpp"
 #include "covey/core/error.hpp"
 #include "covey/core/logmath.hpp"
 #include "covey/core/memory.hpp"
@@ -35,6 +36,7 @@
 #include "covey/chains/chain_support.hpp"
 #include "covey/chains/structure_chain.hpp"
 
+#include "covey/analysis/check.hpp"
 #include "covey/analysis/posterior_compare.hpp"
 #include "covey/analysis/run_diagnostics.hpp"
 

@@ -10,6 +10,7 @@
 #include "core/h5.hpp"
 #include "covey/analysis/run_diagnostics.hpp"
 #include "covey/chains/chain_run_file.hpp"
+#include "covey/core/enum_names.hpp"
 #include "covey/core/error.hpp"
 #include "covey/core/proportion.hpp"
 #include "covey/diagnostics/diagnostics.hpp"
@@ -21,18 +22,15 @@
 
 namespace covey {
 
+namespace {
+constexpr EnumName<PosteriorSource> kSourceNames[] = {{PosteriorSource::kChainRun, "chain-run"},
+                                                      {PosteriorSource::kCoverDraws, "cover-draws"},
+                                                      {PosteriorSource::kExactDraws, "exact-draws"},
+                                                      {PosteriorSource::kExactTable, "exact"}};
+}  // namespace
+
 const char* to_string(PosteriorSource source) {
-  switch (source) {
-    case PosteriorSource::kChainRun:
-      return "chain-run";
-    case PosteriorSource::kCoverDraws:
-      return "cover-draws";
-    case PosteriorSource::kExactDraws:
-      return "exact-draws";
-    case PosteriorSource::kExactTable:
-      return "exact";
-  }
-  return "?";
+  return enum_name(kSourceNames, source);
 }
 
 namespace {
@@ -90,9 +88,14 @@ PosteriorEstimate::~PosteriorEstimate() = default;
 PosteriorEstimate::PosteriorEstimate(PosteriorEstimate&&) noexcept = default;
 PosteriorEstimate& PosteriorEstimate::operator=(PosteriorEstimate&&) noexcept = default;
 
+// The loaders below are free functions over Impl; this friend names the private type for them.
+struct PosteriorEstimateLoaders {
+  using Impl = PosteriorEstimate::Impl;
+};
+
 namespace {
 
-using Impl = PosteriorEstimate::Impl;
+using Impl = PosteriorEstimateLoaders::Impl;
 
 void size_features(Impl& p) {
   const std::size_t cells = std::size_t(p.n) * std::size_t(p.n);
@@ -302,7 +305,7 @@ Estimate PosteriorEstimate::feature(const FeatureId& id) const {
 }
 
 PosteriorEstimate::Mass PosteriorEstimate::cover_class_mass(int k) const {
-  if (k < 0) throw InputError("--cover: the cover bound must be at least 0");
+  if (k < 0) throw OptionError("{k}: the cover bound must be at least 0");
   if (impl_->n > 64) throw InputError("membership in D_k is tested for at most 64 variables");
   switch (impl_->source) {
     case PosteriorSource::kCoverDraws:

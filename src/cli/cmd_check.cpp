@@ -11,12 +11,9 @@
 
 #include "command.hpp"
 #include "common.hpp"
-#include "core/progress.hpp"
-#include "covey/analysis/run_diagnostics.hpp"
+#include "covey/analysis/check.hpp"
 #include "covey/core/error.hpp"
 #include "covey/diagnostics/diagnostics.hpp"
-#include "covey/diagnostics/draws_csv.hpp"
-#include "covey/report/report.hpp"
 
 namespace covey::cli {
 namespace {
@@ -32,80 +29,19 @@ struct CheckOptions {
   int threads = 0;
 };
 
-// The checked features of one input: how each is labelled in the report, and its diagnostics.
-struct CheckedInput {
-  std::string source;
-  int chains = 0;
-  int iterations = 0;
-  std::string plural = "features";         // the report's word for the features
-  std::vector<nlohmann::json> labels;      // {"kind": ..., and "name" or "from"/"to"}
-  std::vector<std::string> mean_keys;      // JSON key of each mean ("probability" for 0/1)
-  std::vector<std::string> display_names;  // for the text table
-  std::vector<FeatureSummary> summaries;
-  std::vector<double> regenerative_se;  // empty, or one per feature (NaN: not available)
-  std::size_t regenerations = 0, tours = 0;
-};
-
-CheckedInput check_draws_csv(const std::string& path) {
-  const DrawsTable table = read_draws_csv(path);
-  CheckedInput in;
-  in.source = path;
-  in.chains = table.chains;
-  in.iterations = table.iterations;
-  in.plural = "quantities";
-  for (const std::string& name : table.names) {
-    in.labels.push_back({{"kind", "quantity"}, {"name", name}});
-    in.mean_keys.push_back("mean");
-    in.display_names.push_back(name);
+// The files, after the command-line checks the library does not know about.
+CheckResult check_input(const CheckOptions& options) {
+  if (options.draws) {
+    if (options.files.size() != 1)
+      throw InputError("check --draws: expected one CSV file, got " +
+                       std::to_string(options.files.size()));
+    return check_draws_csv(options.files[0], options.thresholds);
   }
-  Progress progress("check: diagnostics");
-  const auto total = static_cast<double>(table.names.size());
-  in.summaries = summarize_features(
-      table.names.size(), table.chains, table.iterations,
-      [&table](std::size_t q, std::span<double> values) {
-        std::copy(table.columns[q].begin(), table.columns[q].end(), values.begin());
-      },
-      [&progress, total](std::size_t done) { progress.update(static_cast<double>(done), total); });
-  return in;
-}
-
-CheckedInput check_runs(const CheckOptions& options) {
   const FeatureKinds kinds = parse_feature_kinds(options.features, "--features");
   for (const std::string& file : options.files)
     if (file.size() > 4 && file.compare(file.size() - 4, 4, ".csv") == 0)
       throw InputError(file + ": CSV is read as draws with --draws (covey check --draws FILE.csv)");
-  const std::vector<ChainRun> runs = open_runs(options.files);
-  const RunFeatures draws(runs, kinds.ancestors);
-  const std::vector<FeatureId> features = list_features(draws.num_variables(), kinds);
-  const RunDiagnostics d = diagnose_run_with_progress(draws, features, "check: diagnostics");
-  CheckedInput in;
-  for (const std::string& file : options.files) in.source += (in.source.empty() ? "" : ", ") + file;
-  in.chains = d.chains;
-  in.iterations = d.iterations;
-  in.summaries = d.summaries;
-  in.regenerations = d.regenerations;
-  in.tours = d.tours;
-  if (d.tours >= 2) in.regenerative_se = d.regenerative_se;
-  const std::vector<std::string>& names = runs.front().variables();
-  for (const FeatureId& f : features) {
-    nlohmann::json label = {{"kind", to_string(f.kind)}};
-    if (f.kind != FeatureKind::kScore) {
-      label["from"] = names[std::size_t(f.from)];
-      label["to"] = names[std::size_t(f.to)];
-    }
-    in.labels.push_back(std::move(label));
-    in.mean_keys.push_back(f.kind == FeatureKind::kScore ? "mean" : "probability");
-    in.display_names.push_back(feature_label({f.kind, f.from, f.to}, names));
-  }
-  return in;
-}
-
-CheckedInput check_input(const CheckOptions& options) {
-  if (!options.draws) return check_runs(options);
-  if (options.files.size() != 1)
-    throw InputError("check --draws: expected one CSV file, got " +
-                     std::to_string(options.files.size()));
-  return check_draws_csv(options.files[0]);
+  return check_chain_runs(options.files, kinds, options.thresholds);
 }
 
 std::string threshold_text(const Thresholds& t) {
@@ -113,7 +49,7 @@ std::string threshold_text(const Thresholds& t) {
          format_number("%g", t.min_ess);
 }
 
-std::string verdict_line(const CheckedInput& in, const Verdict& v, const Thresholds& t) {
+std::string verdict_line(const CheckResult& in, const Verdict& v, const Thresholds& t) {
   const std::size_t total = v.passing + v.failing + v.undefined;
   std::string line = "verdict: ";
   if (v.passing + v.failing == 0) {
@@ -134,8 +70,9 @@ std::string verdict_line(const CheckedInput& in, const Verdict& v, const Thresho
   return line;
 }
 
-nlohmann::json report_json(const CheckedInput& in, const std::vector<std::size_t>& order,
-                           const Verdict& v, const Thresholds& t) {
+nlohmann::json report_json(const CheckResult& in) {
+  const Verdict& v = in.verdict;
+  const Thresholds& t = in.thresholds;
   nlohmann::json out;
   out["source"] = in.source;
   out["chains"] = in.chains;
@@ -151,17 +88,21 @@ nlohmann::json report_json(const CheckedInput& in, const std::vector<std::size_t
                     {"failing", v.failing},
                     {"undefined", v.undefined}};
   out["features"] = nlohmann::json::array();
-  for (std::size_t i : order) {
+  for (std::size_t i : in.worst_first) {
     const FeatureSummary& s = in.summaries[i];
-    nlohmann::json f = in.labels[i];
-    f[in.mean_keys[i]] = json_number(s.mean);
+    const CheckedItem& item = in.items[i];
+    nlohmann::json f = {{"kind", item.kind}};
+    if (!item.name.empty()) f["name"] = item.name;
+    if (!item.from.empty()) f["from"] = item.from;
+    if (!item.to.empty()) f["to"] = item.to;
+    f[item.mean_key] = json_number(s.mean);
     f["rhat"] = json_number(s.rhat);
     f["ess_bulk"] = json_number(s.ess_bulk);
     f["ess_tail"] = json_number(s.ess_tail);
     f["ess_mean"] = json_number(s.ess_mean);
     f["mcse"] = json_number(s.mcse);
     if (!in.regenerative_se.empty()) f["regenerative_se"] = json_number(in.regenerative_se[i]);
-    f["status"] = to_string(assess(s, t));
+    f["status"] = to_string(in.status[i]);
     out["features"].push_back(std::move(f));
   }
   return out;
@@ -170,11 +111,10 @@ nlohmann::json report_json(const CheckedInput& in, const std::vector<std::size_t
 // The text table lists the assessed features worst first; the undefined ones (mostly features
 // constant in every draw, such as edges never proposed successfully) are summarized in one
 // line, since dozens of identical "undef" rows would hide the features that matter.
-void print_report(const CheckedInput& in, const std::vector<std::size_t>& worst, const Verdict& v,
-                  const Thresholds& t, std::size_t top) {
+void print_report(const CheckResult& in, std::size_t top) {
   std::vector<std::size_t> order, undefined;
-  for (std::size_t i : worst)
-    (assess(in.summaries[i], t) == FeatureStatus::kUndefined ? undefined : order).push_back(i);
+  for (std::size_t i : in.worst_first)
+    (in.status[i] == FeatureStatus::kUndefined ? undefined : order).push_back(i);
   const std::size_t shown = top == 0 ? order.size() : std::min(top, order.size());
   std::cout << in.source << ": " << in.chains << " chains x " << in.iterations << " draws, "
             << in.summaries.size() << " " << in.plural << " (worst first";
@@ -188,7 +128,7 @@ void print_report(const CheckedInput& in, const std::vector<std::size_t>& worst,
               << "\n";
   std::size_t width = 8;
   for (std::size_t k = 0; k < shown; ++k)
-    width = std::max(width, display_width(in.display_names[order[k]]));
+    width = std::max(width, display_width(in.items[order[k]].display_name));
   const bool regen = !in.regenerative_se.empty();
   const auto row = [&](const std::string& name, const std::string& mean, const std::string& rhat,
                        const std::string& bulk, const std::string& tail, const std::string& mcse,
@@ -203,10 +143,10 @@ void print_report(const CheckedInput& in, const std::vector<std::size_t>& worst,
   for (std::size_t k = 0; k < shown; ++k) {
     const std::size_t i = order[k];
     const FeatureSummary& s = in.summaries[i];
-    row(in.display_names[i], format_number("%.6g", s.mean), format_number("%.4f", s.rhat),
+    row(in.items[i].display_name, format_number("%.6g", s.mean), format_number("%.4f", s.rhat),
         format_number("%.0f", s.ess_bulk), format_number("%.0f", s.ess_tail),
         format_number("%.3g", s.mcse), regen ? format_number("%.3g", in.regenerative_se[i]) : "",
-        to_string(assess(s, t)));
+        to_string(in.status[i]));
   }
   if (shown < order.size())
     std::cout << "... " << order.size() - shown << " more (all with --top 0 or --json)\n";
@@ -214,11 +154,11 @@ void print_report(const CheckedInput& in, const std::vector<std::size_t>& worst,
     std::cout << undefined.size() << " " << in.plural
               << " with undefined R-hat or ESS (constant in every draw), not assessed, e.g. ";
     for (std::size_t k = 0; k < std::min<std::size_t>(3, undefined.size()); ++k)
-      std::cout << (k ? ", " : "") << in.display_names[undefined[k]] << " = "
+      std::cout << (k ? ", " : "") << in.items[undefined[k]].display_name << " = "
                 << format_number("%.6g", in.summaries[undefined[k]].mean);
     std::cout << "\n";
   }
-  std::cout << verdict_line(in, v, t) << "\n";
+  std::cout << verdict_line(in, in.verdict, in.thresholds) << "\n";
 }
 
 void setup_check(CLI::App& app) {
@@ -251,21 +191,16 @@ void setup_check(CLI::App& app) {
       ->check(kNonNegative);
   add_threads_option(*cmd, options->threads);
   cmd->callback([options] {
-    if (!(options->thresholds.max_rhat > 1))
-      throw InputError("check: --rhat must exceed 1, got " +
-                       format_number("%g", options->thresholds.max_rhat));
+    check_thresholds(options->thresholds);
     const auto limit = apply_threads(options->threads);
-    const CheckedInput in = check_input(*options);
-    const Thresholds& t = options->thresholds;
-    const std::vector<std::size_t> order = worst_first(in.summaries, t);
-    const Verdict verdict = judge(in.summaries, t);
+    const CheckResult in = check_input(*options);
     if (options->json)
-      print_json(report_json(in, order, verdict, t));
+      print_json(report_json(in));
     else
-      print_report(in, order, verdict, t, options->top);
-    if (options->strict && !verdict.converged())
-      throw CommandExit(
-          4, "check --strict: thresholds not met (" + threshold_text(t) + "); exit status 4");
+      print_report(in, options->top);
+    if (options->strict && !in.verdict.converged())
+      throw CommandExit(4, "check --strict: thresholds not met (" + threshold_text(in.thresholds) +
+                               "); exit status 4");
   });
 }
 

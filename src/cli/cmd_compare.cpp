@@ -71,7 +71,7 @@ void print_comparison(const PosteriorComparison& c, std::size_t top) {
   std::vector<std::string> labels;
   for (std::size_t i = 0; i < shown; ++i) {
     const FeatureDifference& d = c.features[i];
-    labels.push_back(feature_label({d.id.kind, d.id.from, d.id.to}, c.variables));
+    labels.push_back(feature_label(d.id, c.variables));
     width = std::max(width, display_width(labels.back()));
   }
   const auto pad = [width](const std::string& s) { return pad_right(s, width); };

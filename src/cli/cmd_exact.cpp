@@ -11,9 +11,7 @@
 #include "covey/core/error.hpp"
 #include "covey/core/logmath.hpp"
 #include "covey/core/memory.hpp"
-#include "covey/core/version.hpp"
 #include "covey/exact/exact_posterior.hpp"
-#include "covey/graph/draws_file.hpp"
 #include "covey/scores/score_io.hpp"
 
 namespace covey::cli {
@@ -132,20 +130,7 @@ void run_exact(const ExactArgs& a) {
                                                  2000, memory_limit(a.memory_limit));
   }
 
-  if (a.draws > 0) {
-    std::vector<double> log_weights;
-    log_weights.reserve(dags.size());
-    for (const Dag& d : dags) log_weights.push_back(log_weight(table, d));
-    const nlohmann::json attributes = {
-        {"kind", "exact-draws"},
-        {"seed", static_cast<long long>(a.seed)},
-        {"log_total_weight", post.log_total_weight},
-        {"route", to_string(engine.plan().route)},
-        {"draws_per_stream", static_cast<long long>(ExactEngine::kDrawsPerStream)},
-        {"command_line", command_line()},
-        {"covey_version", std::string(kVersion)}};
-    write_draws(a.output, table, dags, log_weights, attributes);
-  }
+  if (a.draws > 0) write_exact_draws(a.output, table, engine, dags, a.seed, command_line());
 
   if (a.json) {
     nlohmann::json out;

@@ -4,6 +4,7 @@
 
 #include "command.hpp"
 #include "common.hpp"
+#include "core/attributes_json.hpp"
 #include "covey/scores/score_io.hpp"
 
 namespace covey::cli {
@@ -44,7 +45,7 @@ void setup_info(CLI::App& app) {
     out["file"] = *input;
     out["score"] = m.score;
     out["prior"] = m.prior;
-    out["parameters"] = m.parameters;
+    out["parameters"] = attributes_to_json(m.parameters);
     out["max_indegree"] = m.max_indegree;
     out["num_rows"] = m.num_rows;
     out["source"] = m.source;
@@ -68,7 +69,7 @@ void setup_info(CLI::App& app) {
               << m.prior << ", " << table.memory_bytes() / 1024.0 / 1024.0 << " MiB\n";
     if (m.num_rows >= 0)
       std::cout << "scored from " << m.num_rows << " rows of " << m.source << "\n";
-    if (!m.parameters.empty()) std::cout << "parameters: " << m.parameters.dump() << "\n";
+    if (!m.parameters.empty()) std::cout << "parameters: " << out["parameters"].dump() << "\n";
     std::cout << "variable\tkind\tlevels\tcandidates\tparent_sets\n";
     for (const auto& v : out["variables"])
       std::cout << v["name"].get<std::string>() << '\t' << v["kind"].get<std::string>() << '\t'

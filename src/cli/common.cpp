@@ -5,6 +5,7 @@
 #include <iostream>
 #include <thread>
 
+#include "covey/core/error.hpp"
 #include "covey/core/memory.hpp"
 
 namespace covey::cli {
@@ -65,6 +66,27 @@ std::unique_ptr<tbb::global_control> apply_threads(int threads) {
   if (threads <= 0) return nullptr;
   return std::make_unique<tbb::global_control>(tbb::global_control::max_allowed_parallelism,
                                                static_cast<std::size_t>(threads));
+}
+
+std::string option_flag(const std::string& field) {
+  // Library fields whose flag is not their own name.
+  static const std::pair<const char*, const char*> kRenamed[] = {
+      {"ess", "--equivalent-sample-size"},
+      {"k", "--cover"},
+      {"max_rhat", "--rhat"},
+  };
+  for (const auto& [name, flag] : kRenamed)
+    if (field == name) return flag;
+  std::string flag = "--" + field;
+  for (char& c : flag)
+    if (c == '_' || c == '.') c = '-';
+  return flag;
+}
+
+std::string error_message(const std::exception& error) {
+  if (const auto* option = dynamic_cast<const OptionError*>(&error))
+    return option->render(option_flag);
+  return error.what();
 }
 
 void print_json(const nlohmann::json& value) {

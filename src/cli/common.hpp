@@ -38,6 +38,12 @@ std::string format_number(const char* spec, double x);
 std::size_t display_width(const std::string& text);
 std::string pad_right(const std::string& text, std::size_t width);
 
+// The flag that sets a library field named in an OptionError: "--" + the field with '_' and '.'
+// as '-' ("bge.alpha_w" -> "--bge-alpha-w"), or the flag of the few fields spelled otherwise.
+std::string option_flag(const std::string& field);
+// An exception's message as the CLI prints it: OptionError fields spelled as their flags.
+std::string error_message(const std::exception& error);
+
 // Prints JSON to stdout, two-space indented, with a trailing newline.
 void print_json(const nlohmann::json& value);
 

@@ -38,10 +38,10 @@ int main(int argc, char** argv) {
                  "options that shrink it)\n";
     return 3;
   } catch (const covey::ResourceError& e) {
-    std::cerr << "covey: error: " << e.what() << "\n";
+    std::cerr << "covey: error: " << covey::cli::error_message(e) << "\n";
     return 3;
   } catch (const std::exception& e) {
-    std::cerr << "covey: error: " << e.what() << "\n";
+    std::cerr << "covey: error: " << covey::cli::error_message(e) << "\n";
     return 1;
   }
   return 0;

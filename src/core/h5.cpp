@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <fstream>
 
+#include "core/attributes_json.hpp"
 #include "covey/core/error.hpp"
 #include "covey/core/memory.hpp"
 
@@ -250,6 +251,14 @@ nlohmann::json get_attr_json(const H5::H5Object& obj, const std::string& name) {
   } catch (const nlohmann::json::exception&) {
     throw InputError("attribute '" + name + "' is not valid JSON");
   }
+}
+
+void set_attr_map(H5::H5Object& obj, const std::string& name, const Attributes& value) {
+  set_attr_json(obj, name, attributes_to_json(value));
+}
+
+Attributes get_attr_map(const H5::H5Object& obj, const std::string& name) {
+  return attributes_from_json(get_attr_json(obj, name), name);
 }
 
 void write_vector(H5::Group& g, const std::string& n, const std::vector<double>& v) {

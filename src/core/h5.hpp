@@ -9,6 +9,8 @@
 #include <string>
 #include <vector>
 
+#include "covey/core/attributes.hpp"
+
 namespace covey::h5 {
 
 // Opens an existing file read-only; throws InputError("FILE: not a readable HDF5 file") otherwise.
@@ -29,6 +31,10 @@ long long get_attr_int(const H5::H5Object& obj, const std::string& name);
 double get_attr_double(const H5::H5Object& obj, const std::string& name);
 void set_attr_json(H5::H5Object& obj, const std::string& name, const nlohmann::json& value);
 nlohmann::json get_attr_json(const H5::H5Object& obj, const std::string& name);
+// Named scalars as one JSON object text (NaN as null); reading throws InputError naming the
+// attribute when its text is not such an object.
+void set_attr_map(H5::H5Object& obj, const std::string& name, const Attributes& value);
+Attributes get_attr_map(const H5::H5Object& obj, const std::string& name);
 
 // Whole 1-D datasets. Strings are variable-length UTF-8.
 void write_vector(H5::Group& group, const std::string& name, const std::vector<double>& v);

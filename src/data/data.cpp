@@ -10,6 +10,7 @@
 #include <unordered_map>
 #include <unordered_set>
 
+#include "core/csv_tokenizer.hpp"
 #include "covey/core/atomic_file.hpp"
 #include "covey/core/error.hpp"
 #include "covey/core/memory.hpp"
@@ -66,100 +67,6 @@ bool parse_number(const char* b, const char* e, double& out) {
   auto [ptr, ec] = std::from_chars(b, e, out);
   return ec == std::errc() && ptr == e && std::isfinite(out);
 }
-
-bool is_blank(char c) {
-  return c == ' ' || c == '\t';
-}
-
-// One field of the CSV text: [begin, end) is its content (inside the quotes when quoted).
-struct Field {
-  char* begin;
-  char* end;
-  bool quoted;
-  bool escaped;  // content holds "" pairs still to be collapsed
-  std::string_view view() const { return {begin, std::size_t(end - begin)}; }
-  bool missing() const {
-    const std::size_t n = std::size_t(end - begin);
-    return n == 0 || (n == 2 && begin[0] == 'N' && begin[1] == 'A' && !escaped);
-  }
-  // Collapses "" to " in place (the content only shrinks); returns the new content.
-  std::string_view unescape() {
-    if (!escaped) return view();
-    char* w = begin;
-    for (char* r = begin; r < end; ++r) {
-      *w++ = *r;
-      if (*r == '"') ++r;
-    }
-    end = w;
-    escaped = false;
-    return view();
-  }
-};
-
-// Splits CSV text into rows and fields without copying. Line numbers are physical file lines.
-class Tokenizer {
- public:
-  Tokenizer(char* begin, char* end, const std::string& name) : p_(begin), end_(end), name_(name) {}
-
-  bool at_end() const { return p_ >= end_; }
-  long line() const { return line_; }
-  char* position() const { return p_; }
-  void seek(char* p) { p_ = p; }
-
-  // Reads the field at the cursor; returns true when it was the last field of its row (and then
-  // consumes the line ending).
-  [[gnu::always_inline]] bool next(Field& f) {
-    while (p_ < end_ && is_blank(*p_)) ++p_;
-    f.escaped = false;
-    if (p_ < end_ && *p_ == '"') {
-      const long opened = line_;
-      f.quoted = true;
-      f.begin = ++p_;
-      for (;;) {
-        if (p_ >= end_)
-          throw InputError(name_ + ":" + std::to_string(opened) +
-                           ": a quoted field is not closed before the end of the file");
-        const char c = *p_;
-        if (c == '"') {
-          if (p_ + 1 < end_ && p_[1] == '"') {
-            f.escaped = true;
-            p_ += 2;
-            continue;
-          }
-          break;
-        }
-        if (c == '\n') ++line_;
-        ++p_;
-      }
-      f.end = p_++;
-      while (p_ < end_ && is_blank(*p_)) ++p_;
-      if (p_ < end_ && *p_ != ',' && *p_ != '\n' && *p_ != '\r')
-        throw InputError(name_ + ":" + std::to_string(line_) +
-                         ": unexpected text after the closing quote of a field");
-    } else {
-      f.quoted = false;
-      f.begin = p_;
-      while (p_ < end_ && *p_ != ',' && *p_ != '\n' && *p_ != '\r') ++p_;
-      f.end = p_;
-      while (f.end > f.begin && is_blank(f.end[-1])) --f.end;
-    }
-    if (p_ >= end_) return true;
-    if (*p_ == ',') {
-      ++p_;
-      return false;
-    }
-    if (*p_ == '\r') ++p_;
-    if (p_ < end_ && *p_ == '\n') ++p_;
-    ++line_;
-    return true;
-  }
-
- private:
-  char* p_;
-  char* end_;
-  long line_ = 1;
-  const std::string& name_;
-};
 
 // Levels of one discrete column while reading: codes in first-appearance order, found by a short
 // linear scan while there are few levels and by hashing beyond that. Labels of up to 7 bytes are
@@ -252,9 +159,8 @@ void sort_levels(std::vector<std::string>& levels) {
 DataTable parse_csv(std::string text, const std::string& name, const CsvOptions& options) {
   char* const begin = text.data();
   char* const end = begin + text.size();
-  char* start = begin;
-  if (text.size() >= 3 && std::memcmp(begin, "\xEF\xBB\xBF", 3) == 0) start += 3;  // UTF-8 BOM
-  Tokenizer tok(start, end, name);
+  char* const start = csv::skip_bom(begin, end);
+  csv::Tokenizer tok(start, end, name);
   auto fail = [&](long line, const std::string& msg) {
     return InputError(name + ":" + std::to_string(line) + ": " + msg);
   };
@@ -262,7 +168,7 @@ DataTable parse_csv(std::string text, const std::string& name, const CsvOptions&
   // Header: the first non-blank row.
   std::vector<Column> columns;
   {
-    Field f;
+    csv::Field f;
     for (;;) {
       if (tok.at_end()) throw InputError(name + ": empty file (expected a header row of names)");
       const long line = tok.line();
@@ -295,13 +201,13 @@ DataTable parse_csv(std::string text, const std::string& name, const CsvOptions&
   // the kept rows are recorded for pass 2, which codes the label columns.
   std::vector<char*> kept_rows;
   std::size_t dropped = 0;
-  std::vector<Field> fields(n);
+  std::vector<csv::Field> fields(n);
   while (!tok.at_end()) {
     char* const row_start = tok.position();
     const long line = tok.line();
     std::size_t count = 0;
     bool last = false;
-    Field extra;
+    csv::Field extra;
     while (!last) {
       last = tok.next(count < n ? fields[count] : extra);
       ++count;
@@ -393,7 +299,7 @@ DataTable parse_csv(std::string text, const std::string& name, const CsvOptions&
   for (std::size_t i = 0; i < rows; ++i) {
     tok.seek(kept_rows[i]);
     for (std::size_t j = 0; j < n; ++j) {
-      Field f;
+      csv::Field f;
       tok.next(f);
       const int code = index[j].code_of(f.unescape());
       if (code < 0)

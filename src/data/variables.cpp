@@ -1,17 +1,23 @@
 #include "covey/data/variables.hpp"
 
+#include "covey/core/enum_names.hpp"
 #include "covey/core/error.hpp"
 
 namespace covey {
 
+namespace {
+constexpr EnumName<VariableKind> kVariableKindNames[] = {{VariableKind::kDiscrete, "discrete"},
+                                                         {VariableKind::kGaussian, "gaussian"}};
+}  // namespace
+
 const char* to_string(VariableKind kind) {
-  return kind == VariableKind::kDiscrete ? "discrete" : "gaussian";
+  return enum_name(kVariableKindNames, kind, "gaussian");
 }
 
 VariableKind variable_kind_from_string(const std::string& text) {
-  if (text == "discrete") return VariableKind::kDiscrete;
-  if (text == "gaussian") return VariableKind::kGaussian;
-  throw InputError("unknown variable kind '" + text + "' (expected discrete or gaussian)");
+  if (const auto kind = enum_from_name(kVariableKindNames, text)) return *kind;
+  throw InputError("unknown variable kind '" + text + "' (expected " +
+                   enum_name_list(kVariableKindNames) + ")");
 }
 
 std::vector<std::string> variable_names(const std::vector<Variable>& variables) {

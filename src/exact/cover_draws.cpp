@@ -84,9 +84,9 @@ std::vector<EdgeFrequency> edge_frequencies(const std::vector<Dag>& dags, int n)
 // Cover draws are the common draws layout (draws_file.hpp) of kind "cover-draws", with the
 // sampler's figures as attributes.
 void write_cover_draws(const std::string& path, const CoverDrawsFile& d) {
-  const nlohmann::json attributes = {
-      {"kind", kDrawsKind},
-      {"cover_bound", d.cover_bound},
+  const Attributes attributes = {
+      {"kind", std::string(kDrawsKind)},
+      {"cover_bound", static_cast<long long>(d.cover_bound)},
       {"seed", static_cast<long long>(d.seed)},
       {"draws_per_stream", static_cast<long long>(kCoverDrawBlock)},
       {"trials", static_cast<long long>(d.trials)},
@@ -102,21 +102,21 @@ void write_cover_draws(const std::string& path, const CoverDrawsFile& d) {
 namespace {
 
 // A number the cover-draws attributes must hold (InputError naming the file and the key).
-double required_number(const nlohmann::json& attributes, const char* key, const std::string& path) {
-  const auto it = attributes.find(key);
-  if (it == attributes.end() || !it->is_number())
+// (A NaN is how the file spells JSON null, which never was a number here.)
+double required_number(const Attributes& attributes, const char* key, const std::string& path) {
+  const std::optional<double> x = attribute_number(attributes, key);
+  if (!x || std::isnan(*x))
     throw InputError(path + ": corrupt cover draws (attribute '" + key + "' missing)");
-  return it->get<double>();
+  return *x;
 }
 
-long long required_count(const nlohmann::json& attributes, const char* key, const std::string& path,
+long long required_count(const Attributes& attributes, const char* key, const std::string& path,
                          long long low, long long high) {
-  const auto it = attributes.find(key);
-  if (it == attributes.end() || !it->is_number_integer() || it->get<long long>() < low ||
-      it->get<long long>() > high)
+  const std::optional<long long> count = attribute_integer(attributes, key);
+  if (!count || *count < low || *count > high)
     throw InputError(path + ": corrupt cover draws (attribute '" + key +
                      "' missing or out of range)");
-  return it->get<long long>();
+  return *count;
 }
 
 }  // namespace
@@ -126,7 +126,7 @@ CoverDrawsFile read_cover_draws(const std::string& path) {
   if (file.kind != kDrawsKind)
     throw InputError(path + ": not a covey cover-draws file (its draws are of kind '" + file.kind +
                      "')");
-  const nlohmann::json& a = file.attributes;
+  const Attributes& a = file.attributes;
   constexpr long long kMax = std::numeric_limits<long long>::max();
   CoverDrawsFile d;
   d.variables = std::move(file.variables);
@@ -144,10 +144,8 @@ CoverDrawsFile read_cover_draws(const std::string& path) {
     if (!in_cover_class(file.dags[i], d.cover_bound))
       throw InputError(path + ": corrupt cover draws (draw " + std::to_string(i) +
                        " is outside D_" + std::to_string(d.cover_bound) + ")");
-  if (a.contains("command_line") && a["command_line"].is_string())
-    d.command_line = a["command_line"].get<std::string>();
-  if (a.contains("covey_version") && a["covey_version"].is_string())
-    d.covey_version = a["covey_version"].get<std::string>();
+  d.command_line = attribute_string(a, "command_line").value_or("");
+  d.covey_version = attribute_string(a, "covey_version").value_or("");
   d.dags = std::move(file.dags);
   d.log_weights = std::move(file.log_weights);
   return d;

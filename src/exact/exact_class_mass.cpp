@@ -53,7 +53,7 @@ ClassMass class_mass_from_draws(const std::vector<Dag>& draws, const DagPredicat
 }
 
 ClassMass cover_class_mass(const ScoreTable& table, int k, const std::vector<Dag>& draws) {
-  if (k < 0) throw InputError("--cover: the cover bound must be at least 0");
+  if (k < 0) throw OptionError("{k}: the cover bound must be at least 0");
   const DagPredicate inside = [k](const Dag& d) { return in_cover_class(d, k); };
   if (table.num_variables() <= kCoverMassEnumerationMax)
     return class_mass_by_enumeration(table, inside);

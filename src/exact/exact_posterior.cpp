@@ -9,6 +9,7 @@
 #include <cstdio>
 #include <optional>
 
+#include "covey/core/enum_names.hpp"
 #include "covey/core/error.hpp"
 #include "covey/core/logmath.hpp"
 #include "covey/core/memory.hpp"
@@ -22,23 +23,19 @@ using exact_internal::LayerTable;
 using exact_internal::SubsetScores;
 using exact_internal::SubsetWeights;
 
+namespace {
+constexpr EnumName<ExactRoute> kRouteNames[] = {{ExactRoute::kAuto, "auto"},
+                                                {ExactRoute::kLayered, "layered"},
+                                                {ExactRoute::kSigned, "signed"}};
+}  // namespace
+
 const char* to_string(ExactRoute route) {
-  switch (route) {
-    case ExactRoute::kAuto:
-      return "auto";
-    case ExactRoute::kLayered:
-      return "layered";
-    case ExactRoute::kSigned:
-      return "signed";
-  }
-  return "auto";
+  return enum_name(kRouteNames, route, "auto");
 }
 
 ExactRoute exact_route_from_string(const std::string& text) {
-  if (text == "auto") return ExactRoute::kAuto;
-  if (text == "layered") return ExactRoute::kLayered;
-  if (text == "signed") return ExactRoute::kSigned;
-  throw InputError("--route: expected auto, layered or signed, got '" + text + "'");
+  if (const auto route = enum_from_name(kRouteNames, text)) return *route;
+  throw OptionError("{route}: expected " + enum_name_list(kRouteNames) + ", got '" + text + "'");
 }
 
 namespace {

@@ -3,6 +3,9 @@
 
 #include <cinttypes>
 #include <cstdio>
+#include <optional>
+#include <type_traits>
+#include <variant>
 
 #include "core/h5.hpp"
 #include "covey/core/atomic_file.hpp"
@@ -15,47 +18,47 @@ namespace {
 constexpr const char* kFormatName = "covey-draws";
 constexpr long long kFormatVersion = 1;
 
-// Scalar JSON values become attributes of their own (readable with h5dump); everything else is
-// in the `attributes` JSON text.
-void write_scalar_attributes(H5::H5File& file, const nlohmann::json& attributes) {
+// Each value also becomes an HDF5 attribute of its own (readable with h5dump); booleans as 0/1.
+void write_scalar_attributes(H5::H5File& file, const Attributes& attributes) {
   static const char* reserved[] = {"format",    "format_version",    "num_variables",
                                    "num_draws", "table_fingerprint", "attributes"};
-  for (const auto& [key, value] : attributes.items()) {
+  for (const auto& entry : attributes) {
+    const std::string& key = entry.first;
     bool skip = false;
     for (const char* r : reserved) skip = skip || key == r;
     if (skip) continue;
-    if (value.is_string())
-      h5::set_attr(file, key, value.get<std::string>());
-    else if (value.is_boolean())
-      h5::set_attr(file, key, static_cast<long long>(value.get<bool>()));
-    else if (value.is_number_integer())
-      h5::set_attr(file, key, value.get<long long>());
-    else if (value.is_number_float())
-      h5::set_attr(file, key, value.get<double>());
+    std::visit(
+        [&file, &key](const auto& v) {
+          if constexpr (std::is_same_v<std::decay_t<decltype(v)>, bool>)
+            h5::set_attr(file, key, static_cast<long long>(v));
+          else
+            h5::set_attr(file, key, v);
+        },
+        entry.second);
   }
 }
 
 }  // namespace
 
 void write_draws(const std::string& path, const ScoreTable& table, const std::vector<Dag>& dags,
-                 const std::vector<double>& log_weights, const nlohmann::json& attributes) {
+                 const std::vector<double>& log_weights, const Attributes& attributes) {
   write_draws(path, variable_names(table.variables()), table.fingerprint(), dags, log_weights,
               attributes);
 }
 
 void write_draws(const std::string& path, const std::vector<std::string>& names,
                  std::uint64_t table_fingerprint, const std::vector<Dag>& dags,
-                 const std::vector<double>& log_weights, const nlohmann::json& attributes) {
+                 const std::vector<double>& log_weights, const Attributes& attributes) {
   const int n = static_cast<int>(names.size());
   if (n < 1 || n > kMaxExactVariables)
     throw InputError(path + ": draws files hold DAGs of 1 to 64 variables");
-  if (!attributes.is_object() || !attributes.contains("kind") || !attributes["kind"].is_string())
+  if (!attribute_string(attributes, "kind"))
     throw Error("write_draws: the attributes need a string 'kind'");
   if (dags.size() != log_weights.size())
     throw Error("write_draws: one log weight per draw is needed");
-  nlohmann::json attrs = attributes;
-  if (!attrs.contains("covey_version")) attrs["covey_version"] = std::string(kVersion);
-  if (!attrs.contains("command_line")) attrs["command_line"] = std::string();
+  Attributes attrs = attributes;
+  attrs.try_emplace("covey_version", std::string(kVersion));
+  attrs.try_emplace("command_line", std::string());
 
   std::vector<std::uint64_t> rows;
   rows.reserve(dags.size() * n);
@@ -72,7 +75,7 @@ void write_draws(const std::string& path, const std::vector<std::string>& names,
     h5::set_attr(file, "num_draws", static_cast<long long>(dags.size()));
     h5::set_attr(file, "table_fingerprint", format_fingerprint(table_fingerprint));
     write_scalar_attributes(file, attrs);
-    h5::set_attr_json(file, "attributes", attrs);
+    h5::set_attr_map(file, "attributes", attrs);
     H5::Group vars = file.createGroup("variables");
     h5::write_strings(vars, "names", names);
     H5::Group group = file.createGroup("draws");
@@ -95,11 +98,10 @@ DrawsFile read_draws(const std::string& path) {
       throw InputError(path + ": written by a newer covey (format version " +
                        std::to_string(h5::get_attr_int(file, "format_version")) + ")");
     DrawsFile d;
-    d.attributes = h5::get_attr_json(file, "attributes");
-    if (!d.attributes.is_object() || !d.attributes.contains("kind") ||
-        !d.attributes["kind"].is_string())
-      throw InputError(path + ": corrupt attributes (no kind)");
-    d.kind = d.attributes["kind"].get<std::string>();
+    d.attributes = h5::get_attr_map(file, "attributes");
+    const std::optional<std::string> kind = attribute_string(d.attributes, "kind");
+    if (!kind) throw InputError(path + ": corrupt attributes (no kind)");
+    d.kind = *kind;
     d.table_fingerprint = parse_fingerprint(h5::get_attr_string(file, "table_fingerprint"), path);
     const long long n = h5::get_attr_int(file, "num_variables");
     const long long count = h5::get_attr_int(file, "num_draws");

@@ -1,6 +1,7 @@
 #include "covey/graph/enumerate.hpp"
 
 #include <bit>
+#include <cmath>
 #include <vector>
 
 #include "covey/core/error.hpp"

@@ -2,22 +2,31 @@
 
 #include <sstream>
 
+#include "covey/core/enum_names.hpp"
 #include "covey/core/error.hpp"
 
 namespace covey {
 
+namespace {
+constexpr EnumName<FeatureKind> kFeatureKindNames[] = {{FeatureKind::kEdge, "edge"},
+                                                       {FeatureKind::kAdjacency, "adjacency"},
+                                                       {FeatureKind::kAncestor, "ancestor"},
+                                                       {FeatureKind::kScore, "score"}};
+}  // namespace
+
 const char* to_string(FeatureKind kind) {
-  switch (kind) {
-    case FeatureKind::kEdge:
-      return "edge";
-    case FeatureKind::kAdjacency:
-      return "adjacency";
-    case FeatureKind::kAncestor:
-      return "ancestor";
-    case FeatureKind::kScore:
-      return "score";
-  }
-  return "?";
+  return enum_name(kFeatureKindNames, kind);
+}
+
+std::string feature_label(const FeatureId& f, const std::vector<std::string>& names) {
+  if (f.kind == FeatureKind::kScore) return "log score";
+  auto name = [&](int i) {
+    return i >= 0 && i < static_cast<int>(names.size()) ? names[i] : "#" + std::to_string(i);
+  };
+  const char* link = f.kind == FeatureKind::kEdge        ? " \u2192 "
+                     : f.kind == FeatureKind::kAdjacency ? " \u2014 "
+                                                         : " \u21dd ";
+  return name(f.from) + link + name(f.to);
 }
 
 FeatureKinds parse_feature_kinds(const std::string& text, const std::string& option) {

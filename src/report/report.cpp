@@ -20,30 +20,21 @@ const char* const kCausalCaution =
     "safety or health rest with qualified people and local rules.";
 
 std::string feature_label(const ReportFeature& f, const std::vector<std::string>& names) {
-  if (f.kind == FeatureKind::kScore) return "log score";
-  auto name = [&](int i) {
-    return i >= 0 && i < static_cast<int>(names.size()) ? names[i] : "#" + std::to_string(i);
-  };
-  const char* link = f.kind == FeatureKind::kEdge        ? " \u2192 "
-                     : f.kind == FeatureKind::kAdjacency ? " \u2014 "
-                                                         : " \u21dd ";
-  return name(f.from) + link + name(f.to);
+  return feature_label(FeatureId{f.kind, f.from, f.to}, names);
 }
 
 namespace {
 
 // --- thresholds --------------------------------------------------------------------------------
 
-bool rhat_fails(double rhat, double threshold) {
-  return !std::isnan(rhat) && !(rhat < threshold);
+Thresholds thresholds_of(const ReportData& d) {
+  return Thresholds{d.rhat_threshold, d.ess_threshold};
 }
-bool ess_fails(double ess, double threshold) {
-  return !std::isnan(ess) && !(ess > threshold);
+bool rhat_fails(double rhat, const ReportData& d) {
+  return assess_rhat(rhat, thresholds_of(d)) == FeatureStatus::kFail;
 }
-
-bool fails(const ReportFeature& f, const ReportData& d) {
-  return rhat_fails(f.rhat, d.rhat_threshold) || ess_fails(f.ess_bulk, d.ess_threshold) ||
-         ess_fails(f.ess_tail, d.ess_threshold);
+bool ess_fails(double ess, const ReportData& d) {
+  return assess_ess(ess, thresholds_of(d)) == FeatureStatus::kFail;
 }
 
 // How far a feature is from passing, as a ratio to its threshold (>= 1 fails); -inf when none
@@ -59,28 +50,11 @@ double badness(const ReportFeature& f, const ReportData& d) {
 }  // namespace
 
 ConvergenceVerdict assess_convergence(const ReportData& data) {
-  ConvergenceVerdict v;
-  v.features = data.features.size();
-  bool any_defined = false;
-  for (const auto& f : data.features) {
-    if (std::isnan(f.rhat)) ++v.undefined;
-    if (!std::isnan(f.rhat) || !std::isnan(f.ess_bulk) || !std::isnan(f.ess_tail))
-      any_defined = true;
-    if (fails(f, data)) ++v.failing;
-    if (!std::isnan(f.rhat))
-      v.max_rhat = std::isnan(v.max_rhat) ? f.rhat : std::max(v.max_rhat, f.rhat);
-    if (!std::isnan(f.ess_bulk))
-      v.min_ess_bulk =
-          std::isnan(v.min_ess_bulk) ? f.ess_bulk : std::min(v.min_ess_bulk, f.ess_bulk);
-    if (!std::isnan(f.ess_tail))
-      v.min_ess_tail =
-          std::isnan(v.min_ess_tail) ? f.ess_tail : std::min(v.min_ess_tail, f.ess_tail);
-  }
-  using State = ConvergenceVerdict::State;
-  v.state = !any_defined     ? State::kUndetermined
-            : v.failing == 0 ? State::kConverged
-                             : State::kNotConverged;
-  return v;
+  std::vector<FeatureSummary> summaries;
+  summaries.reserve(data.features.size());
+  for (const ReportFeature& f : data.features)
+    summaries.push_back({f.probability, f.rhat, f.ess_bulk, f.ess_tail, kUndefined, f.mcse});
+  return judge(summaries, thresholds_of(data));
 }
 
 namespace {
@@ -422,7 +396,7 @@ Figure comparison_figure(const ReportData& d, const std::string& dir) {
     pt.x_error = 2 * p.se_a;
     pt.y_error = 2 * p.se_b;
     any_error = any_error || std::isfinite(p.se_a) || std::isfinite(p.se_b);
-    pt.label = feature_label({FeatureKind::kEdge, p.from, p.to}, d.variables);
+    pt.label = feature_label(FeatureId{FeatureKind::kEdge, p.from, p.to}, d.variables);
     sp.points.push_back(pt);
     if (!std::isfinite(p.a) || !std::isfinite(p.b)) continue;
     if (!largest || std::abs(p.b - p.a) > std::abs(largest->b - largest->a)) largest = &p;
@@ -448,7 +422,7 @@ Figure comparison_figure(const ReportData& d, const std::string& dir) {
   if (largest)
     f.caption_html += " Largest difference: <b>" +
                       plot::markup_escape(feature_label(
-                          {FeatureKind::kEdge, largest->from, largest->to}, d.variables)) +
+                          FeatureId{FeatureKind::kEdge, largest->from, largest->to}, d.variables)) +
                       "</b> (" + fixed(largest->a, 3) + " against " + fixed(largest->b, 3) + ").";
   if (any_error)
     f.caption_html += " " + std::to_string(differ) + " of " + std::to_string(cmp.pairs.size()) +
@@ -672,11 +646,9 @@ std::string worst_features_html(const ReportData& d, const ConvergenceVerdict& v
         "<td>" +
         (std::isnan(f.probability) ? std::string("\u2014") : fixed(f.probability, score ? 1 : 3)) +
         "</td><td>" + mcse_text(f.mcse) + "</td>";
-    out += cell(rhat_text(f.rhat), rhat_fails(f.rhat, d.rhat_threshold), std::isnan(f.rhat));
-    out +=
-        cell(ess_text(f.ess_bulk), ess_fails(f.ess_bulk, d.ess_threshold), std::isnan(f.ess_bulk));
-    out +=
-        cell(ess_text(f.ess_tail), ess_fails(f.ess_tail, d.ess_threshold), std::isnan(f.ess_tail));
+    out += cell(rhat_text(f.rhat), rhat_fails(f.rhat, d), std::isnan(f.rhat));
+    out += cell(ess_text(f.ess_bulk), ess_fails(f.ess_bulk, d), std::isnan(f.ess_bulk));
+    out += cell(ess_text(f.ess_tail), ess_fails(f.ess_tail, d), std::isnan(f.ess_tail));
     out += "</tr>\n";
   }
   out += "</tbody>\n</table>\n<p class=\"note\">Ordered by distance from the thresholds (R-hat " +

@@ -3,8 +3,12 @@
 #include <cmath>
 #include <cstdio>
 #include <numeric>
+#include <optional>
+#include <string>
 
+#include "covey/analysis/check.hpp"
 #include "covey/chains/structure_chain.hpp"
+#include "covey/core/enum_names.hpp"
 #include "covey/core/error.hpp"
 
 namespace covey {
@@ -103,6 +107,71 @@ ReportData report_data_from_runs(const std::vector<ChainRun>& runs, const RunFea
   if (d.chains < 4)
     data.cautions.push_back("Only " + std::to_string(d.chains) +
                             " chains: R-hat is more reliable with 4 or more.");
+  return data;
+}
+
+namespace {
+constexpr EnumName<ConvergenceVerdict::State> kStateNames[] = {
+    {ConvergenceVerdict::State::kConverged, "converged"},
+    {ConvergenceVerdict::State::kNotConverged, "not converged"},
+    {ConvergenceVerdict::State::kUndetermined, "undetermined"}};
+}  // namespace
+
+const char* to_string(ConvergenceVerdict::State state) {
+  return enum_name(kStateNames, state, "undetermined");
+}
+
+Comparison compare_run_edges(const RunDiagnostics& d, const PosteriorEstimate& other,
+                             const std::string& run_label) {
+  Comparison c;
+  c.label_a = run_label;
+  c.label_b = other.label();
+  for (std::size_t i = 0; i < d.features.size(); ++i) {
+    const FeatureId& f = d.features[i];
+    if (f.kind != FeatureKind::kEdge) continue;
+    const Estimate b = other.feature(f);
+    c.pairs.push_back({f.from, f.to, d.summaries[i].mean, b.value, d.summaries[i].mcse,
+                       b.se > 0 ? b.se : std::nan("")});
+  }
+  return c;
+}
+
+ReportData run_report_data(const RunReportRequest& request) {
+  check_thresholds(request.thresholds, "report");
+  if (!(request.consensus >= 0 && request.consensus < 1)) {
+    char value[32];
+    std::snprintf(value, sizeof value, "%g", request.consensus);
+    throw OptionError("report: {consensus} must lie in [0, 1), got " + std::string(value));
+  }
+  FeatureKinds kinds = request.kinds;
+  kinds.edges = true;  // the heat map, consensus DAG and comparison need them
+  const std::vector<ChainRun> runs = open_runs(request.runs);
+  // Read the other side first: a wrong file fails before the long diagnostics.
+  std::optional<PosteriorEstimate> other;
+  if (!request.compare.empty()) {
+    CompareOptions co;
+    co.kinds = FeatureKinds{true, false, false, false};
+    other.emplace(PosteriorEstimate::load({request.compare}, co));
+    if (other->variables() != runs.front().variables() ||
+        other->table_fingerprint() != runs.front().table_fingerprint())
+      throw InputError(request.compare + ": made from another score table than " +
+                       request.runs.front());
+  }
+  const RunFeatures draws(runs, kinds.ancestors);
+  const std::vector<FeatureId> features = list_features(draws.num_variables(), kinds);
+  const RunDiagnostics d = diagnose_run_with_progress(draws, features, "report: diagnostics");
+  ReportData data = report_data_from_runs(runs, draws, d, request.thresholds);
+  if (!request.title.empty()) data.title = request.title;
+  data.consensus_threshold = request.consensus;
+  if (other) {
+    data.comparison = compare_run_edges(d, *other, "chain run (" + request.runs.front() + ")");
+    if (other->source() == PosteriorSource::kCoverDraws)
+      data.cautions.push_back(
+          "The comparison's second posterior is restricted to the DAGs whose moral graph has "
+          "a vertex cover of at most " +
+          std::to_string(other->cover_bound()) +
+          " vertices; differences show what that restriction changes, not errors.");
+  }
   return data;
 }
 

@@ -64,8 +64,7 @@ class Bdeu final : public LocalScore {
   Bdeu(const DataTable& data, double ess) : data_(data), ess_(ess), rows_(data.num_rows()) {
     if (data.kind() != VariableKind::kDiscrete)
       throw InputError("BDeu needs discrete data (the table holds Gaussian columns)");
-    if (!(ess > 0) || !std::isfinite(ess))
-      throw InputError("--equivalent-sample-size must be a positive number");
+    if (!(ess > 0) || !std::isfinite(ess)) throw OptionError("{ess} must be a positive number");
     for (int v = 0; v < data.num_variables(); ++v) {
       levels_.push_back(data.num_levels(v));
       columns_.push_back(data.codes(v).data());

@@ -30,10 +30,10 @@ namespace covey {
 double bge_alpha_w(const BgeParameters& p, int n) {
   const double alpha_w = std::isnan(p.alpha_w) ? n + 2.0 : p.alpha_w;
   if (!(p.alpha_mu > 0) || !std::isfinite(p.alpha_mu))
-    throw InputError("--bge-alpha-mu must be a positive number");
+    throw OptionError("{bge.alpha_mu} must be a positive number");
   if (!(alpha_w > n + 1.0) || !std::isfinite(alpha_w))
-    throw InputError("--bge-alpha-w must exceed n + 1 = " + std::to_string(n + 1) +
-                     " (n = number of variables)");
+    throw OptionError("{bge.alpha_w} must exceed n + 1 = " + std::to_string(n + 1) +
+                      " (n = number of variables)");
   return alpha_w;
 }
 

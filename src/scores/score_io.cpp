@@ -47,7 +47,7 @@ void write_metadata(H5::H5File& file, const ScoreMetadata& m) {
   h5::set_attr(file, "format_version", kFormatVersion);
   h5::set_attr(file, "score", m.score);
   h5::set_attr(file, "prior", m.prior);
-  h5::set_attr_json(file, "parameters", m.parameters);
+  h5::set_attr_map(file, "parameters", m.parameters);
   h5::set_attr(file, "max_indegree", static_cast<long long>(m.max_indegree));
   h5::set_attr(file, "num_rows", m.num_rows);
   h5::set_attr(file, "source", m.source);
@@ -65,7 +65,7 @@ ScoreMetadata read_metadata(const H5::H5File& file, const std::string& path) {
   ScoreMetadata m;
   m.score = h5::get_attr_string(file, "score");
   m.prior = h5::get_attr_string(file, "prior");
-  m.parameters = h5::get_attr_json(file, "parameters");
+  m.parameters = h5::get_attr_map(file, "parameters");
   m.max_indegree = static_cast<int>(h5::get_attr_int(file, "max_indegree"));
   m.num_rows = h5::get_attr_int(file, "num_rows");
   m.source = h5::get_attr_string(file, "source");

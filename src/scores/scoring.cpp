@@ -65,14 +65,14 @@ struct NodePlan {
 int candidate_rule(const ScoreOptions& o, int n) {
   if (o.candidates == kDefaultCandidates) return n <= kNoScreenUpTo ? n : kDefaultCandidateCount;
   if (o.candidates < 1 || o.candidates > kMaxCandidates)
-    throw InputError("--candidates must be between 1 and " + std::to_string(kMaxCandidates));
+    throw OptionError("{candidates} must be between 1 and " + std::to_string(kMaxCandidates));
   return o.candidates;
 }
 
 std::vector<NodePlan> plan_nodes(const std::vector<Variable>& variables, const ScoreOptions& o) {
   const int n = static_cast<int>(variables.size());
-  if (o.max_indegree < 0) throw InputError("--max-indegree must be 0 or more");
-  if (!std::isfinite(o.edge_penalty)) throw InputError("--edge-penalty must be a finite number");
+  if (o.max_indegree < 0) throw OptionError("{max_indegree} must be 0 or more");
+  if (!std::isfinite(o.edge_penalty)) throw OptionError("{edge_penalty} must be a finite number");
   check_edge_constraints(o.constraints, variables);
   const int limit = candidate_rule(o, n);
   std::vector<std::vector<char>> excluded(n, std::vector<char>(n, 0));
@@ -275,13 +275,14 @@ ScoreTable compute_scores(const LocalScore& score, const std::vector<Variable>& 
   }
   if (o.progress) o.progress(total_sets, total_sets);
 
-  nlohmann::json& params = metadata.parameters;
+  Attributes& params = metadata.parameters;
   if (o.prior == PriorKind::kEdgePenalty) params["edge_penalty"] = o.edge_penalty;
-  params["candidates"] = o.candidates == kDefaultCandidates && n <= kNoScreenUpTo
-                             ? nlohmann::json("all")
-                             : nlohmann::json(candidate_rule(o, n));
-  params["forbidden_edges"] = o.constraints.forbidden.size();
-  params["required_edges"] = o.constraints.required.size();
+  if (o.candidates == kDefaultCandidates && n <= kNoScreenUpTo)
+    params["candidates"] = std::string("all");
+  else
+    params["candidates"] = static_cast<long long>(candidate_rule(o, n));
+  params["forbidden_edges"] = static_cast<long long>(o.constraints.forbidden.size());
+  params["required_edges"] = static_cast<long long>(o.constraints.required.size());
   metadata.prior = to_string(o.prior);
   metadata.max_indegree = o.max_indegree;
   metadata.num_rows = static_cast<long long>(rows);
@@ -292,7 +293,6 @@ ScoreTable compute_scores(const LocalScore& score, const std::vector<Variable>& 
 ScoreTable score_data(const DataTable& data, const ScoreOptions& options) {
   ScoreMetadata meta;
   meta.source = data.source();
-  meta.parameters = nlohmann::json::object();
   std::unique_ptr<LocalScore> score;
   if (data.kind() == VariableKind::kDiscrete) {
     score = make_bdeu(data, options.equivalent_sample_size);
@@ -307,7 +307,7 @@ ScoreTable score_data(const DataTable& data, const ScoreOptions& options) {
     meta.parameters["t"] = bge_t(options.bge, n);
     meta.parameters["standardized"] = options.bge.standardize;
   }
-  meta.parameters["rows_dropped"] = data.rows_dropped();
+  meta.parameters["rows_dropped"] = static_cast<long long>(data.rows_dropped());
   return compute_scores(*score, data.variables(), data.num_rows(), options, std::move(meta));
 }
 

@@ -3,29 +3,26 @@
 
 #include <cmath>
 
+#include "covey/core/enum_names.hpp"
 #include "covey/core/error.hpp"
 #include "covey/scores/scores.hpp"
 
 namespace covey {
 
+namespace {
+constexpr EnumName<PriorKind> kPriorNames[] = {{PriorKind::kUniform, "uniform"},
+                                               {PriorKind::kEdgePenalty, "edge-penalty"},
+                                               {PriorKind::kParentCount, "parent-count"}};
+}  // namespace
+
 const char* to_string(PriorKind kind) {
-  switch (kind) {
-    case PriorKind::kUniform:
-      return "uniform";
-    case PriorKind::kEdgePenalty:
-      return "edge-penalty";
-    case PriorKind::kParentCount:
-      return "parent-count";
-  }
-  return "uniform";
+  return enum_name(kPriorNames, kind, "uniform");
 }
 
 PriorKind prior_kind_from_string(const std::string& text) {
-  if (text == "uniform") return PriorKind::kUniform;
-  if (text == "edge-penalty") return PriorKind::kEdgePenalty;
-  if (text == "parent-count") return PriorKind::kParentCount;
-  throw InputError("--prior: unknown structure prior '" + text +
-                   "' (expected uniform, edge-penalty or parent-count)");
+  if (const auto kind = enum_from_name(kPriorNames, text)) return *kind;
+  throw OptionError("{prior}: unknown structure prior '" + text + "' (expected " +
+                    enum_name_list(kPriorNames) + ")");
 }
 
 double log_structure_prior(PriorKind kind, double edge_penalty, int num_variables,

@@ -63,10 +63,12 @@ class PosteriorEstimate {
   };
   Mass cover_class_mass(int k) const;
 
-  struct Impl;  // opaque; defined in src/analysis/posterior_compare.cpp
-  explicit PosteriorEstimate(std::unique_ptr<Impl> impl);
-
  private:
+  // The estimates, defined and built only in src/analysis/posterior_compare.cpp: load() is the
+  // one way to make a PosteriorEstimate; its loaders reach Impl through the friend below.
+  struct Impl;
+  friend struct PosteriorEstimateLoaders;
+  explicit PosteriorEstimate(std::unique_ptr<Impl> impl);
   std::unique_ptr<Impl> impl_;
 };
 

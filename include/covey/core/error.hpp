@@ -1,6 +1,7 @@
 #pragma once
 // One exception type for every user-facing failure: the CLI prints what() on one line and exits
 // non-zero. Messages name the file, line, column or option at fault.
+#include <functional>
 #include <stdexcept>
 #include <string>
 
@@ -21,6 +22,37 @@ class InputError : public Error {
 class ResourceError : public Error {
  public:
   using Error::Error;
+};
+
+// A bad option value, told in the library's words: the message template names each field in
+// braces ("{max_indegree} must be 0 or more"). what() shows the bare field names; a program
+// with its own spelling of the fields (the CLI's flags) prints render(spell) instead.
+class OptionError : public InputError {
+ public:
+  using Spelling = std::function<std::string(const std::string& field)>;
+  explicit OptionError(std::string message_template)
+      : InputError(fill(message_template, [](const std::string& f) { return f; })),
+        template_(std::move(message_template)) {}
+  std::string render(const Spelling& spell) const { return fill(template_, spell); }
+  const std::string& message_template() const { return template_; }
+
+ private:
+  // Replaces every "{field}" by spell(field); a brace without a closing one stays as written.
+  static std::string fill(const std::string& text, const Spelling& spell) {
+    std::string out;
+    std::size_t at = 0;
+    while (at < text.size()) {
+      const std::size_t open = text.find('{', at);
+      const std::size_t close = open == std::string::npos ? open : text.find('}', open);
+      if (close == std::string::npos) break;
+      out.append(text, at, open - at);
+      out += spell(text.substr(open + 1, close - open - 1));
+      at = close + 1;
+    }
+    out.append(text, at, std::string::npos);
+    return out;
+  }
+  std::string template_;
 };
 
 }  // namespace covey

@@ -17,6 +17,7 @@
 // An undefined value is never reported as converged.
 #include <cstddef>
 #include <functional>
+#include <limits>
 #include <span>
 #include <string_view>
 #include <vector>
@@ -132,20 +133,36 @@ struct Thresholds {
 enum class FeatureStatus { kUndefined, kFail, kPass };
 const char* to_string(FeatureStatus status);
 FeatureStatus assess(const FeatureSummary& summary, const Thresholds& thresholds);
+// One measure against its threshold: undefined (NaN), fail (R-hat >= max_rhat; ESS <= min_ess)
+// or pass. assess() combines the three as described above.
+FeatureStatus assess_rhat(double rhat, const Thresholds& thresholds);
+FeatureStatus assess_ess(double ess, const Thresholds& thresholds);
 
 // Indices of the features worst first: undefined ones, then failing, then passing; within a
 // group by R-hat descending, then by the smaller of bulk and tail ESS ascending, then by index.
 std::vector<std::size_t> worst_first(std::span<const FeatureSummary> summaries,
                                      const Thresholds& thresholds);
 
+// The one convergence verdict of covey: `check`, the chains' stopping rule (until_rhat /
+// until_ess) and the report all judge with judge() below.
 struct Verdict {
+  // Passing, failing and undefined counts, of features (assess) or of one measure.
+  struct Counts {
+    std::size_t passing = 0, failing = 0, undefined = 0;
+  };
+  // kUndetermined: no feature could be assessed (none, or all undefined).
+  enum class State { kConverged, kNotConverged, kUndetermined };
+
+  std::size_t features = 0;  // judged
   std::size_t passing = 0;
   std::size_t failing = 0;
   std::size_t undefined = 0;
+  Counts rhat, ess_bulk, ess_tail;  // per measure (assess_rhat, assess_ess)
   // Extremes over the defined values (NaN when none is defined).
-  double max_rhat = 0;
-  double min_ess_bulk = 0;
-  double min_ess_tail = 0;
+  double max_rhat = std::numeric_limits<double>::quiet_NaN();
+  double min_ess_bulk = std::numeric_limits<double>::quiet_NaN();
+  double min_ess_tail = std::numeric_limits<double>::quiet_NaN();
+  State state = State::kUndetermined;
   // Converged: every assessable feature passes, and at least one could be assessed. Undefined
   // features are reported beside it, never counted as converged.
   bool converged() const { return failing == 0 && passing > 0; }

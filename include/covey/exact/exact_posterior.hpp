@@ -112,6 +112,14 @@ class ExactEngine {
 // intermediate sums. A cross-check of the layered route, and log Z for larger tables.
 double exact_log_total_weight_signed(const ScoreTable& table, long long* clamped = nullptr);
 
+// Writes `draws` of `engine` (drawn by draw_many(draws.size(), seed)) as a draws file of kind
+// "exact-draws" (draws_file.hpp): each draw's log weight, and as attributes the seed, log Z, the
+// route, the draws per random stream, `command_line` and this build's version. Read it back with
+// read_draws. Atomic, like write_draws.
+void write_exact_draws(const std::string& path, const ScoreTable& table, const ExactEngine& engine,
+                       const std::vector<Dag>& draws, std::uint64_t seed,
+                       const std::string& command_line);
+
 }  // namespace covey
 
 namespace covey {

@@ -10,10 +10,10 @@
 //   /draws/parents     uint64 [num_draws, num_variables]: word v of row i = parent mask of v
 //   /draws/log_weight  float64 [num_draws]: log w(G) of each draw under the table
 #include <cstdint>
-#include <nlohmann/json.hpp>
 #include <string>
 #include <vector>
 
+#include "covey/core/attributes.hpp"
 #include "covey/graph/dag.hpp"
 #include "covey/scores/score_table.hpp"
 
@@ -25,18 +25,18 @@ struct DrawsFile {
   std::uint64_t table_fingerprint = 0;
   std::vector<Dag> dags;
   std::vector<double> log_weights;
-  nlohmann::json attributes = nlohmann::json::object();  // as given to write_draws
+  Attributes attributes;  // as given to write_draws
 };
 
 // Writes the draws atomically (an existing file is replaced only by a complete new one).
 // `attributes` must hold a string "kind"; "command_line" and "covey_version" are stored as
 // given (covey_version defaults to this build's version).
 void write_draws(const std::string& path, const ScoreTable& table, const std::vector<Dag>& dags,
-                 const std::vector<double>& log_weights, const nlohmann::json& attributes);
+                 const std::vector<double>& log_weights, const Attributes& attributes);
 // The same, for draws whose table is known only by its variable names and fingerprint.
 void write_draws(const std::string& path, const std::vector<std::string>& variables,
                  std::uint64_t table_fingerprint, const std::vector<Dag>& dags,
-                 const std::vector<double>& log_weights, const nlohmann::json& attributes);
+                 const std::vector<double>& log_weights, const Attributes& attributes);
 
 // Reads and validates a draws file (InputError naming the file when it is not one, is corrupt,
 // or holds a graph with a cycle or a self-loop).

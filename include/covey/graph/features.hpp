@@ -21,6 +21,10 @@ struct FeatureKinds {
   bool edges = true, adjacencies = true, ancestors = true, score = true;
 };
 
+// A feature as people read it: "A \u2192 B" (edge), "A \u2014 B" (adjacency), "A \u21dd B"
+// (ancestor), "log score"; an index outside `names` shows as "#i".
+std::string feature_label(const FeatureId& feature, const std::vector<std::string>& names);
+
 // Parses a comma-separated list of edges, adjacencies, ancestors, score (singular forms and
 // "all" accepted). Throws InputError naming `option` for an unknown or empty list.
 FeatureKinds parse_feature_kinds(const std::string& text, const std::string& option);

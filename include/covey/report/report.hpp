@@ -15,6 +15,7 @@
 #include <utility>
 #include <vector>
 
+#include "covey/diagnostics/diagnostics.hpp"
 #include "covey/graph/features.hpp"
 
 namespace covey {
@@ -79,17 +80,10 @@ struct ReportData {
   double consensus_threshold = 0.5;
 };
 
-// The headline: every feature with a defined diagnostic meets R-hat < rhat_threshold and
-// bulk and tail ESS > ess_threshold. Undefined values (NaN) neither pass nor fail; they are
-// counted. With no defined diagnostic at all the verdict is undetermined.
-struct ConvergenceVerdict {
-  enum class State { kConverged, kNotConverged, kUndetermined };
-  State state = State::kUndetermined;
-  std::size_t features = 0;   // features summarised
-  std::size_t failing = 0;    // features failing at least one threshold
-  std::size_t undefined = 0;  // features whose R-hat is undefined (constant across all draws)
-  double max_rhat = kUndefined, min_ess_bulk = kUndefined, min_ess_tail = kUndefined;
-};
+// The headline: the diagnostics layer's verdict (judge in diagnostics.hpp, the same rule as
+// `covey check` and the chains' stopping rule) over the features, with thresholds
+// rhat_threshold and ess_threshold.
+using ConvergenceVerdict = Verdict;
 ConvergenceVerdict assess_convergence(const ReportData& data);
 
 // A feature's name for people, e.g. "smoker → cancer", "age — income", "log score".

@@ -8,11 +8,11 @@
 // n <= 64 may use "global masks" (bit u = variable u) through to_global()/to_local().
 #include <cstdint>
 #include <map>
-#include <nlohmann/json.hpp>
 #include <span>
 #include <string>
 #include <vector>
 
+#include "covey/core/attributes.hpp"
 #include "covey/data/variables.hpp"
 
 namespace covey {
@@ -24,10 +24,10 @@ inline constexpr int kMaxCandidates = 64;
 struct ScoreMetadata {
   std::string score = "imported";  // "bdeu", "bge" or "imported"
   std::string prior = "uniform";   // "uniform", "edge-penalty", "parent-count"
-  nlohmann::json parameters = nlohmann::json::object();  // score and prior parameters
-  int max_indegree = -1;                                 // -1: not bounded by construction
-  long long num_rows = -1;                               // rows of data scored; -1 when imported
-  std::string source;                                    // data file the table was made from
+  Attributes parameters;           // score and prior parameters, e.g. equivalent_sample_size
+  int max_indegree = -1;           // -1: not bounded by construction
+  long long num_rows = -1;         // rows of data scored; -1 when imported
+  std::string source;              // data file the table was made from
   std::string command_line;
   std::string covey_version;
 };
