@@ -109,8 +109,8 @@ Outcome run_configuration(const covey::ScoreTable& table, bool blocks,
   out.blocks = summary.counts.proposed[int(covey::Move::kBlock)];
   for (auto r : summary.regenerations) out.regenerations += r;
   const covey::ChainRun run = covey::ChainRun::open(path);
-  out.block_size = run.options().value("block_size", 0);
-  out.block_rate = run.options().value("block_rate", 0.0);
+  out.block_size = run.options().block_size;
+  out.block_rate = run.options().block_rate;
   const covey::RunFeatures features(run);
   const int n = table.num_variables();
   std::vector<std::pair<int, int>> edges;

@@ -17,6 +17,8 @@
 #include <optional>
 
 #include "chain_file_writer.hpp"
+#include "chain_options_json.hpp"
+#include "core/attributes_json.hpp"
 #include "core/h5.hpp"
 #include "covey/core/atomic_file.hpp"
 #include "covey/core/error.hpp"
@@ -358,7 +360,7 @@ ChainRun ChainRun::open(const std::string& path) {
                        ")");
     run.num_chains_ = static_cast<int>(num_chains);
     run.words_ = static_cast<int>(h5::get_attr_int(file, "words_per_node"));
-    run.options_ = h5::get_attr_json(file, "options");
+    run.options_ = fixed_options_from_json(h5::get_attr_json(file, "options"), path);
     if (h5::has_attr(file, "global_chains")) {
       try {
         run.global_chains_ = h5::get_attr_json(file, "global_chains").get<std::vector<int>>();
@@ -371,19 +373,13 @@ ChainRun ChainRun::open(const std::string& path) {
       for (int c = 0; c < run.num_chains_; ++c) run.global_chains_.push_back(c);
     }
     if (h5::has_attr(file, "mpi_rank")) {
-      run.attributes_["mpi_rank"] = h5::get_attr_int(file, "mpi_rank");
-      run.attributes_["mpi_ranks"] = h5::get_attr_int(file, "mpi_ranks");
+      run.mpi_rank_ = static_cast<int>(h5::get_attr_int(file, "mpi_rank"));
+      run.mpi_ranks_ = static_cast<int>(h5::get_attr_int(file, "mpi_ranks"));
     }
-    for (const char* name :
-         {"format", "covey_version", "command_line", "table_fingerprint", "seed"})
-      if (h5::has_attr(file, name)) run.attributes_[name] = h5::get_attr_string(file, name);
-    run.attributes_["format_version"] = version;
-    run.attributes_["num_chains"] = run.num_chains_;
-    run.attributes_["global_chains"] = run.global_chains_;
-    run.attributes_["words_per_node"] = run.words_;
-    run.attributes_["options"] = run.options_;
-    run.attributes_["sessions"] = h5::get_attr_json(file, "sessions");
-    run.attributes_["move_names"] = h5::get_attr_json(file, "move_names");
+    const nlohmann::json sessions = h5::get_attr_json(file, "sessions");
+    if (!sessions.is_array()) throw InputError(path + ": corrupt sessions attribute");
+    for (const nlohmann::json& session : sessions)
+      run.sessions_.push_back(attributes_from_json(session, path + ": sessions attribute"));
     H5::Group root = file.openGroup("/");
     run.variables_ = h5::read_strings(root, kVariables);
     const long long n = h5::get_attr_int(file, "num_variables");
@@ -513,7 +509,6 @@ RunManifest read_run_manifest(const std::string& path) {
       throw InputError(path + ": manifest format version " + std::to_string(version) +
                        " is not supported (this covey reads version " +
                        std::to_string(kChainManifestFormatVersion) + ")");
-    m.options = h5::get_attr_json(file, "options");
     const long long total = h5::get_attr_int(file, "num_chains");
     const nlohmann::json list = h5::get_attr_json(file, "members");
     if (!list.is_array() || list.empty())
@@ -546,6 +541,7 @@ RunManifest read_run_manifest(const std::string& path) {
       throw InputError(path + ": corrupt manifest (members hold " + std::to_string(next) + " of " +
                        std::to_string(total) + " chains)");
     m.num_chains = static_cast<int>(total);
+    m.options = fixed_options_from_json(h5::get_attr_json(file, "options"), path);
   });
   return m;
 }

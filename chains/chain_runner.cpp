@@ -14,8 +14,10 @@
 
 #include "block_move.hpp"
 #include "chain_file_writer.hpp"
+#include "chain_options_json.hpp"
 #include "chain_start.hpp"
 #include "core/mpi_context.hpp"
+#include "covey/core/atomic_file.hpp"
 #include "covey/core/error.hpp"
 #include "covey/core/random.hpp"
 #include "covey/core/version.hpp"
@@ -53,35 +55,37 @@ struct Slot {
 
 void check_options(const ChainRunOptions& o, const ChainRunHooks& hooks, const ScoreTable& table,
                    bool resume) {
-  if (o.chains < 1) throw InputError("--chains must be at least 1");
-  if (o.thin < 1) throw InputError("--thin must be at least 1");
-  if (o.rev_rate < 0 || o.rev_rate > 1) throw InputError("--rev-rate must lie in [0, 1]");
+  if (o.chains < 1) throw OptionError("{chains} must be at least 1");
+  if (o.thin < 1) throw OptionError("{thin} must be at least 1");
+  if (o.rev_rate < 0 || o.rev_rate > 1) throw OptionError("{rev_rate} must lie in [0, 1]");
   if (o.teleport_rate < 0 || o.teleport_rate > 1)
-    throw InputError("--teleport-rate must lie in [0, 1]");
+    throw OptionError("{teleport_rate} must lie in [0, 1]");
   if (o.rev_rate + o.teleport_rate > 1)
-    throw InputError("--rev-rate plus --teleport-rate must be at most 1");
+    throw OptionError("{rev_rate} plus {teleport_rate} must be at most 1");
   if (o.teleport_rate > 0 && o.teleport_cover < 0)
-    throw InputError("--teleport-rate needs --teleport-cover K (the class of the exact sampler)");
+    throw OptionError("{teleport_rate} needs {teleport_cover} K (the class of the exact sampler)");
   if (o.start == "exact" && o.teleport_cover < 0)
-    throw InputError("--start exact needs --teleport-cover K (the class D_K to draw from)");
+    throw OptionError("{start} exact needs {teleport_cover} K (the class D_K to draw from)");
   if ((o.teleport_rate > 0 || (o.start == "exact" && !resume)) && !hooks.teleport)
     throw Error("run_chains: no teleport sampler given");
   if (o.cover_limit >= 0 && !hooks.restriction) throw Error("run_chains: no class given");
   if (o.teleport_cover >= 0 && o.cover_limit >= 0 && o.teleport_cover > o.cover_limit)
-    throw InputError("--teleport-cover K must not exceed --cover-limit K' (D_K must lie in D_K')");
+    throw OptionError("{teleport_cover} K must not exceed {cover_limit} K' (D_K must lie in D_K')");
   if ((o.teleport_cover >= 0 || o.cover_limit >= 0) && table.num_variables() > 64)
-    throw InputError(
-        "--teleport-cover, --cover-limit and --start exact support at most 64 "
-        "variables; the table has " +
+    throw OptionError(
+        "{teleport_cover}, {cover_limit} and {start} exact support at most 64 variables; the "
+        "table has " +
         std::to_string(table.num_variables()));
   if (o.until_rhat < 0 || o.until_ess < 0)
-    throw InputError("--until-rhat and --until-ess must be positive");
+    throw OptionError("{until_rhat} and {until_ess} must be positive");
   if (o.until_enabled() && !hooks.convergence) throw Error("run_chains: no convergence check");
   if (o.steps == 0 && o.max_seconds <= 0 && !o.until_enabled())
-    throw InputError(
-        "give a stopping rule: --steps N, --max-time DURATION or --until-rhat / "
-        "--until-ess");
-  if (o.checkpoint_every < 0) throw InputError("--checkpoint-every must be >= 0");
+    throw OptionError(
+        "give a stopping rule: {steps} N, {max_seconds} DURATION or {until_rhat} / {until_ess}");
+  if (o.steps > 0 && o.burn_in >= o.steps)
+    throw OptionError("{burn_in} " + std::to_string(o.burn_in) + " leaves no draws of {steps} " +
+                      std::to_string(o.steps) + " (the burn-in must be shorter than the run)");
+  if (o.checkpoint_every < 0) throw OptionError("{checkpoint_every} must be >= 0");
   check_block_options(o, table);
 }
 
@@ -114,8 +118,9 @@ class Runner {
     ranks_ = mpi::size();
     if (ranks_ > 1) {
       if (o_.chains < ranks_)
-        throw InputError("--chains " + std::to_string(o_.chains) + " is fewer than the " +
-                         std::to_string(ranks_) + " MPI ranks; give every rank at least one chain");
+        throw OptionError("{chains} " + std::to_string(o_.chains) + " is fewer than the " +
+                          std::to_string(ranks_) +
+                          " MPI ranks; give every rank at least one chain");
       member_ = chain_file::member_path(path_, rank_);
     }
     // Rank r runs the block [first_chain(r), first_chain(r + 1)) of the chains.
@@ -127,7 +132,6 @@ class Runner {
     config_.teleport_rate = o_.teleport_rate;
     config_.teleport = o_.teleport_rate > 0 ? hooks.teleport : nullptr;
     config_.restriction = o_.cover_limit >= 0 ? hooks.restriction : nullptr;
-    config_.drop_hastings_for_testing = o_.drop_hastings_for_testing;
     config_.block_rate = o_.block_rate;
     config_.block_size = o_.block_size;
     if (o_.block_size > 0 && o_.block_size < table.num_variables())
@@ -177,7 +181,7 @@ class Runner {
       header.mpi_rank = rank_;
       header.mpi_ranks = ranks_;
     }
-    header.options = o_.fixed_to_json();
+    header.options = fixed_options_to_json(o_);
     session_["start_step"] = 0;
     header.session = session_;
     const auto t = Clock::now();
@@ -528,96 +532,21 @@ class Runner {
 
 }  // namespace
 
-nlohmann::json ChainRunOptions::fixed_to_json() const {
-  return {{"chains", chains},
-          {"thin", thin},
-          {"burn_in", burn_in},
-          {"seed", seed},
-          {"rev_rate", rev_rate},
-          {"teleport_rate", teleport_rate},
-          {"teleport_cover", teleport_cover},
-          {"cover_limit", cover_limit},
-          {"start", start},
-          {"block_size", block_size},
-          {"block_rate", block_rate},
-          {"steps", steps},
-          {"max_seconds", max_seconds},
-          {"until_rhat", until_rhat},
-          {"until_ess", until_ess},
-          {"checkpoint_every", checkpoint_every},
-          {"drop_hastings_for_testing", drop_hastings_for_testing}};
-}
-
-void ChainRunOptions::fixed_from_json(const nlohmann::json& s, const std::string& path) {
-  try {
-    chains = s.at("chains").get<int>();
-    thin = s.at("thin").get<std::uint64_t>();
-    burn_in = s.at("burn_in").get<std::uint64_t>();
-    seed = s.at("seed").get<std::uint64_t>();
-    rev_rate = s.at("rev_rate").get<double>();
-    teleport_rate = s.at("teleport_rate").get<double>();
-    teleport_cover = s.at("teleport_cover").get<int>();
-    cover_limit = s.at("cover_limit").get<int>();
-    start = s.at("start").get<std::string>();
-    block_size = s.value("block_size", 0);  // runs made before block moves have none
-    block_rate = s.value("block_rate", 0.0);
-    drop_hastings_for_testing = s.value("drop_hastings_for_testing", 0u);
-  } catch (const nlohmann::json::exception& e) {
-    throw InputError(path + ": corrupt run options: " + e.what());
-  }
-}
-
-nlohmann::json ConvergenceStatus::to_json() const {
-  auto num = [](double x) {
-    return std::isfinite(x) ? nlohmann::json(x) : nlohmann::json(nullptr);
-  };
-  return {{"converged", converged}, {"max_rhat", num(max_rhat)}, {"min_ess", num(min_ess)},
-          {"features", features},   {"failing", failing},        {"undefined", undefined}};
-}
-
-nlohmann::json ChainRunSummary::to_json() const {
-  nlohmann::json acceptance = nlohmann::json::object(), proposals = nlohmann::json::object(),
-                 accepted = nlohmann::json::object();
-  for (int m = 0; m < kNumMoves; ++m) {
-    proposals[move_name(m)] = counts.proposed[m];
-    accepted[move_name(m)] = counts.accepted[m];
-    acceptance[move_name(m)] =
-        counts.proposed[m] ? nlohmann::json(double(counts.accepted[m]) / double(counts.proposed[m]))
-                           : nlohmann::json(nullptr);
-  }
-  std::uint64_t regen = 0;
-  for (auto r : regenerations) regen += r;
-  const int tel = int(Move::kTeleport);
-  nlohmann::json out = {
-      {"output", path},
-      {"chains", chains},
-      {"steps", steps},
-      {"session_steps", session_steps},
-      {"draws", draws},
-      {"checkpoints", checkpoints},
-      {"seconds", seconds},
-      {"checkpoint_seconds", checkpoint_seconds},
-      {"proposals_per_second", seconds > 0 ? double(session_proposals) / seconds : 0.0},
-      {"acceptance", acceptance},
-      {"proposals", proposals},
-      {"accepted", accepted},
-      {"teleport_acceptance", counts.proposed[tel] ? nlohmann::json(double(counts.accepted[tel]) /
-                                                                    double(counts.proposed[tel]))
-                                                   : nlohmann::json(nullptr)},
-      {"regenerations", regen},
-      {"regenerations_per_chain", regenerations},
-      {"stop_reason", stop_reason}};
-  if (convergence_checked) out["convergence"] = convergence.to_json();
-  if (!std::isnan(teleport_mass_bound_log10))
-    out["teleport_mass_bound_log10"] = teleport_mass_bound_log10;
-  if (!teleport_note.empty()) out["teleport_note"] = teleport_note;
-  return out;
+std::uint64_t ChainRunSummary::total_regenerations() const {
+  std::uint64_t total = 0;
+  for (const std::uint64_t r : regenerations) total += r;
+  return total;
 }
 
 ChainRunSummary run_chains(const ScoreTable& table, const std::string& path,
                            const ChainRunOptions& options, const ChainRunHooks& hooks,
                            bool resume) {
-  ChainRunOptions o = options;
+  if (table.num_variables() < 2)
+    throw InputError("a chain needs a score table of at least two variables; this one has " +
+                     std::to_string(table.num_variables()));
+  // A resumed run keeps the fixed options it was made with (resume_options tells whether the
+  // caller asked for others); only the session's options come from `options`.
+  ChainRunOptions o = resume ? resume_options(path, options, {}) : with_default_choices(options);
   if (!resume && (o.block_size < 0 || o.block_rate < 0)) {
     const BlockSettings chosen = choose_block_settings(table);
     if (o.block_size < 0) o.block_size = chosen.size;
@@ -629,6 +558,15 @@ ChainRunSummary run_chains(const ScoreTable& table, const std::string& path,
     if (o.block_size == 0) o.block_rate = 0;
   }
   check_options(o, hooks, table, resume);
+  if (!resume) {
+    // A start file is read before the output is judged, so its faults are told first.
+    if (o.start != "empty" && o.start != "exact" && o.start != "greedy")
+      (void)read_start_dag(o.start, table);
+    if (options.overwrite || !std::filesystem::exists(path))
+      require_output_path(path);
+    else
+      throw OptionError(path + ": exists; {overwrite} replaces it and {resume} continues the run");
+  }
   Runner runner(table, path, o, hooks);
   if (resume)
     runner.resume();

@@ -108,7 +108,7 @@ TEST(ChainRunner, ResumeContinuesBitForBit) {
                  b = ChainRun::open(dir.file("resumed.h5"));
   expect_same_traces(a, b);
   EXPECT_GT(b.num_checkpoints(), a.num_checkpoints());
-  EXPECT_EQ(b.attributes()["sessions"].size(), 2u);
+  EXPECT_EQ(b.sessions().size(), 2u);
   // Resuming a finished run does nothing.
   const ChainRunSummary again =
       run_chains(table, dir.file("resumed.h5"), rest, quiet_hooks(), true);
@@ -386,7 +386,7 @@ TEST(ChainCli, TenRandomKillsThenResumeEqualsStraightRun) {
   ASSERT_EQ(r.exit_code, 0) << r.err;
   expect_same_traces(ChainRun::open(dir.file("straight.h5")), ChainRun::open(run));
   // A session is recorded with its first checkpoint: those killed before it left no trace.
-  const std::size_t sessions = ChainRun::open(run).attributes()["sessions"].size();
+  const std::size_t sessions = ChainRun::open(run).sessions().size();
   EXPECT_GE(sessions, 2u);
   EXPECT_LE(sessions, 11u);
   expect_no_temporaries(dir, "run.h5");
@@ -637,6 +637,50 @@ TEST(Duration, ParsesUnits) {
   EXPECT_DOUBLE_EQ(parse_duration("45", "--x"), 45);
   EXPECT_THROW(parse_duration("-1m", "--x"), InputError);
   EXPECT_THROW(parse_duration("m", "--x"), InputError);
+}
+
+
+// A user's run is never replaced unasked (issue: `chain -o EXISTING` lost a converged run), and a
+// resume cannot change how the run was made; both are library rules the CLI only spells.
+TEST(ChainRunner, RefusesToReplaceARunAndToChangeFixedOptionsOnResume) {
+  const ScoreTable table = testing_util::random_full_table(5, 2, 23);
+  TempDir dir;
+  ChainRunOptions o = small_options();
+  o.steps = 2000;
+  const std::string run = dir.file("run.h5");
+  run_chains(table, run, o, quiet_hooks(), false);
+  const std::uint64_t steps = ChainRun::open(run).steps();
+  try {
+    ChainRunOptions again = o;
+    again.steps = 1000;
+    run_chains(table, run, again, quiet_hooks(), false);
+    ADD_FAILURE() << "an existing run was replaced without overwrite";
+  } catch (const OptionError& e) {
+    EXPECT_NE(e.message_template().find("{overwrite}"), std::string::npos) << e.what();
+  }
+  EXPECT_EQ(ChainRun::open(run).steps(), steps);  // untouched
+  ChainRunOptions replace = o;
+  replace.steps = 700;
+  replace.overwrite = true;
+  run_chains(table, run, replace, quiet_hooks(), false);
+  EXPECT_EQ(ChainRun::open(run).steps(), 700u);
+
+  ChainRunOptions changed = o;
+  changed.thin = 3;
+  const std::vector<std::string> given{"thin", "steps"};
+  try {
+    resume_options(run, changed, given);
+    ADD_FAILURE() << "a resume changed --thin";
+  } catch (const OptionError& e) {
+    EXPECT_NE(e.message_template().find("{thin} cannot be changed"), std::string::npos) << e.what();
+  }
+  // Repeating the stored value is fine, and the session options come from the caller.
+  changed.thin = o.thin;
+  changed.steps = 5000;
+  const ChainRunOptions resumed = resume_options(run, changed, given);
+  EXPECT_EQ(resumed.thin, o.thin);
+  EXPECT_EQ(resumed.steps, 5000u);
+  EXPECT_EQ(resumed.block_size, ChainRun::open(run).options().block_size);
 }
 
 }  // namespace

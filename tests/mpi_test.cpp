@@ -80,9 +80,19 @@ void expect_members_equal_single(const std::string& manifest, const ChainRun& si
     EXPECT_EQ(member.steps(), single.steps()) << file;
     EXPECT_EQ(member.num_draws(), single.num_draws()) << file;
     // The options fixed at creation (the stopping options are the first session's).
-    for (const char* key : {"chains", "thin", "burn_in", "seed", "rev_rate", "teleport_rate",
-                            "teleport_cover", "cover_limit", "start"})
-      EXPECT_EQ(member.options()[key], single.options()[key]) << file << " " << key;
+    const ChainRunOptions& mo = member.options();
+    const ChainRunOptions& so = single.options();
+    EXPECT_EQ(mo.chains, so.chains) << file;
+    EXPECT_EQ(mo.thin, so.thin) << file;
+    EXPECT_EQ(mo.burn_in, so.burn_in) << file;
+    EXPECT_EQ(mo.seed, so.seed) << file;
+    EXPECT_EQ(mo.rev_rate, so.rev_rate) << file;
+    EXPECT_EQ(mo.teleport_rate, so.teleport_rate) << file;
+    EXPECT_EQ(mo.teleport_cover, so.teleport_cover) << file;
+    EXPECT_EQ(mo.cover_limit, so.cover_limit) << file;
+    EXPECT_EQ(mo.start, so.start) << file;
+    EXPECT_EQ(mo.block_size, so.block_size) << file;
+    EXPECT_EQ(mo.block_rate, so.block_rate) << file;
     for (int c = 0; c < member.num_chains(); ++c) {
       const int g = member.global_chains()[std::size_t(c)];
       EXPECT_EQ(g, next++) << file;
@@ -133,8 +143,8 @@ TEST(MpiChain, ThreeRanksEqualOneProcessChainByChain) {
     EXPECT_EQ(members[rank], dir.file("mpi.rank" + std::to_string(rank) + ".h5"));
     const ChainRun m = ChainRun::open(members[rank]);
     EXPECT_EQ(m.global_chains(), blocks[rank]);
-    EXPECT_EQ(m.attributes()["mpi_rank"].get<int>(), rank);
-    EXPECT_EQ(m.attributes()["mpi_ranks"].get<int>(), 3);
+    EXPECT_EQ(m.mpi_rank(), rank);
+    EXPECT_EQ(m.mpi_ranks(), 3);
   }
   expect_members_equal_single(manifest, single);
   // Rank 0 alone prints the summary, for the whole run: the same counts as one process.

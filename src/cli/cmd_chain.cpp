@@ -27,7 +27,7 @@ struct ChainArgs {
   double teleport_rate = -1;  // -1: 0.01 with --teleport-cover, else 0
   double rev_rate = 1.0 / 15;
   int cover_limit = -1;
-  std::string start;  // default: exact with --teleport-cover, else greedy
+  std::string start;       // default: exact with --teleport-cover, else greedy
   int block_size = -1;     // -1: chosen from the cost model when the run is created
   double block_rate = -1;  // -1: chosen so block steps take about half the time
   std::string checkpoint_every = "5m";
@@ -35,7 +35,7 @@ struct ChainArgs {
   double until_rhat = 0, until_ess = 0;
   std::string sampler;       // saved cover sampler for --teleport-cover
   std::string memory_limit;  // ceiling of the teleport sampler's memory
-  bool resume = false, json = false;
+  bool resume = false, json = false, force = false;
 };
 
 std::atomic<int> g_stop_signal{0};
@@ -78,26 +78,56 @@ std::uint64_t parse_count(const std::string& text, const std::string& option) {
   return static_cast<std::uint64_t>(value);
 }
 
-const std::pair<const char*, const char*> kFixedOptions[] = {{"--chains", "chains"},
-                                                             {"--thin", "thin"},
-                                                             {"--burn-in", "burn_in"},
-                                                             {"--seed", "seed"},
-                                                             {"--teleport-cover", "teleport_cover"},
-                                                             {"--teleport-rate", "teleport_rate"},
-                                                             {"--rev-rate", "rev_rate"},
-                                                             {"--cover-limit", "cover_limit"},
-                                                             {"--start", "start"},
-                                                             {"--block-size", "block_size"},
-                                                             {"--block-rate", "block_rate"}};
+nlohmann::json convergence_json(const ConvergenceStatus& c) {
+  return {{"converged", c.converged},
+          {"max_rhat", json_number(c.max_rhat)},
+          {"min_ess", json_number(c.min_ess)},
+          {"features", c.features},
+          {"failing", c.failing},
+          {"undefined", c.undefined}};
+}
+
+// The summary for --json (docs/cli.md lists the fields).
+nlohmann::json summary_json(const ChainRunSummary& s) {
+  nlohmann::json acceptance = nlohmann::json::object(), proposals = nlohmann::json::object(),
+                 accepted = nlohmann::json::object();
+  for (int m = 0; m < kNumMoves; ++m) {
+    proposals[move_name(m)] = s.counts.proposed[m];
+    accepted[move_name(m)] = s.counts.accepted[m];
+    acceptance[move_name(m)] =
+        s.counts.proposed[m]
+            ? json_number(double(s.counts.accepted[m]) / double(s.counts.proposed[m]))
+            : nlohmann::json(nullptr);
+  }
+  nlohmann::json out = {{"output", s.path},
+                        {"chains", s.chains},
+                        {"steps", s.steps},
+                        {"session_steps", s.session_steps},
+                        {"draws", s.draws},
+                        {"checkpoints", s.checkpoints},
+                        {"seconds", s.seconds},
+                        {"checkpoint_seconds", s.checkpoint_seconds},
+                        {"proposals_per_second", s.proposals_per_second()},
+                        {"acceptance", acceptance},
+                        {"proposals", proposals},
+                        {"accepted", accepted},
+                        {"teleport_acceptance", acceptance[move_name(int(Move::kTeleport))]},
+                        {"regenerations", s.total_regenerations()},
+                        {"regenerations_per_chain", s.regenerations},
+                        {"stop_reason", s.stop_reason}};
+  if (s.convergence_checked) out["convergence"] = convergence_json(s.convergence);
+  if (!std::isnan(s.teleport_mass_bound_log10))
+    out["teleport_mass_bound_log10"] = s.teleport_mass_bound_log10;
+  if (!s.teleport_note.empty()) out["teleport_note"] = s.teleport_note;
+  return out;
+}
 
 void print_text(const ChainRunSummary& s) {
-  const nlohmann::json j = s.to_json();
   char line[256];
   std::snprintf(line, sizeof line,
                 "%s: %d chains, %llu steps each (%llu this session, %.1f s, %.3g proposals/s)\n",
                 s.path.c_str(), s.chains, (unsigned long long)s.steps,
-                (unsigned long long)s.session_steps, s.seconds,
-                j["proposals_per_second"].get<double>());
+                (unsigned long long)s.session_steps, s.seconds, s.proposals_per_second());
   std::cout << line;
   std::cout << "draws per chain: " << s.draws << ", checkpoints: " << s.checkpoints
             << ", stopped by: " << s.stop_reason << "\n";
@@ -110,8 +140,8 @@ void print_text(const ChainRunSummary& s) {
     std::cout << line;
   }
   std::cout << "\n";
-  if (s.counts.proposed[int(Move::kTeleport)] || j["regenerations"].get<std::uint64_t>())
-    std::cout << "regenerations: " << j["regenerations"].get<std::uint64_t>() << "\n";
+  if (s.counts.proposed[int(Move::kTeleport)] || s.total_regenerations())
+    std::cout << "regenerations: " << s.total_regenerations() << "\n";
   if (s.convergence_checked) {
     const auto& c = s.convergence;
     std::snprintf(line, sizeof line,
@@ -129,10 +159,10 @@ ChainRunOptions fixed_options_of(const ChainArgs& a) {
   o.burn_in = parse_count(a.burn_in, "--burn-in");
   o.seed = a.seed;
   o.teleport_cover = a.teleport_cover;
-  o.teleport_rate = a.teleport_rate >= 0 ? a.teleport_rate : (a.teleport_cover >= 0 ? 0.01 : 0.0);
+  o.teleport_rate = a.teleport_rate;
   o.rev_rate = a.rev_rate;
   o.cover_limit = a.cover_limit;
-  o.start = !a.start.empty() ? a.start : (a.teleport_cover >= 0 ? "exact" : "greedy");
+  o.start = a.start;
   o.block_size = a.block_size;
   o.block_rate = a.block_rate;
   return o;
@@ -140,26 +170,22 @@ ChainRunOptions fixed_options_of(const ChainArgs& a) {
 
 void run_chain_command(CLI::App* cmd, const ChainArgs& a) {
   ChainRunOptions o = fixed_options_of(a);
-  if (a.resume) {
-    // The run keeps the options it was created with; repeating them is fine, changing is not.
-    const ChainRunOptions given = o;
-    // (An MPI run keeps them in every member; the first one stands for the run.)
-    const std::string first = run_member_files(a.output).front();
-    o.fixed_from_json(ChainRun::open(first).options(), first);
-    const nlohmann::json stored_json = o.fixed_to_json(), given_json = given.fixed_to_json();
-    for (const auto& [flag, key] : kFixedOptions)
-      if (cmd->count(flag) && stored_json[key] != given_json[key])
-        throw InputError(std::string(flag) +
-                         " cannot be changed on --resume (the run was created "
-                         "with " +
-                         stored_json[key].dump() + ")");
-  }
   if (!a.steps.empty()) o.steps = parse_count(a.steps, "--steps");
   if (!a.max_time.empty()) o.max_seconds = parse_duration(a.max_time, "--max-time");
   o.checkpoint_every =
       a.checkpoint_every == "0" ? 0.0 : parse_duration(a.checkpoint_every, "--checkpoint-every");
   o.until_rhat = a.until_rhat;
   o.until_ess = a.until_ess;
+  o.overwrite = a.force;
+  if (a.resume) {
+    // The run keeps the options it was created with; repeating them is fine, changing is not.
+    std::vector<std::string> given_fields;
+    for (const char* field : fixed_option_fields())
+      if (cmd->count(option_flag(field))) given_fields.emplace_back(field);
+    o = resume_options(a.output, o, given_fields);
+  } else {
+    o = with_default_choices(o);
+  }
   const auto thread_limit = apply_threads(a.threads);
   const std::uint64_t limit = memory_limit(a.memory_limit);
   const ScoreTable table = load_scores(a.scores);
@@ -180,7 +206,7 @@ void run_chain_command(CLI::App* cmd, const ChainArgs& a) {
               << summary.steps << "; checkpoint written to " << a.output
               << " (continue with --resume)\n";
   if (a.json)
-    print_json(summary.to_json());
+    print_json(summary_json(summary));
   else
     print_text(summary);
 }
@@ -230,6 +256,7 @@ void setup_chain(CLI::App& app) {
   cmd->add_option("--checkpoint-every", a->checkpoint_every,
                   "time between checkpoints, e.g. 90s, 10m (default 5m)");
   cmd->add_flag("--resume", a->resume, "continue the run in -o FILE from its last checkpoint");
+  add_force_option(*cmd, a->force);
   cmd->add_option("--until-rhat", a->until_rhat,
                   "stop when every edge feature has R-hat below R (default 1.01 with --until-ess)");
   cmd->add_option("--until-ess", a->until_ess,
@@ -245,7 +272,7 @@ void setup_chain(CLI::App& app) {
       run_chain_command(cmd, *a);
     } catch (const std::exception& e) {
       // One rank's error must end the job: the others would wait in a collective forever.
-      std::cerr << "covey: error: " << e.what() << " (MPI rank " << mpi::rank() << " of "
+      std::cerr << "covey: error: " << error_message(e) << " (MPI rank " << mpi::rank() << " of "
                 << mpi::size() << ")\n";
       std::cerr.flush();
       mpi::abort(dynamic_cast<const ResourceError*>(&e) ? 3 : 1);

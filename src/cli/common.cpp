@@ -52,6 +52,10 @@ void add_threads_option(CLI::App& cmd, int& threads) {
       ->check(kNonNegative);
 }
 
+void add_force_option(CLI::App& cmd, bool& force) {
+  cmd.add_flag("--force", force, "replace output files that exist (default: refuse)");
+}
+
 void add_memory_limit_option(CLI::App& cmd, std::string& text) {
   cmd.add_option("--memory-limit", text,
                  "Refuse to start above this estimated memory (e.g. 512M, 4G; default "
@@ -74,6 +78,8 @@ std::string option_flag(const std::string& field) {
       {"ess", "--equivalent-sample-size"},
       {"k", "--cover"},
       {"max_rhat", "--rhat"},
+      {"max_seconds", "--max-time"},
+      {"overwrite", "--force"},
   };
   for (const auto& [name, flag] : kRenamed)
     if (field == name) return flag;

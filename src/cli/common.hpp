@@ -25,6 +25,9 @@ void add_threads_option(CLI::App& cmd, int& threads);
 // --memory-limit SIZE, the ceiling of every command's memory estimate; memory_limit() parses it
 // (0 when not given: default_memory_limit(), that is COVEY_MEMORY_LIMIT or 80% of RAM).
 void add_memory_limit_option(CLI::App& cmd, std::string& text);
+// --force: replace existing output files (every command that writes one has it; the library
+// refuses otherwise, see require_new_output).
+void add_force_option(CLI::App& cmd, bool& force);
 std::uint64_t memory_limit(const std::string& text);
 std::unique_ptr<tbb::global_control> apply_threads(int threads);
 

@@ -45,6 +45,17 @@ void require_output_path(const std::string& path) {
   if (std::filesystem::is_directory(path)) throw InputError(path + ": output path is a directory");
 }
 
+void require_new_output(const std::string& path, bool overwrite) {
+  require_output_path(path);
+  if (overwrite || !std::filesystem::exists(path)) return;
+  // A path holding braces would read as a field name: they are rare enough in file names to
+  // show as parentheses.
+  std::string shown = path;
+  for (char& c : shown)
+    if (c == '{' || c == '}') c = c == '{' ? '(' : ')';
+  throw OptionError(shown + ": exists; {overwrite} replaces it");
+}
+
 AtomicOutput::AtomicOutput(std::string target) : target_(std::move(target)) {
   require_output_path(target_);
   temp_ = temp_name_for(target_);

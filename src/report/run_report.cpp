@@ -15,16 +15,6 @@ namespace covey {
 
 namespace {
 
-std::string option_text(const nlohmann::json& value) {
-  if (value.is_string()) return value.get<std::string>();
-  if (value.is_number_float()) {
-    char buffer[32];
-    std::snprintf(buffer, sizeof buffer, "%.4g", value.get<double>());
-    return buffer;
-  }
-  return value.dump();
-}
-
 RunFacts run_facts(const std::vector<ChainRun>& runs, const RunDiagnostics& d) {
   RunFacts facts;
   facts.chains = d.chains;
@@ -39,7 +29,7 @@ RunFacts run_facts(const std::vector<ChainRun>& runs, const RunDiagnostics& d) {
       total += cp.counts;
       regenerations += static_cast<std::int64_t>(cp.regenerations);
     }
-    teleports = teleports || run.options().value("teleport_rate", 0.0) > 0;
+    teleports = teleports || run.options().teleport_rate > 0;
   }
   for (int m = 0; m < kNumMoves; ++m) {
     if (total.proposed[m] == 0) continue;
@@ -54,9 +44,25 @@ RunFacts run_facts(const std::vector<ChainRun>& runs, const RunDiagnostics& d) {
   facts.extra.push_back({"sampling time (all files)", buffer});
   facts.extra.push_back({"run files", std::to_string(runs.size())});
   const auto& o = runs.front().options();
-  for (const char* key : {"thin", "burn_in", "seed", "rev_rate", "teleport_rate", "teleport_cover",
-                          "cover_limit", "start"})
-    if (o.contains(key)) facts.extra.push_back({key, option_text(o[key])});
+  // The options that shaped the draws, in words; classes and moves that were off are left out.
+  auto number = [](double x) {
+    char text[32];
+    std::snprintf(text, sizeof text, "%.4g", x);
+    return std::string(text);
+  };
+  facts.extra.push_back({"thin", std::to_string(o.thin)});
+  facts.extra.push_back({"burn-in", std::to_string(o.burn_in)});
+  facts.extra.push_back({"seed", std::to_string(o.seed)});
+  facts.extra.push_back({"start", o.start});
+  facts.extra.push_back({"REV rate", number(o.rev_rate)});
+  if (o.block_size > 0 && o.block_rate > 0)
+    facts.extra.push_back(
+        {"block moves", std::to_string(o.block_size) + " nodes at rate " + number(o.block_rate)});
+  if (o.teleport_cover >= 0)
+    facts.extra.push_back({"teleports", "from D_" + std::to_string(o.teleport_cover) +
+                                            " at rate " + number(o.teleport_rate)});
+  if (o.cover_limit >= 0)
+    facts.extra.push_back({"target restricted to", "D_" + std::to_string(o.cover_limit)});
   return facts;
 }
 

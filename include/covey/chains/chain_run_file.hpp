@@ -7,13 +7,14 @@
 // A run file is always a complete checkpoint: each checkpoint writes a new file and renames it
 // over the old one, so a killed run leaves the file of its last checkpoint.
 #include <cstdint>
-#include <nlohmann/json.hpp>
 #include <span>
 #include <string>
 #include <utility>
 #include <vector>
 
+#include "covey/chains/chain_options.hpp"
 #include "covey/chains/structure_chain.hpp"
+#include "covey/core/attributes.hpp"
 #include "covey/scores/score_table.hpp"
 
 namespace covey {
@@ -50,10 +51,14 @@ class ChainRun {
   int words_per_node() const { return words_; }
   const std::vector<std::string>& variables() const { return variables_; }
   std::uint64_t table_fingerprint() const { return fingerprint_; }
-  // The run options as stored at creation (chains, thin, burn_in, seed, rates, ...).
-  const nlohmann::json& options() const { return options_; }
-  // Every root attribute (format, version, command_line, covey_version, sessions, ...).
-  const nlohmann::json& attributes() const { return attributes_; }
+  // The options fixed at creation, as stored (the session options keep their defaults).
+  const ChainRunOptions& options() const { return options_; }
+  // One record per session that wrote the file (command_line, covey_version, unix_time,
+  // start_step, and notes such as teleport_note), oldest first.
+  const std::vector<Attributes>& sessions() const { return sessions_; }
+  // For a member file of an MPI run: its rank and the number of ranks; -1 otherwise.
+  int mpi_rank() const { return mpi_rank_; }
+  int mpi_ranks() const { return mpi_ranks_; }
 
   std::uint64_t steps() const { return steps_; }          // steps per chain so far
   std::uint64_t num_draws() const { return num_draws_; }  // thinned draws per chain
@@ -83,7 +88,9 @@ class ChainRun {
   int words_ = 0;
   std::vector<std::string> variables_;
   std::uint64_t fingerprint_ = 0;
-  nlohmann::json options_, attributes_;
+  ChainRunOptions options_;
+  std::vector<Attributes> sessions_;
+  int mpi_rank_ = -1, mpi_ranks_ = -1;
   std::uint64_t steps_ = 0, num_draws_ = 0;
   std::size_t num_checkpoints_ = 0;
   double elapsed_seconds_ = 0;
@@ -95,7 +102,7 @@ struct RunManifest {
   int num_chains = 0;                    // over all members
   std::vector<std::string> members;      // member run files, resolved against the manifest's folder
   std::vector<std::vector<int>> chains;  // the global chain indices each member holds
-  nlohmann::json options;                // the run options (as in each member)
+  ChainRunOptions options;               // the fixed run options (as in each member)
 };
 
 // True when `path` is a readable HDF5 file whose format attribute names a manifest.

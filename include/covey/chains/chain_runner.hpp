@@ -14,46 +14,15 @@
 #include <cstdint>
 #include <functional>
 #include <limits>
-#include <nlohmann/json.hpp>
 #include <string>
 #include <vector>
 
+#include "covey/chains/chain_options.hpp"
 #include "covey/chains/chain_run_file.hpp"
 #include "covey/chains/structure_chain.hpp"
 #include "covey/scores/score_table.hpp"
 
 namespace covey {
-
-struct ChainRunOptions {
-  // Fixed at creation (stored in the file; a resume must not change them).
-  int chains = 4;
-  std::uint64_t thin = 1000;  // keep the state after every thin-th step
-  std::uint64_t burn_in = 0;  // keep only steps > burn_in
-  std::uint64_t seed = 1;
-  double rev_rate = 1.0 / 15;   // REV probability per step
-  double teleport_rate = 0;     // teleport probability per step
-  int teleport_cover = -1;      // k of the teleport sampler (also used by start "exact"); -1 none
-  int cover_limit = -1;         // k' of a target restricted to D_k'; -1 none
-  std::string start = "empty";  // "empty", "greedy", "exact" or a DAG file of `from<TAB>to` edges
-  // Exact block moves (docs/chains.md): m nodes per block and the probability per step; -1
-  // asks run_chains to choose from the cost model (choose_block_settings) when the run is
-  // created. The chosen values are stored, so a resume reuses them. 0: no block moves.
-  int block_size = 0;
-  double block_rate = 0;
-  // Stopping and checkpointing (may be given anew on resume).
-  std::uint64_t steps = 0;                 // total steps per chain; 0: no step limit
-  double max_seconds = 0;                  // wall time of this session; 0: no limit
-  double until_rhat = 0;                   // stop when every edge feature has R-hat < this ...
-  double until_ess = 0;                    // ... and bulk and tail ESS > this (0: rule off)
-  double checkpoint_every = 300;           // seconds between checkpoints
-  unsigned drop_hastings_for_testing = 0;  // see ChainConfig (never set by the CLI)
-
-  bool until_enabled() const { return until_rhat > 0 || until_ess > 0; }
-  // The options fixed at creation, as stored in the run file.
-  nlohmann::json fixed_to_json() const;
-  // Reads the fixed options of a run file into *this (leaving the stopping options).
-  void fixed_from_json(const nlohmann::json& stored, const std::string& path);
-};
 
 // Result of a convergence check over a run file's draws.
 struct ConvergenceStatus {
@@ -61,7 +30,6 @@ struct ConvergenceStatus {
   double max_rhat = NAN;  // over the assessed features
   double min_ess = NAN;   // smallest bulk or tail ESS
   std::size_t features = 0, failing = 0, undefined = 0;
-  nlohmann::json to_json() const;
 };
 // Judges the draws of all chains (over MPI: of every rank's chains, read by rank 0).
 using ConvergenceCheck =
@@ -97,7 +65,9 @@ struct ChainRunSummary {
   // bound is negligible (teleports will rarely or never be accepted).
   double teleport_mass_bound_log10 = std::numeric_limits<double>::quiet_NaN();
   std::string teleport_note;
-  nlohmann::json to_json() const;
+  // All chains' proposals per second of this session (0 before any time passed).
+  double proposals_per_second() const { return seconds > 0 ? double(session_proposals) / seconds : 0.0; }
+  std::uint64_t total_regenerations() const;
 };
 
 // Creates `path` (or, with resume, continues the run in it) and runs until a stopping rule

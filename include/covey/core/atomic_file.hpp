@@ -52,6 +52,10 @@ void write_text_file_atomically(const std::string& path, const std::string& text
 // not a folder): lets long commands fail before the work rather than after it.
 void require_output_path(const std::string& path);
 
+// Never replace a user's file unasked: throws OptionError naming the path when it exists and
+// `overwrite` (the field the CLI spells --force) is not set. Checks require_output_path too.
+void require_new_output(const std::string& path, bool overwrite);
+
 // Throws InputError when the file cannot be opened for reading (names the path).
 void require_readable(const std::string& path);
 
