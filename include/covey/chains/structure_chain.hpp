@@ -107,6 +107,7 @@ struct ChainConfig {
 };
 
 class BlockMove;  // chains/block_move.hpp
+class RevTables;  // chains/move_kernels.hpp
 
 class StructureChain {
  public:
@@ -160,15 +161,6 @@ class StructureChain {
     std::int8_t pos_in_to;    // position of `from` in to's candidate list
     std::int8_t pos_in_from;  // position of `to` in from's candidate list, or -1
   };
-  // A sum of f_v(S) over the allowed sets S of v with all `required` bits and no `forbidden`
-  // bit, as total * exp(shift).
-  struct MaskedSum {
-    long double total = 0;
-    double shift = 0;
-    bool exact = false;  // weights exp(s - shift) computed on the fly (tiny sums)
-    double log() const;
-  };
-
   void local_move(Rng& rng);
   void propose_add(Rng& rng, int u, int v, ParentMask bit);
   void propose_delete(Rng& rng, int u, int v, ParentMask bit);
@@ -191,10 +183,6 @@ class StructureChain {
   // Marks root and its descendants (per the ancestor sets); returns how many.
   int mark_descendants(int root, bool include_root);
 
-  MaskedSum masked_sum(int v, ParentMask required, ParentMask forbidden) const;
-  ParentMask sample_masked(int v, ParentMask required, ParentMask forbidden, const MaskedSum& sum,
-                           Rng& rng) const;
-
   std::uint64_t* anc(int v) { return &anc_[std::size_t(v) * words_]; }
   const std::uint64_t* anc(int v) const { return &anc_[std::size_t(v) * words_]; }
   static bool test(const std::uint64_t* bits, int i) { return (bits[i >> 6] >> (i & 63)) & 1U; }
@@ -208,6 +196,7 @@ class StructureChain {
   std::uint64_t teleport_threshold_ = 0;  // rng() below this (and above REV's): teleport
   std::uint64_t block_threshold_ = 0;     // rng() below this (and above teleport's): block move
   std::unique_ptr<BlockMove> block_;      // the block move's tables and scratch, when enabled
+  std::unique_ptr<RevTables> rev_;        // REV's weights and lists, when rev_rate > 0
   bool mixed_kernels_ = false;
   std::vector<Pair> pairs_;
   std::vector<std::int32_t> cand_;  // n * 64 candidate variables
@@ -218,10 +207,6 @@ class StructureChain {
   Dag dag_;  // global masks, kept in step when n <= 64 (for class tests)
   bool track_dag_ = false;
   MoveCounts counts_;
-  // REV: per node, the allowed sets' weights exp(s - max_v) (flat, offsets per node).
-  std::vector<std::size_t> set_offset_;
-  std::vector<double> set_weight_;
-  std::vector<double> set_max_;
   // Scratch, sized once.
   std::vector<std::int32_t> list_, stack_;
   std::vector<ParentMask> stack_rest_;
