@@ -73,6 +73,10 @@ StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& confi
   mixed_kernels_ = config.rev_rate > 0 || config.teleport_rate > 0 || config.block_rate > 0;
   if (config.block_rate > 0 || config.block_size > 0) block_ = make_block_move(table, config);
   if (config.rev_rate > 0) rev_ = std::make_unique<RevTables>(table);
+  if (!config.exact_local_moves_for_testing) {
+    screen_ = std::make_unique<ScreenScores>(table);
+    if (!screen_->usable()) screen_.reset();
+  }
 
   cand_.assign(std::size_t(n_) * kMaxCandidates, -1);
   for (int v = 0; v < n_; ++v) {
@@ -255,6 +259,17 @@ void StructureChain::recompute_ancestors_below(int root) {
   });
 }
 
+bool StructureChain::ancestors_of_parents_equal(int v) {
+  std::fill(bits_d_.begin(), bits_d_.end(), 0);
+  for (ParentMask m = local_[v]; m; m &= m - 1) {
+    const int p = candidate(v, std::countr_zero(m));
+    bits_d_[p >> 6] |= std::uint64_t{1} << (p & 63);
+    const std::uint64_t* ap = anc(p);
+    for (int w = 0; w < words_; ++w) bits_d_[w] |= ap[w];
+  }
+  return std::equal(bits_d_.begin(), bits_d_.end(), anc(v));
+}
+
 double StructureChain::log_score() const {
   double total = 0;
   for (int v = 0; v < n_; ++v) total += score_[v];
@@ -351,16 +366,42 @@ void StructureChain::local_move(Rng& rng) {
     propose_reverse(rng, pair, bit);  // q(reverse) = 1/(2|P|) both ways
 }
 
+// Metropolis-Hastings decision for new parent sets of one or two nodes, with log Hastings factor
+// `log_hastings`; fills in their exact scores. A set not in the table is a rejection without a
+// draw. With the screening scores, most rejections are decided on floats (move_kernels.hpp).
+template <std::size_t N>
+bool StructureChain::accept_change(Rng& rng, NodeChange (&change)[N], double log_hastings) {
+  const auto exact_ratio = [&] {
+    double log_ratio = log_hastings;
+    for (NodeChange& c : change) {
+      c.score = screen_ ? screen_->exact(c.v, c.next) : table_->log_score(c.v, c.next);
+      log_ratio += c.score - score_[c.v];
+    }
+    return log_ratio;
+  };
+  if (!screen_) {
+    for (const NodeChange& c : change)
+      if (table_->find(c.v, c.next) < 0) return false;
+    return accept(rng, exact_ratio());
+  }
+  double screened = log_hastings, margin = 0;
+  for (const NodeChange& c : change) {
+    const float next = screen_->value(c.v, c.next);
+    if (next == -INFINITY) return false;
+    screened += double(next) - double(screen_->value(c.v, local_[c.v]));
+    margin += screen_->margin(c.v);
+  }
+  return screened_accept(rng, screened, margin, exact_ratio);
+}
+
 void StructureChain::propose_add(Rng& rng, int u, int v, ParentMask bit) {
   ++counts_.proposed[int(Move::kAdd)];
   if (test(anc(u), v)) return;  // v ~> u already: the edge would close a cycle
-  const ParentMask next = local_[v] | bit;
-  const long idx = table_->find(v, next);
-  if (idx < 0) return;
-  const double s = table_->log_scores(v)[idx];
+  NodeChange change[1] = {{v, local_[v] | bit, 0}};
   // Hastings factor q(G'->G)/q(G->G') = (1/(2|P|)) / (1/|P|) = 1/2.
-  const double log_ratio = s - score_[v] - (dropped(Move::kAdd) ? 0.0 : kLn2);
-  if (!accept(rng, log_ratio)) return;
+  if (!accept_change(rng, change, dropped(Move::kAdd) ? 0.0 : -kLn2)) return;
+  const ParentMask next = change[0].next;
+  const double s = change[0].score;
   if (track_dag_) {  // always on under a restriction (checked in the constructor)
     dag_.add_edge(u, v);
     if (!in_restriction(dag_)) {
@@ -384,13 +425,11 @@ void StructureChain::propose_add(Rng& rng, int u, int v, ParentMask bit) {
 
 void StructureChain::propose_delete(Rng& rng, int u, int v, ParentMask bit) {
   ++counts_.proposed[int(Move::kDelete)];
-  const ParentMask next = local_[v] & ~bit;
-  const long idx = table_->find(v, next);
-  if (idx < 0) return;
-  const double s = table_->log_scores(v)[idx];
+  NodeChange change[1] = {{v, local_[v] & ~bit, 0}};
   // Hastings factor (1/|P|) / (1/(2|P|)) = 2.
-  const double log_ratio = s - score_[v] + (dropped(Move::kDelete) ? 0.0 : kLn2);
-  if (!accept(rng, log_ratio)) return;
+  if (!accept_change(rng, change, dropped(Move::kDelete) ? 0.0 : kLn2)) return;
+  const ParentMask next = change[0].next;
+  const double s = change[0].score;
   if (track_dag_) {
     dag_.remove_edge(u, v);
     if (!in_restriction(dag_)) {
@@ -402,7 +441,8 @@ void StructureChain::propose_delete(Rng& rng, int u, int v, ParentMask bit) {
   local_[v] = next;
   score_[v] = s;
   --num_edges_;
-  recompute_ancestors_below(v);
+  // Often u stays an ancestor of v through another parent: then no ancestor set changes.
+  if (!ancestors_of_parents_equal(v)) recompute_ancestors_below(v);
 }
 
 void StructureChain::propose_reverse(Rng& rng, const Pair& pair, ParentMask bit) {
@@ -413,16 +453,12 @@ void StructureChain::propose_reverse(Rng& rng, const Pair& pair, ParentMask bit)
   // another parent of v.
   for (ParentMask m = local_[v] & ~bit; m; m &= m - 1)
     if (test(anc(candidate(v, std::countr_zero(m))), u)) return;
-  const ParentMask next_v = local_[v] & ~bit;
-  const ParentMask next_u = local_[u] | (ParentMask{1} << pair.pos_in_from);
-  const long idx_v = table_->find(v, next_v);
-  if (idx_v < 0) return;
-  const long idx_u = table_->find(u, next_u);
-  if (idx_u < 0) return;
-  const double s_v = table_->log_scores(v)[idx_v], s_u = table_->log_scores(u)[idx_u];
+  NodeChange change[2] = {{v, local_[v] & ~bit, 0},
+                          {u, local_[u] | (ParentMask{1} << pair.pos_in_from), 0}};
   // Symmetric proposal: the reverse move picks (v, u) and tails with the same probability.
-  const double log_ratio = (s_v - score_[v]) + (s_u - score_[u]);
-  if (!accept(rng, log_ratio)) return;
+  if (!accept_change(rng, change, 0.0)) return;
+  const ParentMask next_v = change[0].next, next_u = change[1].next;
+  const double s_v = change[0].score, s_u = change[1].score;
   if (track_dag_) {
     dag_.remove_edge(u, v);
     dag_.add_edge(v, u);

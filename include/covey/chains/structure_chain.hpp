@@ -104,10 +104,14 @@ struct ChainConfig {
   // dropping its Hastings factor (for teleports also the 1[G in D_k] factor). The chain then
   // targets the wrong distribution; the tests use it to show that their checks can fail.
   unsigned drop_hastings_for_testing = 0;
+  // Test-only switch: local moves decided on the exact scores alone, without the float screen
+  // (which gives the same trajectory; the tests compare the two).
+  bool exact_local_moves_for_testing = false;
 };
 
-class BlockMove;  // chains/block_move.hpp
-class RevTables;  // chains/move_kernels.hpp
+class BlockMove;     // chains/block_move.hpp
+class RevTables;     // chains/move_kernels.hpp
+class ScreenScores;  // chains/move_kernels.hpp
 
 class StructureChain {
  public:
@@ -161,6 +165,13 @@ class StructureChain {
     std::int8_t pos_in_to;    // position of `from` in to's candidate list
     std::int8_t pos_in_from;  // position of `to` in from's candidate list, or -1
   };
+  struct NodeChange {
+    int v;
+    ParentMask next;
+    double score;  // s_v(next), set when accepted
+  };
+  template <std::size_t N>
+  bool accept_change(Rng& rng, NodeChange (&change)[N], double log_hastings);
   void local_move(Rng& rng);
   void propose_add(Rng& rng, int u, int v, ParentMask bit);
   void propose_delete(Rng& rng, int u, int v, ParentMask bit);
@@ -177,6 +188,8 @@ class StructureChain {
   void rebuild_ancestors();
   // Ancestor sets of `root` and all its (current) descendants, recomputed from the parent masks.
   void recompute_ancestors_below(int root);
+  // Whether the union of v's parents and their ancestor sets equals v's ancestor set.
+  bool ancestors_of_parents_equal(int v);
   // Post-order over the marked nodes (mark_ == 1): visit(x) after all of x's marked parents.
   template <class Visit>
   void visit_marked_parents_first(int count, Visit&& visit);
@@ -196,7 +209,8 @@ class StructureChain {
   std::uint64_t teleport_threshold_ = 0;  // rng() below this (and above REV's): teleport
   std::uint64_t block_threshold_ = 0;     // rng() below this (and above teleport's): block move
   std::unique_ptr<BlockMove> block_;      // the block move's tables and scratch, when enabled
-  std::unique_ptr<RevTables> rev_;        // REV's weights and lists, when rev_rate > 0
+  std::unique_ptr<RevTables> rev_;        // REV's weights, when rev_rate > 0
+  std::unique_ptr<ScreenScores> screen_;  // float scores screening local moves, when usable
   bool mixed_kernels_ = false;
   std::vector<Pair> pairs_;
   std::vector<std::int32_t> cand_;  // n * 64 candidate variables
