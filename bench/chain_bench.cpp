@@ -49,6 +49,7 @@ void run_chain(benchmark::State& state, int n, int num_candidates, double rev_ra
   }
   state.counters["acceptance"] = double(accepted) / double(std::max<std::uint64_t>(proposed, 1));
   state.counters["edges"] = double(chain.num_edges());
+  state.counters["screened"] = chain.screens_local_moves() ? 1 : 0;
 }
 
 // Issue 15 targets: local moves alone >= 25e6 / s at n = 30 and >= 8e6 / s at n = 200 with 20

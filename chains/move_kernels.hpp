@@ -105,7 +105,7 @@ class ScreenScores {
   double margin(int v) const { return margin_[v]; }
 
  private:
-  static constexpr std::size_t kMaxBlowup = 8;
+  static constexpr std::size_t kMaxBlowup = 2;  // 12 bytes a slot: at most the table's bytes
   static constexpr std::size_t kNone = ~std::size_t{0};
   // Position of S in the dense arrays (combinatorial rank among v's subsets of its size), or
   // kNone when S is larger than any set of the table.

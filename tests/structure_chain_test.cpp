@@ -178,6 +178,8 @@ TEST(StructureChain, ScreenedLocalMovesFollowTheExactChain) {
     ChainConfig exact = config;
     exact.exact_local_moves_for_testing = true;
     StructureChain screened_chain(table, config), exact_chain(table, exact);
+    ASSERT_TRUE(screened_chain.screens_local_moves());
+    ASSERT_FALSE(exact_chain.screens_local_moves());
     Rng rng_a = make_stream(3, 0), rng_b = make_stream(3, 0);
     for (int s = 0; s < 300000; ++s) {
       screened_chain.step(rng_a);

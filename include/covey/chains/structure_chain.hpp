@@ -153,6 +153,9 @@ class StructureChain {
   bool has_edge(int from, int to) const;
   std::uint64_t num_edges() const { return num_edges_; }
 
+  // Whether local moves are screened on float scores (docs/chains.md, "Screening local moves").
+  bool screens_local_moves() const { return screen_ != nullptr; }
+
   const MoveCounts& counts() const { return counts_; }
   void set_counts(const MoveCounts& counts) { counts_ = counts; }
 
