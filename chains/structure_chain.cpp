@@ -374,14 +374,17 @@ bool StructureChain::accept_change(Rng& rng, NodeChange (&change)[N], double log
   const auto exact_ratio = [&] {
     double log_ratio = log_hastings;
     for (NodeChange& c : change) {
-      c.score = screen_ ? screen_->exact(c.v, c.next) : table_->log_score(c.v, c.next);
+      if (screen_) c.score = screen_->exact(c.v, c.next);
       log_ratio += c.score - score_[c.v];
     }
     return log_ratio;
   };
   if (!screen_) {
-    for (const NodeChange& c : change)
-      if (table_->find(c.v, c.next) < 0) return false;
+    for (NodeChange& c : change) {
+      const long idx = table_->find(c.v, c.next);
+      if (idx < 0) return false;
+      c.score = table_->log_scores(c.v)[idx];
+    }
     return accept(rng, exact_ratio());
   }
   double screened = log_hastings, margin = 0;
