@@ -12,7 +12,7 @@
 //    outside the class are rejections.
 //  * REV (rev_rate): the edge reversal with parent resampling of Grzegorczyk & Husmeier (2008),
 //    with their acceptance ratio N(G)/N(G') * Z*(i|G0,j) Z(j|G+) / (Z*(j|G0,i) Z(i|G'+)); see
-//    rev_move() in chains/structure_chain.cpp for the derivation used here.
+//    rev_move() in chains/rev_move.cpp for the derivation used here.
 //  * teleport (teleport_rate): an independence proposal from an exact sampler of w restricted
 //    to a class D_k (the cover-bounded sampler). With proposal weights equal to w, the
 //    Metropolis-Hastings ratio w(G') w(G) 1[G in D_k] / (w(G) w(G')) is 1[G in D_k]: the teleport
