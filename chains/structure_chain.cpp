@@ -7,22 +7,12 @@
 
 #include "block_move.hpp"
 #include "covey/core/error.hpp"
+#include "move_kernels.hpp"
 
 namespace covey {
 namespace {
 
 constexpr double kLn2 = std::numbers::ln2;
-// Below this, a masked sum of precomputed weights exp(s - max_v) may have lost terms to
-// underflow; it is then recomputed with its own maximum as the scale (exact to double precision
-// either way: terms that underflow are below 1e-308, far under 1e-250 relative).
-constexpr long double kTinySum = 1e-250L;
-
-// Metropolis-Hastings acceptance with probability min(1, exp(log_ratio)). Certain acceptances
-// draw no random number.
-bool accept(Rng& rng, double log_ratio) {
-  if (log_ratio >= 0) return true;
-  return uniform01(rng) < std::exp(log_ratio);
-}
 
 std::uint64_t probability_threshold(double p) {
   if (p <= 0) return 0;
@@ -64,10 +54,6 @@ MoveCounts& MoveCounts::operator+=(const MoveCounts& other) {
   return *this;
 }
 
-double StructureChain::MaskedSum::log() const {
-  return total > 0 ? shift + static_cast<double>(std::log(total)) : -INFINITY;
-}
-
 StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& config)
     : table_(&table), config_(config), n_(table.num_variables()), words_((n_ + 63) / 64) {
   if (config.rev_rate < 0 || config.teleport_rate < 0 || config.block_rate < 0 ||
@@ -86,10 +72,13 @@ StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& confi
       probability_threshold(config.rev_rate + config.teleport_rate + config.block_rate);
   mixed_kernels_ = config.rev_rate > 0 || config.teleport_rate > 0 || config.block_rate > 0;
   if (config.block_rate > 0 || config.block_size > 0) block_ = make_block_move(table, config);
+  if (config.rev_rate > 0) rev_ = std::make_unique<RevTables>(table);
+  if (!config.exact_local_moves_for_testing) {
+    screen_ = std::make_unique<ScreenScores>(table);
+    if (!screen_->usable()) screen_.reset();
+  }
 
   cand_.assign(std::size_t(n_) * kMaxCandidates, -1);
-  set_offset_.assign(std::size_t(n_) + 1, 0);
-  set_max_.assign(n_, 0);
   for (int v = 0; v < n_; ++v) {
     const auto cands = table.candidates(v);
     for (std::size_t b = 0; b < cands.size(); ++b) {
@@ -98,10 +87,6 @@ StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& confi
       pairs_.push_back({u, v, static_cast<std::int8_t>(b),
                         static_cast<std::int8_t>(table.candidate_position(u, v))});
     }
-    set_offset_[v + 1] = set_offset_[v] + table.num_parent_sets(v);
-    const auto scores = table.log_scores(v);
-    set_max_[v] = *std::max_element(scores.begin(), scores.end());
-    for (double s : scores) set_weight_.push_back(std::exp(s - set_max_[v]));
   }
   local_.assign(n_, 0);
   score_.assign(n_, 0);
@@ -247,41 +232,6 @@ void StructureChain::rebuild_ancestors() {
   });
 }
 
-template <class Visit>
-void StructureChain::visit_marked_parents_first(int count, Visit&& visit) {
-  // Iterative depth-first search over parents: a node is visited once all of its marked parents
-  // are (marks: 1 pending, 2 on the stack, 0 done or not in the set).
-  for (int i = 0; i < count; ++i) {
-    const int root = list_[i];
-    if (mark_[root] != 1) continue;
-    int top = 0;
-    stack_[0] = root;
-    stack_rest_[0] = local_[root];
-    mark_[root] = 2;
-    while (top >= 0) {
-      const int x = stack_[top];
-      ParentMask& rest = stack_rest_[top];
-      bool pushed = false;
-      while (rest) {
-        const int p = candidate(x, std::countr_zero(rest));
-        rest &= rest - 1;
-        if (mark_[p] == 1) {
-          mark_[p] = 2;
-          ++top;
-          stack_[top] = p;
-          stack_rest_[top] = local_[p];
-          pushed = true;
-          break;
-        }
-      }
-      if (pushed) continue;
-      visit(x);
-      mark_[x] = 0;
-      --top;
-    }
-  }
-}
-
 int StructureChain::mark_descendants(int root, bool include_root) {
   int count = 0;
   for (int w = 0; w < n_; ++w) {
@@ -307,6 +257,17 @@ void StructureChain::recompute_ancestors_below(int root) {
       for (int w = 0; w < words_; ++w) a[w] |= ap[w];
     }
   });
+}
+
+bool StructureChain::ancestors_of_parents_equal(int v) {
+  std::fill(bits_d_.begin(), bits_d_.end(), 0);
+  for (ParentMask m = local_[v]; m; m &= m - 1) {
+    const int p = candidate(v, std::countr_zero(m));
+    bits_d_[p >> 6] |= std::uint64_t{1} << (p & 63);
+    const std::uint64_t* ap = anc(p);
+    for (int w = 0; w < words_; ++w) bits_d_[w] |= ap[w];
+  }
+  return std::equal(bits_d_.begin(), bits_d_.end(), anc(v));
 }
 
 double StructureChain::log_score() const {
@@ -405,16 +366,45 @@ void StructureChain::local_move(Rng& rng) {
     propose_reverse(rng, pair, bit);  // q(reverse) = 1/(2|P|) both ways
 }
 
+// Metropolis-Hastings decision for new parent sets of one or two nodes, with log Hastings factor
+// `log_hastings`; fills in their exact scores. A set not in the table is a rejection without a
+// draw. With the screening scores, most rejections are decided on floats (move_kernels.hpp).
+template <std::size_t N>
+bool StructureChain::accept_change(Rng& rng, NodeChange (&change)[N], double log_hastings) {
+  const auto exact_ratio = [&] {
+    double log_ratio = log_hastings;
+    for (NodeChange& c : change) {
+      if (screen_) c.score = screen_->exact(c.v, c.next);
+      log_ratio += c.score - score_[c.v];
+    }
+    return log_ratio;
+  };
+  if (!screen_) {
+    for (NodeChange& c : change) {
+      const long idx = table_->find(c.v, c.next);
+      if (idx < 0) return false;
+      c.score = table_->log_scores(c.v)[idx];
+    }
+    return accept(rng, exact_ratio());
+  }
+  double screened = log_hastings, margin = 0;
+  for (const NodeChange& c : change) {
+    const float next = screen_->value(c.v, c.next);
+    if (next == -INFINITY) return false;
+    screened += double(next) - double(screen_->value(c.v, local_[c.v]));
+    margin += screen_->margin(c.v);
+  }
+  return screened_accept(rng, screened, margin, exact_ratio);
+}
+
 void StructureChain::propose_add(Rng& rng, int u, int v, ParentMask bit) {
   ++counts_.proposed[int(Move::kAdd)];
   if (test(anc(u), v)) return;  // v ~> u already: the edge would close a cycle
-  const ParentMask next = local_[v] | bit;
-  const long idx = table_->find(v, next);
-  if (idx < 0) return;
-  const double s = table_->log_scores(v)[idx];
+  NodeChange change[1] = {{v, local_[v] | bit, 0}};
   // Hastings factor q(G'->G)/q(G->G') = (1/(2|P|)) / (1/|P|) = 1/2.
-  const double log_ratio = s - score_[v] - (dropped(Move::kAdd) ? 0.0 : kLn2);
-  if (!accept(rng, log_ratio)) return;
+  if (!accept_change(rng, change, dropped(Move::kAdd) ? 0.0 : -kLn2)) return;
+  const ParentMask next = change[0].next;
+  const double s = change[0].score;
   if (track_dag_) {  // always on under a restriction (checked in the constructor)
     dag_.add_edge(u, v);
     if (!in_restriction(dag_)) {
@@ -438,13 +428,11 @@ void StructureChain::propose_add(Rng& rng, int u, int v, ParentMask bit) {
 
 void StructureChain::propose_delete(Rng& rng, int u, int v, ParentMask bit) {
   ++counts_.proposed[int(Move::kDelete)];
-  const ParentMask next = local_[v] & ~bit;
-  const long idx = table_->find(v, next);
-  if (idx < 0) return;
-  const double s = table_->log_scores(v)[idx];
+  NodeChange change[1] = {{v, local_[v] & ~bit, 0}};
   // Hastings factor (1/|P|) / (1/(2|P|)) = 2.
-  const double log_ratio = s - score_[v] + (dropped(Move::kDelete) ? 0.0 : kLn2);
-  if (!accept(rng, log_ratio)) return;
+  if (!accept_change(rng, change, dropped(Move::kDelete) ? 0.0 : kLn2)) return;
+  const ParentMask next = change[0].next;
+  const double s = change[0].score;
   if (track_dag_) {
     dag_.remove_edge(u, v);
     if (!in_restriction(dag_)) {
@@ -456,7 +444,8 @@ void StructureChain::propose_delete(Rng& rng, int u, int v, ParentMask bit) {
   local_[v] = next;
   score_[v] = s;
   --num_edges_;
-  recompute_ancestors_below(v);
+  // Often u stays an ancestor of v through another parent: then no ancestor set changes.
+  if (!ancestors_of_parents_equal(v)) recompute_ancestors_below(v);
 }
 
 void StructureChain::propose_reverse(Rng& rng, const Pair& pair, ParentMask bit) {
@@ -467,16 +456,12 @@ void StructureChain::propose_reverse(Rng& rng, const Pair& pair, ParentMask bit)
   // another parent of v.
   for (ParentMask m = local_[v] & ~bit; m; m &= m - 1)
     if (test(anc(candidate(v, std::countr_zero(m))), u)) return;
-  const ParentMask next_v = local_[v] & ~bit;
-  const ParentMask next_u = local_[u] | (ParentMask{1} << pair.pos_in_from);
-  const long idx_v = table_->find(v, next_v);
-  if (idx_v < 0) return;
-  const long idx_u = table_->find(u, next_u);
-  if (idx_u < 0) return;
-  const double s_v = table_->log_scores(v)[idx_v], s_u = table_->log_scores(u)[idx_u];
+  NodeChange change[2] = {{v, local_[v] & ~bit, 0},
+                          {u, local_[u] | (ParentMask{1} << pair.pos_in_from), 0}};
   // Symmetric proposal: the reverse move picks (v, u) and tails with the same probability.
-  const double log_ratio = (s_v - score_[v]) + (s_u - score_[u]);
-  if (!accept(rng, log_ratio)) return;
+  if (!accept_change(rng, change, 0.0)) return;
+  const ParentMask next_v = change[0].next, next_u = change[1].next;
+  const double s_v = change[0].score, s_u = change[1].score;
   if (track_dag_) {
     dag_.remove_edge(u, v);
     dag_.add_edge(v, u);
@@ -494,160 +479,6 @@ void StructureChain::propose_reverse(Rng& rng, const Pair& pair, ParentMask bit)
   // Every node whose ancestors change (v, u and their descendants) is u or below u before the
   // move: v was a descendant of u.
   recompute_ancestors_below(u);
-}
-
-StructureChain::MaskedSum StructureChain::masked_sum(int v, ParentMask required,
-                                                     ParentMask forbidden) const {
-  const auto masks = table_->parent_sets(v);
-  const double* weight = &set_weight_[set_offset_[v]];
-  MaskedSum sum;
-  sum.shift = set_max_[v];
-  for (std::size_t k = 0; k < masks.size(); ++k)
-    if ((masks[k] & required) == required && !(masks[k] & forbidden)) sum.total += weight[k];
-  if (sum.total >= kTinySum) return sum;
-  // Tiny or zero: rescale by the largest allowed term so nothing underflows.
-  const auto scores = table_->log_scores(v);
-  double top = -INFINITY;
-  for (std::size_t k = 0; k < masks.size(); ++k)
-    if ((masks[k] & required) == required && !(masks[k] & forbidden))
-      top = std::max(top, scores[k]);
-  sum = MaskedSum{};
-  sum.exact = true;
-  if (top == -INFINITY) return sum;  // no allowed set
-  sum.shift = top;
-  for (std::size_t k = 0; k < masks.size(); ++k)
-    if ((masks[k] & required) == required && !(masks[k] & forbidden))
-      sum.total += std::exp(static_cast<long double>(scores[k] - top));
-  return sum;
-}
-
-ParentMask StructureChain::sample_masked(int v, ParentMask required, ParentMask forbidden,
-                                         const MaskedSum& sum, Rng& rng) const {
-  const auto masks = table_->parent_sets(v);
-  const auto scores = table_->log_scores(v);
-  const double* weight = &set_weight_[set_offset_[v]];
-  const long double target = static_cast<long double>(uniform01(rng)) * sum.total;
-  long double acc = 0;
-  ParentMask last = 0;
-  for (std::size_t k = 0; k < masks.size(); ++k) {
-    if ((masks[k] & required) != required || (masks[k] & forbidden)) continue;
-    acc += sum.exact ? std::exp(static_cast<long double>(scores[k] - sum.shift)) : weight[k];
-    last = masks[k];
-    if (acc > target) return masks[k];
-  }
-  return last;  // rounding at the very end of the cumulative sum
-}
-
-// REV (Grzegorczyk & Husmeier 2008). For the edge i -> j drawn uniformly among the N(G) edges:
-// G0 = G with all parents of i and j removed; draw i's new parents from
-//   f_i(S) / Z1 over S that contain j and no descendant of i in G0,
-// giving G+; then j's new parents from f_j(S) / Z2 over S with no descendant of j in G+. The
-// reverse move (edge j -> i of G') passes through the same G0. With p(G) proportional to w(G),
-// the f terms cancel and the acceptance ratio is
-//   N(G)/N(G') * Z1 * Z2 / (Z1' * Z2'),
-// with Z1' = sum of f_j(S) over S containing i and no descendant of j in G0, and Z2' = sum of
-// f_i(S) over S with no descendant of i in G'+. The descendant sets come from G's ancestor sets:
-//  - desc_G0(j) = desc_G(j) (i is not below j, and j's in-edges do not start paths from j);
-//  - desc_G0(i) = the nodes reachable from i by paths avoiding j (j lost its in-edges);
-//  - desc_G+(j) = desc_G0(j) + {i} + desc_G0(i) = desc_G(i) + {i} minus {j}, whatever the new
-//    parents of i are; and likewise desc_G'+(i) = desc_G(i) (the same set for the reverse move).
-// So all four sums are known before drawing, and G' is acyclic by construction.
-void StructureChain::rev_move(Rng& rng) {
-  ++counts_.proposed[int(Move::kRev)];
-  if (num_edges_ == 0) return;
-  // The k-th edge in the canonical order (child index, then candidate position): the choice
-  // depends on the state only, so a restored chain continues identically.
-  std::uint64_t k = uniform_below(rng, num_edges_);
-  int j = 0;
-  while (k >= std::uint64_t(std::popcount(local_[j]))) k -= std::popcount(local_[j++]);
-  ParentMask m = local_[j];
-  for (; k; --k) m &= m - 1;
-  const int bit_i_in_j = std::countr_zero(m);
-  const int i = candidate(j, bit_i_in_j);
-  const int pos_j_in_i = table_->candidate_position(i, j);
-  if (pos_j_in_i < 0) return;  // j may never be a parent of i: Z1 = 0
-
-  // desc_G(i) -> bits_a_, desc_G(j) -> bits_b_, desc_G0(i) -> bits_c_.
-  std::fill(bits_a_.begin(), bits_a_.end(), 0);
-  std::fill(bits_b_.begin(), bits_b_.end(), 0);
-  std::fill(bits_c_.begin(), bits_c_.end(), 0);
-  int count = 0;
-  for (int w = 0; w < n_; ++w) {
-    const std::uint64_t* aw = anc(w);
-    if (test(aw, i)) {
-      bits_a_[w >> 6] |= std::uint64_t{1} << (w & 63);
-      mark_[w] = 1;
-      list_[count++] = w;
-    }
-    if (test(aw, j)) bits_b_[w >> 6] |= std::uint64_t{1} << (w & 63);
-  }
-  visit_marked_parents_first(count, [&](int x) {
-    if (x == j) return;
-    for (ParentMask pm = local_[x]; pm; pm &= pm - 1) {
-      const int p = candidate(x, std::countr_zero(pm));
-      if (p == i || test(bits_c_.data(), p)) {
-        bits_c_[x >> 6] |= std::uint64_t{1} << (x & 63);
-        return;
-      }
-    }
-  });
-
-  // Constraint masks over the candidate lists of i and j.
-  ParentMask forbid_i_g0 = 0, forbid_i_all = 0, forbid_j_g0 = 0, forbid_j_plus = 0;
-  const int ci = static_cast<int>(table_->candidates(i).size());
-  for (int b = 0; b < ci; ++b) {
-    const int c = candidate(i, b);
-    if (test(bits_c_.data(), c)) forbid_i_g0 |= ParentMask{1} << b;
-    if (test(bits_a_.data(), c)) forbid_i_all |= ParentMask{1} << b;
-  }
-  const int cj = static_cast<int>(table_->candidates(j).size());
-  for (int b = 0; b < cj; ++b) {
-    const int c = candidate(j, b);
-    if (test(bits_b_.data(), c)) forbid_j_g0 |= ParentMask{1} << b;
-    if (c == i || test(bits_a_.data(), c)) forbid_j_plus |= ParentMask{1} << b;
-  }
-  const ParentMask need_j = ParentMask{1} << pos_j_in_i;  // in i's list
-  const ParentMask need_i = ParentMask{1} << bit_i_in_j;  // in j's list
-
-  const MaskedSum z1 = masked_sum(i, need_j, forbid_i_g0);
-  if (z1.total <= 0) return;
-  const MaskedSum z2 = masked_sum(j, 0, forbid_j_plus);
-  if (z2.total <= 0) return;
-  const MaskedSum z1r = masked_sum(j, need_i, forbid_j_g0);  // contains the current set of j
-  const MaskedSum z2r = masked_sum(i, 0, forbid_i_all);      // contains the current set of i
-  const ParentMask new_i = sample_masked(i, need_j, forbid_i_g0, z1, rng);
-  const ParentMask new_j = sample_masked(j, 0, forbid_j_plus, z2, rng);
-
-  const double s_i = table_->log_score(i, new_i), s_j = table_->log_score(j, new_j);
-  const std::uint64_t edges_after = num_edges_ - std::popcount(local_[i]) -
-                                    std::popcount(local_[j]) + std::popcount(new_i) +
-                                    std::popcount(new_j);
-  double log_ratio;
-  if (dropped(Move::kRev)) {
-    log_ratio = (s_i - score_[i]) + (s_j - score_[j]);
-  } else {
-    log_ratio = std::log(double(num_edges_)) - std::log(double(edges_after)) + z1.log() + z2.log() -
-                z1r.log() - z2r.log();
-  }
-  if (!accept(rng, log_ratio)) return;
-  if (track_dag_) {
-    const std::uint64_t old_i = dag_.parents[i], old_j = dag_.parents[j];
-    dag_.parents[i] = table_->to_global(i, new_i);
-    dag_.parents[j] = table_->to_global(j, new_j);
-    if (!in_restriction(dag_)) {
-      dag_.parents[i] = old_i;
-      dag_.parents[j] = old_j;
-      return;
-    }
-  }
-  ++counts_.accepted[int(Move::kRev)];
-  local_[i] = new_i;
-  local_[j] = new_j;
-  score_[i] = s_i;
-  score_[j] = s_j;
-  num_edges_ = edges_after;
-  // Affected: i, j and their descendants before and after, all among i and desc_G(i).
-  recompute_ancestors_below(i);
 }
 
 bool StructureChain::teleport(Rng& rng) {

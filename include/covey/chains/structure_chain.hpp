@@ -12,7 +12,7 @@
 //    outside the class are rejections.
 //  * REV (rev_rate): the edge reversal with parent resampling of Grzegorczyk & Husmeier (2008),
 //    with their acceptance ratio N(G)/N(G') * Z*(i|G0,j) Z(j|G+) / (Z*(j|G0,i) Z(i|G'+)); see
-//    rev_move() in chains/structure_chain.cpp for the derivation used here.
+//    rev_move() in chains/rev_move.cpp for the derivation used here.
 //  * teleport (teleport_rate): an independence proposal from an exact sampler of w restricted
 //    to a class D_k (the cover-bounded sampler). With proposal weights equal to w, the
 //    Metropolis-Hastings ratio w(G') w(G) 1[G in D_k] / (w(G) w(G')) is 1[G in D_k]: the teleport
@@ -104,9 +104,14 @@ struct ChainConfig {
   // dropping its Hastings factor (for teleports also the 1[G in D_k] factor). The chain then
   // targets the wrong distribution; the tests use it to show that their checks can fail.
   unsigned drop_hastings_for_testing = 0;
+  // Test-only switch: local moves decided on the exact scores alone, without the float screen
+  // (which gives the same trajectory; the tests compare the two).
+  bool exact_local_moves_for_testing = false;
 };
 
-class BlockMove;  // chains/block_move.hpp
+class BlockMove;     // chains/block_move.hpp
+class RevTables;     // chains/move_kernels.hpp
+class ScreenScores;  // chains/move_kernels.hpp
 
 class StructureChain {
  public:
@@ -148,6 +153,9 @@ class StructureChain {
   bool has_edge(int from, int to) const;
   std::uint64_t num_edges() const { return num_edges_; }
 
+  // Whether local moves are screened on float scores (docs/chains.md, "Screening local moves").
+  bool screens_local_moves() const { return screen_ != nullptr; }
+
   const MoveCounts& counts() const { return counts_; }
   void set_counts(const MoveCounts& counts) { counts_ = counts; }
 
@@ -160,15 +168,13 @@ class StructureChain {
     std::int8_t pos_in_to;    // position of `from` in to's candidate list
     std::int8_t pos_in_from;  // position of `to` in from's candidate list, or -1
   };
-  // A sum of f_v(S) over the allowed sets S of v with all `required` bits and no `forbidden`
-  // bit, as total * exp(shift).
-  struct MaskedSum {
-    long double total = 0;
-    double shift = 0;
-    bool exact = false;  // weights exp(s - shift) computed on the fly (tiny sums)
-    double log() const;
+  struct NodeChange {
+    int v;
+    ParentMask next;
+    double score;  // s_v(next), set when accepted
   };
-
+  template <std::size_t N>
+  bool accept_change(Rng& rng, NodeChange (&change)[N], double log_hastings);
   void local_move(Rng& rng);
   void propose_add(Rng& rng, int u, int v, ParentMask bit);
   void propose_delete(Rng& rng, int u, int v, ParentMask bit);
@@ -185,15 +191,13 @@ class StructureChain {
   void rebuild_ancestors();
   // Ancestor sets of `root` and all its (current) descendants, recomputed from the parent masks.
   void recompute_ancestors_below(int root);
+  // Whether the union of v's parents and their ancestor sets equals v's ancestor set.
+  bool ancestors_of_parents_equal(int v);
   // Post-order over the marked nodes (mark_ == 1): visit(x) after all of x's marked parents.
   template <class Visit>
   void visit_marked_parents_first(int count, Visit&& visit);
   // Marks root and its descendants (per the ancestor sets); returns how many.
   int mark_descendants(int root, bool include_root);
-
-  MaskedSum masked_sum(int v, ParentMask required, ParentMask forbidden) const;
-  ParentMask sample_masked(int v, ParentMask required, ParentMask forbidden, const MaskedSum& sum,
-                           Rng& rng) const;
 
   std::uint64_t* anc(int v) { return &anc_[std::size_t(v) * words_]; }
   const std::uint64_t* anc(int v) const { return &anc_[std::size_t(v) * words_]; }
@@ -208,6 +212,8 @@ class StructureChain {
   std::uint64_t teleport_threshold_ = 0;  // rng() below this (and above REV's): teleport
   std::uint64_t block_threshold_ = 0;     // rng() below this (and above teleport's): block move
   std::unique_ptr<BlockMove> block_;      // the block move's tables and scratch, when enabled
+  std::unique_ptr<RevTables> rev_;        // REV's weights, when rev_rate > 0
+  std::unique_ptr<ScreenScores> screen_;  // float scores screening local moves, when usable
   bool mixed_kernels_ = false;
   std::vector<Pair> pairs_;
   std::vector<std::int32_t> cand_;  // n * 64 candidate variables
@@ -218,10 +224,6 @@ class StructureChain {
   Dag dag_;  // global masks, kept in step when n <= 64 (for class tests)
   bool track_dag_ = false;
   MoveCounts counts_;
-  // REV: per node, the allowed sets' weights exp(s - max_v) (flat, offsets per node).
-  std::vector<std::size_t> set_offset_;
-  std::vector<double> set_weight_;
-  std::vector<double> set_max_;
   // Scratch, sized once.
   std::vector<std::int32_t> list_, stack_;
   std::vector<ParentMask> stack_rest_;
