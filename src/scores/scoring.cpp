@@ -308,6 +308,9 @@ ScoreTable score_data(const DataTable& data, const ScoreOptions& options) {
     meta.parameters["standardized"] = options.bge.standardize;
   }
   meta.parameters["rows_dropped"] = static_cast<long long>(data.rows_dropped());
+  const std::vector<std::string>& origins = data.column_origins();
+  for (std::size_t v = 0; v < origins.size(); ++v)
+    meta.parameters["column:" + data.name(static_cast<int>(v))] = origins[v];
   return compute_scores(*score, data.variables(), data.num_rows(), options, std::move(meta));
 }
 

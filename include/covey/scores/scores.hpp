@@ -61,7 +61,10 @@ inline std::uint64_t bdeu_count_cells(std::size_t rows) {
 struct BgeParameters {
   double alpha_mu = 1.0;
   double alpha_w = std::numeric_limits<double>::quiet_NaN();  // NaN: n + 2
-  bool standardize = false;  // scale every column to mean 0, standard deviation 1 first
+  // Scale every column to mean 0 and standard deviation 1 first (the default): with the default
+  // prior T = t I, BGe is not invariant to units, so raw units would make the network depend on
+  // whether a column is in ppb or ppm (docs/mathematics.md, "BGe and units").
+  bool standardize = true;
 };
 std::unique_ptr<LocalScore> make_bge(const DataTable& data, const BgeParameters& parameters);
 // The alpha_w and t a BGe score uses for n variables (resolving the default); throws InputError
@@ -118,7 +121,8 @@ ScoreTable compute_scores(const LocalScore& score, const std::vector<Variable>& 
                           std::size_t rows, const ScoreOptions& options, ScoreMetadata metadata);
 
 // The whole step from data: BDeu for discrete tables, BGe for Gaussian ones, metadata filled
-// (score, parameters, prior, max in-degree, rows, source, version; command line left to callers).
+// (score, parameters, prior, max in-degree, rows, source, version, and "column:NAME" = what each
+// column became on reading; command line left to callers).
 ScoreTable score_data(const DataTable& data, const ScoreOptions& options);
 
 }  // namespace covey
