@@ -60,19 +60,20 @@ TEST(Bge, SwissMatchesMultivariateTChainRule) {
   ASSERT_EQ(data.kind(), VariableKind::kGaussian);
   ASSERT_EQ(data.num_rows(), 47u);
   ASSERT_EQ(data.num_variables(), 6);
-  BgeParameters defaults;
-  BgeParameters other;
+  BgeParameters raw;  // the formula in the data's own units (--raw-units)
+  raw.standardize = false;
+  BgeParameters other = raw;
   other.alpha_mu = 2.5;
   other.alpha_w = 11;
-  BgeParameters standardized;
-  standardized.standardize = true;
+  BgeParameters standardized;  // the default
+  ASSERT_TRUE(standardized.standardize);
   // The complete DAG along two orders, every single node, and a middle-sized subset.
   const std::vector<int> order1{0, 1, 2, 3, 4, 5}, order2{4, 2, 5, 0, 3, 1};
   std::vector<std::vector<int>> subsets{order1};
   for (int v = 0; v < 6; ++v) subsets.push_back({v});
   subsets.push_back({1, 3});
   subsets.push_back({1, 3, 5});
-  const std::vector<BgeParameters> parameter_sets{defaults, other, standardized};
+  const std::vector<BgeParameters> parameter_sets{raw, other, standardized};
   const auto reference = reference_log_marginals(csv, data, subsets, parameter_sets, dir);
   ASSERT_EQ(reference.size(), 3u);
   for (std::size_t q = 0; q < parameter_sets.size(); ++q) {

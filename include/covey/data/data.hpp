@@ -38,10 +38,10 @@ BinSpec parse_bin_spec(const std::string& text);
 
 struct CsvOptions {
   ColumnKindChoice kind = ColumnKindChoice::kInfer;
-  char delimiter = 0;                         // ',', ';', '\t', ...; 0: detect from the header
-  std::vector<std::string> discrete_columns;  // read as labels even when they hold numbers
-  std::vector<BinSpec> bins;                  // numeric columns cut into discrete levels
-  std::string count_column;                   // empty: none; else a column of row weights
+  char delimiter = 0;                           // ',', ';', '\t', ...; 0: detect from the header
+  std::vector<std::string> discrete_columns{};  // read as labels even when they hold numbers
+  std::vector<BinSpec> bins{};                  // numeric columns cut into discrete levels
+  std::string count_column{};                   // empty: none; else a column of row weights
   bool drop_incomplete = false;    // drop rows with a missing cell instead of refusing them
   bool allow_constant = false;     // keep discrete columns with a single level
   std::uint64_t memory_limit = 0;  // ceiling of the load's estimated memory; 0: the default
