@@ -1,4 +1,5 @@
 // `covey score`: data (CSV) to a local score table (HDF5, or TSV for `-o X.tsv`).
+#include <algorithm>
 #include <chrono>
 #include <iostream>
 
@@ -49,16 +50,23 @@ nlohmann::json columns_json(const DataTable& data) {
   return out;
 }
 
-// What each column became: the kind, the levels, and how they were read.
+// What each column became, one line per way of reading (columns read alike share a line).
 void print_columns(const DataTable& data, bool standardized) {
   if (data.kind() == VariableKind::kGaussian)
     std::cout << (standardized ? "Gaussian columns standardized to mean 0 and standard deviation "
                                  "1 before BGe (--raw-units keeps the units)\n"
                                : "Gaussian columns scored in their raw units (--raw-units)\n");
+  std::vector<std::pair<std::string, std::vector<std::string>>> groups;
   for (int v = 0; v < data.num_variables(); ++v) {
-    std::cout << "  " << data.name(v) << ": " << data.column_origins().at(v);
-    if (data.kind() == VariableKind::kDiscrete)
-      std::cout << ", " << data.num_levels(v) << " levels";
+    const std::string& origin = data.column_origins().at(v);
+    auto group = std::find_if(groups.begin(), groups.end(),
+                              [&](const auto& g) { return g.first == origin; });
+    if (group == groups.end()) group = groups.insert(groups.end(), {origin, {}});
+    group->second.push_back(data.name(v));
+  }
+  for (const auto& [origin, names] : groups) {
+    std::cout << "  " << origin << ":";
+    for (const std::string& name : names) std::cout << ' ' << name;
     std::cout << "\n";
   }
 }
