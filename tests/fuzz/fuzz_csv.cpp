@@ -1,5 +1,6 @@
 // libFuzzer target: the data CSV reader (parse_csv, the text entry point of read_csv), under
-// each column-kind choice and with incomplete rows dropped or refused.
+// each column-kind choice, with incomplete rows dropped or refused, and with a column named "a"
+// binned and a column named "n" read as counts.
 #include <cstddef>
 #include <cstdint>
 #include <string>
@@ -17,6 +18,9 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
                                  : covey::ColumnKindChoice::kGaussian;
   options.drop_incomplete = (mode & 0x10) != 0;
   options.allow_constant = (mode & 0x20) != 0;
+  if (mode & 0x40) options.bins = {covey::parse_bin_spec("a=quantile:3")};
+  if (mode & 0x80) options.count_column = "n";
+  options.memory_limit = std::uint64_t{1} << 28;  // counts can ask for much
   try {
     covey::DataTable table = covey::parse_csv(
         std::string(reinterpret_cast<const char*>(data + 1), size - 1), "fuzz.csv", options);
