@@ -205,6 +205,10 @@ TEST(Csv, BinsCutNumericColumns) {
   EXPECT_EQ(tied.variables()[0].levels, (std::vector<std::string>{"<=1", ">1"}));
   EXPECT_EQ(tied.variables()[1].levels, (std::vector<std::string>{"<=2", "(2,100]"}));
   EXPECT_EQ(tied.notes().size(), 2u);
+  // A binned column with one value is a constant column.
+  options.bins = {parse_bin_spec("x=quantile:3")};
+  EXPECT_NE(error_of("x,l\n2,a\n2,b\n", options).find("column 'x' has a single level 'all'"),
+            std::string::npos);
   // Cells of a binned column must be numbers.
   options.bins = {parse_bin_spec("l=quantile:2")};
   EXPECT_NE(error_of(text, options).find("in.csv:2: column 'l': 'a' is not a number (--bin)"),

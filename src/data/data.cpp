@@ -170,10 +170,11 @@ NumberText read_decimal_comma(const char* b, const char* e, double& out) {
   return read_number(buffer, buffer + size, out);
 }
 
+// The shortest text that reads back as x (distinct edges never print alike).
 std::string format_edge(double x) {
   char text[32];
-  std::snprintf(text, sizeof text, "%.6g", x);
-  return text;
+  const auto [end, ec] = std::to_chars(text, text + sizeof text, x);
+  return ec == std::errc() ? std::string(text, end) : std::to_string(x);
 }
 
 char choose_delimiter(const CsvOptions& options, const char* begin, const char* end) {
@@ -347,12 +348,13 @@ std::vector<std::size_t> row_counts(const Column& count, const std::string& name
     total += x;
   }
   if (total == 0) throw InputError(name + ": count column '" + count.name + "' sums to 0");
-  require_memory(
-      total * static_cast<double>(variables) * 8, memory_limit,
-      "expanding the count column '" + count.name + "' to " + format_edge(total) + " observations",
-      "raise --memory-limit");
+  require_memory(total * static_cast<double>(variables) * 8, memory_limit,
+                 "expanding the count column '" + count.name + "' to " +
+                     std::to_string(static_cast<std::uint64_t>(total)) + " observations",
+                 "raise --memory-limit");
   notes.push_back(name + ": " + std::to_string(counts.size()) + " rows stand for " +
-                  format_edge(total) + " observations (count column '" + count.name + "')");
+                  std::to_string(static_cast<std::uint64_t>(total)) +
+                  " observations (count column '" + count.name + "')");
   return counts;
 }
 
@@ -390,12 +392,12 @@ void cut_into_bins(Column& c, const std::string& name, std::vector<std::string>&
   for (std::size_t b = 0; b < per_bin.size(); ++b) {
     recode[b] = static_cast<std::uint16_t>(c.levels.size());
     if (!per_bin[b]) continue;
-    c.levels.push_back(b == 0 ? "<=" + format_edge(edges[0])
+    c.levels.push_back(edges.empty() ? std::string("all")
+                       : b == 0      ? "<=" + format_edge(edges[0])
                        : b == edges.size()
                            ? ">" + format_edge(edges[b - 1])
                            : "(" + format_edge(edges[b - 1]) + "," + format_edge(edges[b]) + "]");
   }
-  if (edges.empty()) c.levels = {"all"};
   for (std::uint16_t& code : c.codes) code = recode[code];
   const std::size_t asked =
       spec.rule == BinSpec::Rule::kQuantile ? spec.bins : spec.edges.size() + 1;
@@ -499,7 +501,7 @@ DataTable build_discrete(std::vector<Column>& columns, const std::vector<std::si
     const double rows = static_cast<double>(codes.back().size());
     if (c.levels.size() > 2 && static_cast<double>(c.levels.size()) > rows / 5)
       notes.push_back(name + ": column '" + c.name + "' has " + std::to_string(c.levels.size()) +
-                      " levels for " + format_edge(rows) +
+                      " levels for " + std::to_string(codes.back().size()) +
                       " rows (more than rows/5, so most levels are seen a few times): if it holds "
                       "measurements, --bin " +
                       c.name + "=quantile:K cuts it into K levels");
