@@ -153,11 +153,13 @@ void setup_score(CLI::App& app) {
   cmd->add_option("--discrete-columns", a->discrete_columns,
                   "Columns read as labels even when they hold numbers (comma-separated names; "
                   "default none)")
-      ->delimiter(',');
+      ->delimiter(',')
+      ->allow_extra_args(false);
   cmd->add_option("--bin", a->bins,
                   "Cut a numeric column into discrete levels: NAME=quantile:K (K bins of about "
                   "equal counts) or NAME=edges:E1,E2,... (bins x<=E1, E1<x<=E2, ..., x>Elast); "
-                  "repeatable; default none");
+                  "repeatable; default none")
+      ->allow_extra_args(false);
   cmd->add_option("--count-column", a->count_column,
                   "Column of counts: each row stands for that many observations (aggregated "
                   "tables; default none)");
