@@ -52,7 +52,7 @@ nlohmann::json columns_json(const DataTable& data) {
 
 // What each column became, one line per way of reading (columns read alike share a line).
 void print_columns(const DataTable& data, bool standardized) {
-  if (data.kind() == VariableKind::kGaussian)
+  if (data.kind() == VariableKind::kGaussian || data.is_mixed())
     std::cout << (standardized ? "Gaussian columns standardized to mean 0 and standard deviation "
                                  "1 before BGe (--raw-units keeps the units)\n"
                                : "Gaussian columns scored in their raw units (--raw-units)\n");
@@ -93,12 +93,13 @@ void run(ScoreArgs& a) {
   const DataTable data = read_csv(a.data, csv);
   for (const std::string& note : data.notes()) std::cerr << "covey score: note: " << note << "\n";
 
-  const bool discrete = data.kind() == VariableKind::kDiscrete;
+  const bool mixed = data.is_mixed();
+  const bool discrete = data.kind() == VariableKind::kDiscrete && !mixed;
   for (CLI::Option* opt : {a.alpha_mu, a.alpha_w, a.raw_units_flag})
     if (discrete && opt->count())
       throw InputError(opt->get_name() + " applies to Gaussian data (BGe), but " + a.data +
                        " is discrete");
-  if (!discrete && a.ess->count())
+  if (!discrete && !mixed && a.ess->count())
     throw InputError("--equivalent-sample-size applies to discrete data (BDeu), but " + a.data +
                      " is Gaussian");
   a.options.bge.standardize = !a.raw_units;
@@ -142,7 +143,9 @@ void run(ScoreArgs& a) {
 
 void setup_score(CLI::App& app) {
   auto* cmd = app.add_subcommand(
-      "score", "Compute local scores (BDeu for discrete data, BGe for Gaussian data) from a CSV");
+      "score",
+      "Compute local scores from a CSV: BDeu for discrete data, BGe for Gaussian data, the "
+      "conditional-Gaussian score for tables of both kinds");
   auto a = std::make_shared<ScoreArgs>();
   cmd->add_option("DATA", a->data, "CSV file with a header row (docs/file-formats.md)")->required();
   cmd->add_option("-o,--output", a->output, "score table to write (HDF5; .tsv for TSV)")

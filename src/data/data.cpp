@@ -58,6 +58,48 @@ DataTable DataTable::gaussian(std::vector<std::string> names,
   return t;
 }
 
+DataTable DataTable::mixed(std::vector<Variable> variables,
+                           std::vector<std::vector<std::uint16_t>> codes,
+                           std::vector<std::vector<double>> values) {
+  const std::size_t n = variables.size();
+  if (codes.size() != n || values.size() != n)
+    throw InputError("data table: columns do not match the variables");
+  std::vector<Variable> discrete_variables;
+  std::vector<std::vector<std::uint16_t>> discrete_codes;
+  std::vector<std::string> gaussian_names;
+  std::vector<std::vector<double>> gaussian_values;
+  for (std::size_t v = 0; v < n; ++v) {
+    if (variables[v].kind == VariableKind::kDiscrete) {
+      discrete_variables.push_back(variables[v]);
+      discrete_codes.push_back(codes[v]);
+    } else {
+      gaussian_names.push_back(variables[v].name);
+      gaussian_values.push_back(values[v]);
+    }
+  }
+  if (discrete_variables.empty() || gaussian_names.empty())
+    throw InputError("data table: a mixed table needs columns of both kinds");
+  // The single-kind factories check the columns; their row counts must agree.
+  const DataTable d = discrete(std::move(discrete_variables), std::move(discrete_codes));
+  const DataTable g = gaussian(std::move(gaussian_names), std::move(gaussian_values));
+  if (d.num_rows() != g.num_rows()) throw InputError("data table: columns differ in length");
+  DataTable t;
+  t.rows_ = d.num_rows();
+  t.mixed_ = true;
+  t.variables_ = std::move(variables);
+  for (std::size_t v = 0; v < n; ++v) {
+    if (t.variables_[v].kind == VariableKind::kGaussian) {
+      t.variables_[v].levels.clear();
+      codes[v].clear();
+    } else {
+      values[v].clear();
+    }
+  }
+  t.codes_ = std::move(codes);
+  t.values_ = std::move(values);
+  return t;
+}
+
 namespace {
 
 // Levels of one discrete column while reading: codes in first-appearance order, found by a short
@@ -304,32 +346,34 @@ void read_cell(Column& c, csv::Field& f, long line, const std::string& name, boo
   std::vector<double>().swap(c.values);
 }
 
-// The table's kind after pass 1: discrete when any variable is labels or binned, Gaussian when
-// all are numbers. A table of label and Gaussian columns is refused: covey has no mixed score.
-VariableKind decide_kind(const std::vector<Column>& columns, const std::string& name) {
+// Whether a variable column ends up Gaussian (numbers, not binned, not named discrete).
+bool is_gaussian(const Column& c) {
+  return c.rule != Rule::kLabels && c.numeric && !c.bin;
+}
+
+enum class Shape { kDiscrete, kGaussian, kMixed };
+
+// The table's shape after pass 1: discrete when every variable is labels or binned, Gaussian when
+// all are numbers, mixed otherwise (scored by the conditional-Gaussian score, with a note).
+Shape decide_shape(const std::vector<Column>& columns, const std::string& name,
+                   std::vector<std::string>& notes) {
   std::vector<std::string> numeric, discrete;
-  const Column* example = nullptr;
   for (const Column& c : columns) {
     if (!c.is_variable()) continue;
     if (c.rule == Rule::kInfer && c.numeric && c.first_non_finite_line)
       throw InputError(name + ":" + std::to_string(c.first_non_finite_line) + ": column '" +
                        c.name + "': " + c.first_non_finite +
                        " is not a finite value (numbers must be finite)");
-    const bool is_numeric = c.rule != Rule::kLabels && c.numeric && !c.bin;
-    (is_numeric ? numeric : discrete).push_back(c.name);
-    if (!is_numeric && !c.bin && c.rule == Rule::kInfer && !example) example = &c;
+    (is_gaussian(c) ? numeric : discrete).push_back(c.name);
   }
-  if (discrete.empty()) return VariableKind::kGaussian;
-  if (numeric.empty()) return VariableKind::kDiscrete;
-  std::string why;
-  if (example)
-    why = " (e.g. " + example->first_label + " on line " +
-          std::to_string(example->first_label_line) + ")";
-  throw InputError(name + ": the table mixes kinds: numeric columns " + list_names(numeric) +
-                   "; discrete columns " + list_names(discrete) + why +
-                   "; covey scores all-discrete (BDeu) or all-Gaussian (BGe) tables: name numeric "
-                   "columns with few values in --discrete-columns, cut the others with --bin "
-                   "NAME=quantile:K, or use --discrete to read every column as labels");
+  if (discrete.empty()) return Shape::kGaussian;
+  if (numeric.empty()) return Shape::kDiscrete;
+  notes.push_back(name + ": a mixed table: Gaussian columns " + list_names(numeric) +
+                  ", discrete columns " + list_names(discrete) +
+                  "; a Gaussian column is never a parent of a discrete one (the "
+                  "conditional-Gaussian score); --discrete-columns or --bin make numeric columns "
+                  "discrete");
+  return Shape::kMixed;
 }
 
 // Row weights from the count column: whole numbers >= 0, their sum the number of observations.
@@ -423,7 +467,7 @@ void code_labels(std::vector<Column>& columns, csv::Tokenizer& tok,
   std::vector<char> coded(n, 0);
   for (std::size_t j = 0; j < n; ++j) {
     Column& c = columns[j];
-    coded[j] = c.is_variable() && !c.bin;
+    coded[j] = c.is_variable() && !is_gaussian(c) && !c.bin;
     if (!coded[j]) continue;
     std::vector<double>().swap(c.values);
     c.codes.reserve(kept_rows.size());
@@ -462,53 +506,65 @@ std::string label_origin(const Column& c) {
   return "labels";
 }
 
-DataTable build_gaussian(std::vector<Column>& columns, const std::vector<std::size_t>& counts,
-                         const std::string& name, std::vector<std::string>& notes) {
-  std::vector<std::string> names, origins;
-  std::vector<std::vector<double>> values;
-  for (Column& c : columns) {
-    if (!c.is_variable()) continue;
-    const bool zero_one =
-        std::all_of(c.values.begin(), c.values.end(), [](double x) { return x == 0 || x == 1; });
-    if (zero_one)
-      notes.push_back(name + ": column '" + c.name +
-                      "' holds only 0 and 1 and is scored as "
-                      "Gaussian; --discrete-columns " +
-                      c.name + " reads it as labels");
-    names.push_back(c.name);
-    origins.push_back(c.because == "--gaussian" ? "numbers, Gaussian (--gaussian)"
-                                                : "numbers, Gaussian");
-    values.push_back(expand_rows(c.values, counts));
-  }
-  DataTable t = DataTable::gaussian(std::move(names), std::move(values));
-  t.set_reading_report(std::move(origins), {});
-  return t;
+// A Gaussian column's values (a note when they are all 0 or 1).
+std::vector<double> gaussian_column(Column& c, const std::vector<std::size_t>& counts,
+                                    const std::string& name, std::vector<std::string>& notes) {
+  if (std::all_of(c.values.begin(), c.values.end(), [](double x) { return x == 0 || x == 1; }))
+    notes.push_back(name + ": column '" + c.name +
+                    "' holds only 0 and 1 and is scored as Gaussian; --discrete-columns " + c.name +
+                    " reads it as labels");
+  c.origin = c.because == "--gaussian" ? "numbers, Gaussian (--gaussian)" : "numbers, Gaussian";
+  return expand_rows(c.values, counts);
 }
 
-DataTable build_discrete(std::vector<Column>& columns, const std::vector<std::size_t>& counts,
-                         const CsvOptions& options, const std::string& name,
-                         std::vector<std::string>& notes) {
+// A discrete column's codes (labels, or binned numbers; a note when it has very many levels).
+std::vector<std::uint16_t> discrete_column(Column& c, const std::vector<std::size_t>& counts,
+                                           const CsvOptions& options, const std::string& name,
+                                           std::vector<std::string>& notes) {
+  if (c.bin) cut_into_bins(c, name, notes);
+  if (c.levels.size() == 1 && !options.allow_constant)
+    throw InputError(name + ": column '" + c.name + "' has a single level '" + c.levels[0] +
+                     "' (a constant column; use --allow-constant to keep it)");
+  std::vector<std::uint16_t> codes = expand_rows(c.codes, counts);
+  const double rows = static_cast<double>(codes.size());
+  if (c.levels.size() > 2 && static_cast<double>(c.levels.size()) > rows / 5)
+    notes.push_back(name + ": column '" + c.name + "' has " + std::to_string(c.levels.size()) +
+                    " levels for " + std::to_string(codes.size()) +
+                    " rows (more than rows/5, so most levels are seen a few times): if it holds "
+                    "measurements, --bin " +
+                    c.name + "=quantile:K cuts it into K levels");
+  if (!c.bin) c.origin = label_origin(c);
+  return codes;
+}
+
+DataTable build_table(std::vector<Column>& columns, Shape shape,
+                      const std::vector<std::size_t>& counts, const CsvOptions& options,
+                      const std::string& name, std::vector<std::string>& notes) {
   std::vector<Variable> variables;
   std::vector<std::vector<std::uint16_t>> codes;
+  std::vector<std::vector<double>> values;
   std::vector<std::string> origins;
   for (Column& c : columns) {
     if (!c.is_variable()) continue;
-    if (c.bin) cut_into_bins(c, name, notes);
-    if (c.levels.size() == 1 && !options.allow_constant)
-      throw InputError(name + ": column '" + c.name + "' has a single level '" + c.levels[0] +
-                       "' (a constant column; use --allow-constant to keep it)");
-    codes.push_back(expand_rows(c.codes, counts));
-    const double rows = static_cast<double>(codes.back().size());
-    if (c.levels.size() > 2 && static_cast<double>(c.levels.size()) > rows / 5)
-      notes.push_back(name + ": column '" + c.name + "' has " + std::to_string(c.levels.size()) +
-                      " levels for " + std::to_string(codes.back().size()) +
-                      " rows (more than rows/5, so most levels are seen a few times): if it holds "
-                      "measurements, --bin " +
-                      c.name + "=quantile:K cuts it into K levels");
-    origins.push_back(c.bin ? c.origin : label_origin(c));
-    variables.push_back({c.name, VariableKind::kDiscrete, std::move(c.levels)});
+    if (is_gaussian(c)) {
+      values.push_back(gaussian_column(c, counts, name, notes));
+      codes.emplace_back();
+      variables.push_back({c.name, VariableKind::kGaussian, {}});
+    } else {
+      codes.push_back(discrete_column(c, counts, options, name, notes));
+      values.emplace_back();
+      variables.push_back({c.name, VariableKind::kDiscrete, std::move(c.levels)});
+    }
+    origins.push_back(c.origin);
   }
-  DataTable t = DataTable::discrete(std::move(variables), std::move(codes));
+  DataTable t;
+  if (shape == Shape::kMixed) {
+    t = DataTable::mixed(std::move(variables), std::move(codes), std::move(values));
+  } else if (shape == Shape::kGaussian) {
+    t = DataTable::gaussian(variable_names(variables), std::move(values));
+  } else {
+    t = DataTable::discrete(std::move(variables), std::move(codes));
+  }
   t.set_reading_report(std::move(origins), {});
   return t;
 }
@@ -635,14 +691,12 @@ DataTable parse_csv(std::string text, const std::string& name, const CsvOptions&
                                    " data rows has a missing cell"
                              : name + ": no data rows after the header");
 
-  const VariableKind kind = decide_kind(columns, name);
+  const Shape shape = decide_shape(columns, name, notes);
   std::vector<std::size_t> counts;
   for (const Column& c : columns)
     if (c.is_count) counts = row_counts(c, name, options.memory_limit, n - 1, notes);
-  if (kind == VariableKind::kDiscrete) code_labels(columns, tok, kept_rows, name);
-  DataTable t = kind == VariableKind::kGaussian
-                    ? build_gaussian(columns, counts, name, notes)
-                    : build_discrete(columns, counts, options, name, notes);
+  if (shape != Shape::kGaussian) code_labels(columns, tok, kept_rows, name);
+  DataTable t = build_table(columns, shape, counts, options, name, notes);
   t.set_provenance(name, dropped);
   t.set_reading_report(t.column_origins(), std::move(notes));
   return t;

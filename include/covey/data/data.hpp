@@ -64,6 +64,13 @@ class DataTable {
   // A Gaussian table: values[v] holds one finite value per row.
   static DataTable gaussian(std::vector<std::string> names,
                             std::vector<std::vector<double>> values);
+  // A mixed table (both kinds present): variables[v].kind says whether codes[v] (discrete) or
+  // values[v] (Gaussian) holds column v; the other is empty. kind() is kDiscrete for it; ask
+  // is_mixed() first.
+  static DataTable mixed(std::vector<Variable> variables,
+                         std::vector<std::vector<std::uint16_t>> codes,
+                         std::vector<std::vector<double>> values);
+  bool is_mixed() const { return mixed_; }
 
   int num_variables() const { return static_cast<int>(variables_.size()); }
   std::size_t num_rows() const { return rows_; }
@@ -71,10 +78,10 @@ class DataTable {
   const std::vector<Variable>& variables() const { return variables_; }
   const std::string& name(int v) const { return variables_[v].name; }
 
-  // Discrete tables only.
+  // Discrete columns only.
   int num_levels(int v) const { return static_cast<int>(variables_[v].levels.size()); }
   std::span<const std::uint16_t> codes(int v) const { return codes_[v]; }
-  // Gaussian tables only.
+  // Gaussian columns only.
   std::span<const double> values(int v) const { return values_[v]; }
 
   // Where the table came from (file name) and how many incomplete rows were dropped on reading.
@@ -98,6 +105,7 @@ class DataTable {
  private:
   std::vector<Variable> variables_;
   VariableKind kind_ = VariableKind::kDiscrete;
+  bool mixed_ = false;
   std::size_t rows_ = 0;
   std::vector<std::vector<std::uint16_t>> codes_;
   std::vector<std::vector<double>> values_;
@@ -107,9 +115,9 @@ class DataTable {
   std::vector<std::string> notes_;
 };
 
-// Reads a CSV file (the whole file at once). Throws InputError naming the file, line and column
-// (also for a table of fewer than two variables, a non-finite number, or a table that mixes label
-// and Gaussian columns), and ResourceError before reading when csv_load_bytes exceeds the memory
+// Reads a CSV file (the whole file at once): a discrete, Gaussian or mixed table. Throws
+// InputError naming the file, line and column (also for a table of fewer than two variables or a
+// non-finite number), and ResourceError before reading when csv_load_bytes exceeds the memory
 // limit.
 DataTable read_csv(const std::string& path, const CsvOptions& options = {});
 // Parses CSV text; `name` stands for the file in messages.

@@ -67,6 +67,19 @@ struct BgeParameters {
   bool standardize = true;
 };
 std::unique_ptr<LocalScore> make_bge(const DataTable& data, const BgeParameters& parameters);
+// The conditional-Gaussian score of a mixed table (DataTable::is_mixed): discrete nodes by BDeu
+// (equivalent sample size `ess`) over the discrete columns; a Gaussian node by the sum, over the
+// observed configurations of its discrete parents, of the BGe local score given its Gaussian
+// parents on those rows (prior of the Gaussian columns alone: n = their number; columns
+// standardized over all rows unless parameters.standardize is false). Gaussian parents of
+// discrete nodes are not defined: see with_discrete_before_gaussian.
+std::unique_ptr<LocalScore> make_conditional_gaussian(const DataTable& data, double ess,
+                                                      const BgeParameters& parameters);
+// The constraints plus every Gaussian -> discrete edge forbidden (background knowledge of the
+// conditional-Gaussian score); throws InputError when such an edge is required.
+EdgeConstraints with_discrete_before_gaussian(EdgeConstraints constraints,
+                                              const std::vector<Variable>& variables);
+
 // The alpha_w and t a BGe score uses for n variables (resolving the default); throws InputError
 // unless alpha_mu > 0 and alpha_w > n + 1.
 double bge_alpha_w(const BgeParameters& parameters, int n);
