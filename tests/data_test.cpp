@@ -76,12 +76,19 @@ TEST(Csv, KindsAreInferredOrForced) {
   const DataTable forced = parse_csv("a,b\n1,2\n1.0,3\n", "k.csv", {ColumnKindChoice::kDiscrete});
   EXPECT_EQ(forced.kind(), VariableKind::kDiscrete);
   EXPECT_EQ(forced.variables()[0].levels, (std::vector<std::string>{"1", "1.0"}));
-  // A table mixing numbers and labels is refused, naming which columns are which.
-  const std::string mixed = error_of("num,lab,num2\n1,x,2\n3,y,4\n");
-  EXPECT_NE(mixed.find("mixes kinds"), std::string::npos) << mixed;
-  EXPECT_NE(mixed.find("numeric columns 'num', 'num2'"), std::string::npos) << mixed;
-  EXPECT_NE(mixed.find("discrete columns 'lab'"), std::string::npos) << mixed;
-  EXPECT_NE(mixed.find("'x' on line 2"), std::string::npos) << mixed;
+  // A table mixing numbers and labels is a mixed table, with a note naming which columns are
+  // which.
+  const DataTable mixed = parse_csv("num,lab,num2\n1,x,2\n3,y,4\n", "m.csv");
+  EXPECT_TRUE(mixed.is_mixed());
+  EXPECT_EQ(mixed.variables()[0].kind, VariableKind::kGaussian);
+  EXPECT_EQ(mixed.variables()[1].kind, VariableKind::kDiscrete);
+  EXPECT_EQ(mixed.values(2)[1], 4.0);
+  EXPECT_EQ(labels_of(mixed, 1), (std::vector<std::string>{"x", "y"}));
+  ASSERT_EQ(mixed.notes().size(), 1u);
+  EXPECT_NE(mixed.notes()[0].find("a mixed table: Gaussian columns 'num', 'num2', discrete "
+                                  "columns 'lab'"),
+            std::string::npos)
+      << mixed.notes()[0];
   const std::string forced_gaussian = error_of("a,b\n1,2\n3,abc\n", {ColumnKindChoice::kGaussian});
   EXPECT_NE(forced_gaussian.find("in.csv:3: column 'b': 'abc' is not a number (--gaussian)"),
             std::string::npos)
@@ -164,11 +171,11 @@ TEST(Csv, QuotedNumbersAreLabelsAndColumnsCanBeNamedDiscrete) {
   named.discrete_columns = {"a", "nosuch"};
   EXPECT_NE(error_of("a,b\n0,1\n1,0\n", named).find("--discrete-columns names 'nosuch'"),
             std::string::npos);
-  // A column named discrete among numbers leaves a mixed table, which is refused with the way out.
+  // A column named discrete among numbers leaves a mixed table.
   named.discrete_columns = {"a"};
-  const std::string mixed = error_of("a,b\n0,1.5\n1,0.5\n1,2.5\n", named);
-  EXPECT_NE(mixed.find("mixes kinds"), std::string::npos) << mixed;
-  EXPECT_NE(mixed.find("--bin"), std::string::npos) << mixed;
+  const DataTable mixed = parse_csv("a,b\n0,1.5\n1,0.5\n1,2.5\n", "m.csv", named);
+  EXPECT_TRUE(mixed.is_mixed());
+  EXPECT_EQ(mixed.variables()[0].levels, (std::vector<std::string>{"0", "1"}));
 }
 
 TEST(Csv, ZeroOneColumnsAndManyLevelsGetNotes) {

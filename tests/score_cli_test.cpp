@@ -28,6 +28,7 @@ class ScoreCli : public ::testing::Test {
     write_file(dir.file("good.csv"), "x,y,z\na,u,p\nb,u,q\na,v,q\nb,v,p\na,u,q\n");
     write_file(dir.file("gauss.csv"), "g1,g2,g3\n1.5,2,3\n0.5,1,-2\n2,0.25,1\n3,1,0\n");
     write_file(dir.file("mixed.csv"), "x,n\na,1\nb,2\n");
+    write_file(dir.file("require_mixed.tsv"), "n\tx\n");
     write_file(dir.file("missing.csv"), "x,y\na,u\nb,NA\na,v\n");
     write_file(dir.file("constant.csv"), "x,y\na,u\nb,u\n");
     write_file(dir.file("comma.csv"), "\"x,1\",y\na,u\nb,v\n");
@@ -47,7 +48,8 @@ TEST_F(ScoreCli, BadInputsFailAndLeaveTheOutputUntouched) {
   const std::string good = path("good.csv");
   const std::vector<std::pair<std::string, std::string>> cases = {
       {path("none.csv") + " -o " + out, "none.csv: cannot open for reading"},
-      {path("mixed.csv") + " -o " + out, "the table mixes kinds"},
+      {path("mixed.csv") + " -o " + out + " --require " + path("require_mixed.tsv"),
+       "makes a Gaussian column a parent of a discrete one"},
       {path("missing.csv") + " -o " + out, "missing.csv:3: missing value in column 'y'"},
       {path("constant.csv") + " -o " + out, "column 'y' has a single level 'u'"},
       {good + " -o " + out + " --discrete --gaussian", "excludes"},
