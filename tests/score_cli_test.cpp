@@ -250,6 +250,20 @@ TEST_F(ScoreCli, BirthwtFromRBecomesADiscreteTable) {
   for (std::size_t i = 0; i < table.num_rows(); ++i)
     EXPECT_EQ(table.codes(bwt)[i], 1 - table.codes(low)[i]) << "row " << i;
 
+  // Without the bins, the measurements stay Gaussian: a mixed table, scored by the
+  // conditional-Gaussian score, in which no measurement is a parent of a discrete column.
+  const auto mixed = run_covey("score " + csv + " -o " + path("bw_cg.tsv") +
+                               " --discrete-columns low,race,smoke,ptl,ht,ui,ftv");
+  ASSERT_EQ(mixed.exit_code, 0) << mixed.err;
+  EXPECT_NE(mixed.out.find("cg scores"), std::string::npos) << mixed.out;
+  EXPECT_NE(mixed.err.find("a mixed table: Gaussian columns 'age', 'lwt', 'bwt'"),
+            std::string::npos)
+      << mixed.err;
+  const ScoreTable cg = read_scores_tsv(path("bw_cg.tsv"));
+  const int low_node = find_variable(cg.variables(), "low", "test");
+  for (int u : cg.candidates(low_node))
+    EXPECT_NE(cg.variables()[u].name, "bwt");  // bwt never a parent of low
+
   const auto info = run_covey("info " + path("bw.h5"));
   EXPECT_NE(info.out.find("bwt\tdiscrete\t2\t9\t130\tnumbers, cut into 2 bins at edges 2499"),
             std::string::npos)

@@ -91,7 +91,6 @@ void run(ScoreArgs& a) {
   csv.allow_constant = a.allow_constant;
   csv.memory_limit = a.options.memory_limit;
   const DataTable data = read_csv(a.data, csv);
-  for (const std::string& note : data.notes()) std::cerr << "covey score: note: " << note << "\n";
 
   const bool mixed = data.is_mixed();
   const bool discrete = data.kind() == VariableKind::kDiscrete && !mixed;
@@ -115,6 +114,8 @@ void run(ScoreArgs& a) {
   progress.finish();
   table.metadata().command_line = command_line();
   save_scores(table, a.output);
+  // Notes come after success, so that a refusal stays a one-line message.
+  for (const std::string& note : data.notes()) std::cerr << "covey score: note: " << note << "\n";
   const double seconds =
       std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
 

@@ -24,9 +24,9 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
   try {
     covey::DataTable table = covey::parse_csv(
         std::string(reinterpret_cast<const char*>(data + 1), size - 1), "fuzz.csv", options);
-    // A table that was accepted must be consistent.
+    // A table that was accepted must be consistent (column by column: a table may be mixed).
     for (int v = 0; v < table.num_variables(); ++v) {
-      if (table.kind() == covey::VariableKind::kDiscrete) {
+      if (table.variables()[v].kind == covey::VariableKind::kDiscrete) {
         if (table.codes(v).size() != table.num_rows()) __builtin_trap();
         for (auto c : table.codes(v))
           if (c >= table.num_levels(v)) __builtin_trap();
