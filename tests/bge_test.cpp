@@ -256,6 +256,23 @@ TEST(ConditionalGaussian, MatchesBdeuAndBgeWithinConfigurations) {
   EXPECT_GT(std::abs(plain - expected_d_g1), 1.0);
 }
 
+// g1 -> g2 with both children of d is covered: reversing it keeps the total, since per level of
+// d the two scores add up to log p(g1, g2) - log p() (BGe is score equivalent); a reversal that
+// is not covered changes it.
+TEST(ConditionalGaussian, CoveredGaussianEdgeReversalKeepsTheTotal) {
+  const DataTable data = mixed_table();
+  const auto cg = make_conditional_gaussian(data, 1.0, {});
+  const int d[] = {0}, d_g1[] = {0, 1}, d_g2[] = {0, 3};
+  const double forward = cg->log_marginal(1, d) + cg->log_marginal(3, d_g1);
+  const double backward = cg->log_marginal(3, d) + cg->log_marginal(1, d_g2);
+  EXPECT_NEAR(forward, backward, 1e-10 * std::abs(forward));
+  // Not covered (d -> g1 -> g2 against the v-structure d -> g1 <- g2): the totals differ.
+  const int g1[] = {1}, d_g2_only[] = {0, 3};
+  const double chain = cg->log_marginal(1, d) + cg->log_marginal(3, g1);
+  const double collider = cg->log_marginal(3, {}) + cg->log_marginal(1, d_g2_only);
+  EXPECT_GT(std::abs(chain - collider), 1e-3);
+}
+
 TEST(ConditionalGaussian, GaussianColumnsAreNeverParentsOfDiscreteOnes) {
   const DataTable data = mixed_table();
   ScoreOptions options;
