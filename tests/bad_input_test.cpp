@@ -137,6 +137,11 @@ class Inputs {
     text("missing.csv", "a,b,c\nx,y,z\nx,,z\ny,x,z\nz,z,x\n");
     text("constant.csv", "a,b\nx,p\ny,p\nx,p\ny,p\n");
     text("not_finite.csv", "u,v\n1.5,2\ninf,3\n0.5,1\n2,2\n");
+    text("one.csv", "a\n1\n2\n3\n");
+    text("mixed.csv", "x,n\na,1.5\nb,2\na,0.5\n");
+    text("require_mixed.tsv", "n\tx\n");
+    text("one_var.tsv", "variables\ta\nnode\tparents\tlog_score\na\t\t-1\n");
+    text("count_negative.csv", "a,b,n\nx,u,2\ny,v,-1\n");
     text("bad_score.tsv",
          "variables\ta\tb\nnode\tparents\tlog_score\na\t\t-1\na\tb\tlots\nb\t\t-2\n");
     text("unknown_parent.tsv",

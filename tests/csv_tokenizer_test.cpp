@@ -13,9 +13,9 @@ namespace {
 using Rows = std::vector<std::vector<std::string>>;
 
 // Every row of `text` with the line it starts on.
-Rows rows_of(std::string text, std::vector<long>* lines = nullptr) {
+Rows rows_of(std::string text, std::vector<long>* lines = nullptr, char delimiter = ',') {
   char* const end = text.data() + text.size();
-  csv::Tokenizer tok(csv::skip_bom(text.data(), end), end, "t.csv");
+  csv::Tokenizer tok(csv::skip_bom(text.data(), end), end, "t.csv", delimiter);
   Rows rows;
   std::vector<std::string> fields;
   long line = 0;
@@ -24,6 +24,24 @@ Rows rows_of(std::string text, std::vector<long>* lines = nullptr) {
     if (lines) lines->push_back(line);
   }
   return rows;
+}
+
+TEST(CsvTokenizer, OtherDelimiters) {
+  // ';': commas are content. Tab: a tab is the delimiter, not a blank, so empty fields survive.
+  EXPECT_EQ(rows_of("a;b,c; \"d;e\" \n", nullptr, ';'), (Rows{{"a", "b,c", "d;e"}}));
+  EXPECT_EQ(rows_of("a\t\tb \n", nullptr, '\t'), (Rows{{"a", "", "b"}}));
+}
+
+TEST(CsvTokenizer, DelimiterIsDetectedFromTheHeader) {
+  auto detect = [](const std::string& text) {
+    return csv::detect_delimiter(text.data(), text.data() + text.size());
+  };
+  EXPECT_EQ(detect("a,b,c\n1;2;3;4;5\n"), ',');  // only the header line counts
+  EXPECT_EQ(detect("\n\na;b;c\n"), ';');         // past blank lines
+  EXPECT_EQ(detect("a\tb\tc\n"), '\t');
+  EXPECT_EQ(detect("\"x;y;z\",b\n"), ',');  // not inside quotes
+  EXPECT_EQ(detect("a;b,c\n"), ',');        // a tie: ','
+  EXPECT_EQ(detect("a\n1\n"), ',');         // one column
 }
 
 TEST(CsvTokenizer, QuotesEscapesBlanksAndLineEndings) {

@@ -1,6 +1,8 @@
 // CSV reading: RFC 4180 quoting (the rules of RFC 4180 section 2: quoted fields, "" escapes,
 // embedded commas and line breaks, CRLF), kind inference and its errors, missing cells, constant
-// columns, level order, and size (256 columns, 10^6 rows).
+// columns, level order, and size (256 columns, 10^6 rows); CSV as people write it (';' and tab
+// delimiters, R's row names, non-finite numbers, quoted numbers); per-column choices (discrete
+// columns, bins, a count column) and the notes of a reading.
 #include <gtest/gtest.h>
 
 #include <fstream>
@@ -74,19 +76,173 @@ TEST(Csv, KindsAreInferredOrForced) {
   const DataTable forced = parse_csv("a,b\n1,2\n1.0,3\n", "k.csv", {ColumnKindChoice::kDiscrete});
   EXPECT_EQ(forced.kind(), VariableKind::kDiscrete);
   EXPECT_EQ(forced.variables()[0].levels, (std::vector<std::string>{"1", "1.0"}));
-  // A table mixing numbers and labels is refused, naming which columns are which.
-  const std::string mixed = error_of("num,lab,num2\n1,x,2\n3,y,4\n");
-  EXPECT_NE(mixed.find("mixes kinds"), std::string::npos) << mixed;
-  EXPECT_NE(mixed.find("numeric columns 'num', 'num2'"), std::string::npos) << mixed;
-  EXPECT_NE(mixed.find("label columns 'lab'"), std::string::npos) << mixed;
-  EXPECT_NE(mixed.find("'x' on line 2"), std::string::npos) << mixed;
+  // A table mixing numbers and labels is a mixed table, with a note naming which columns are
+  // which.
+  const DataTable mixed = parse_csv("num,lab,num2\n1,x,2\n3,y,4\n", "m.csv");
+  EXPECT_TRUE(mixed.is_mixed());
+  EXPECT_EQ(mixed.variables()[0].kind, VariableKind::kGaussian);
+  EXPECT_EQ(mixed.variables()[1].kind, VariableKind::kDiscrete);
+  EXPECT_EQ(mixed.values(2)[1], 4.0);
+  EXPECT_EQ(labels_of(mixed, 1), (std::vector<std::string>{"x", "y"}));
+  ASSERT_EQ(mixed.notes().size(), 1u);
+  EXPECT_NE(mixed.notes()[0].find("a mixed table: Gaussian columns 'num', 'num2', discrete "
+                                  "columns 'lab'"),
+            std::string::npos)
+      << mixed.notes()[0];
   const std::string forced_gaussian = error_of("a,b\n1,2\n3,abc\n", {ColumnKindChoice::kGaussian});
-  EXPECT_NE(forced_gaussian.find("in.csv:3: column 'b': 'abc' is not a finite number"),
+  EXPECT_NE(forced_gaussian.find("in.csv:3: column 'b': 'abc' is not a number (--gaussian)"),
             std::string::npos)
       << forced_gaussian;
   // Non-finite numbers are not numbers.
   EXPECT_NE(error_of("a,b\n1,inf\n2,3\n", {ColumnKindChoice::kGaussian}).find("'inf'"),
             std::string::npos);
+}
+
+TEST(Csv, DelimitersAreDetectedOrChosen) {
+  // ';' with decimal commas (R's write.csv2), tab (R's write.table with sep = "\t"), and ','.
+  const DataTable semicolon = parse_csv("a;b\n1,5;2\n3;4,25\n0;1\n", "s.csv");
+  ASSERT_EQ(semicolon.num_variables(), 2);
+  ASSERT_EQ(semicolon.kind(), VariableKind::kGaussian);
+  EXPECT_EQ(semicolon.values(0)[0], 1.5);
+  EXPECT_EQ(semicolon.values(1)[1], 4.25);
+  const DataTable tab = parse_csv("a\tb\tc\nx\ty y\tz\nu\tv\tw\n", "t.tsv");
+  ASSERT_EQ(tab.num_variables(), 3);
+  EXPECT_EQ(tab.variables()[1].levels, (std::vector<std::string>{"v", "y y"}));
+  // A comma inside quotes does not count; ',' wins ties.
+  EXPECT_EQ(parse_csv("\"a,b,c\";d\nx;y\nz;w\n", "q.csv").num_variables(), 2);
+  EXPECT_EQ(parse_csv("a,b;c\nx,y;z\nu,w;v\n", "tie.csv").num_variables(), 2);
+  // An explicit delimiter overrides the guess.
+  CsvOptions pipe;
+  pipe.delimiter = '|';
+  const DataTable piped = parse_csv("a|b,c\nx|y\nz|w\n", "p.csv", pipe);
+  EXPECT_EQ(piped.name(1), "b,c");
+  pipe.delimiter = '"';
+  EXPECT_THROW(parse_csv("a,b\nx,y\n", "p.csv", pipe), OptionError);
+}
+
+TEST(Csv, RowNameColumnIsDroppedWithANote) {
+  // R's write.csv: row names under an empty (quoted) header name.
+  const DataTable t = parse_csv("\"\",\"a\",\"b\"\n\"1\",x,u\n\"2\",y,v\n\"3\",x,v\n", "r.csv");
+  ASSERT_EQ(t.num_variables(), 2);
+  EXPECT_EQ(t.name(0), "a");
+  ASSERT_EQ(t.notes().size(), 1u);
+  EXPECT_NE(t.notes()[0].find("row names"), std::string::npos) << t.notes()[0];
+  // An empty name elsewhere is still an error.
+  EXPECT_NE(error_of("a,,b\n1,2,3\n").find("column 2 of the header has no name"),
+            std::string::npos);
+}
+
+TEST(Csv, NonFiniteNumbersAreNamedWithTheirLine) {
+  for (const std::string cell : {"inf", "-inf", "nan", "Inf", "NaN", "1e999"}) {
+    SCOPED_TRACE(cell);
+    const std::string message = error_of("u,v\n1.5,2\n" + cell + ",3\n0.5,1\n");
+    EXPECT_NE(message.find("in.csv:3: column 'u': '" + cell + "' is not a finite value"),
+              std::string::npos)
+        << message;
+  }
+  // Among labels, "inf" is one more label.
+  EXPECT_EQ(parse_csv("u,v\nx,a\ninf,b\n", "in.csv").variables()[0].levels,
+            (std::vector<std::string>{"inf", "x"}));
+}
+
+TEST(Csv, FewerThanTwoVariablesAreRefused) {
+  EXPECT_NE(error_of("a\n1\n2\n").find("in.csv: 1 variable ('a'); a network needs at least two"),
+            std::string::npos);
+  EXPECT_NE(error_of("\"\",\"a\"\n\"1\",2\n\"2\",3\n").find("1 variable ('a')"), std::string::npos);
+  CsvOptions counted;
+  counted.count_column = "n";
+  EXPECT_NE(error_of("a,n\nx,2\ny,3\n", counted).find("1 variable ('a')"), std::string::npos);
+}
+
+TEST(Csv, QuotedNumbersAreLabelsAndColumnsCanBeNamedDiscrete) {
+  const DataTable quoted = parse_csv("a,b\n\"0\",x\n\"1\",y\n\"1\",x\n", "q.csv");
+  EXPECT_EQ(quoted.kind(), VariableKind::kDiscrete);
+  EXPECT_EQ(quoted.column_origins()[0], "labels (quoted numbers are labels)");
+  // --gaussian still reads a quoted number as a number.
+  EXPECT_EQ(parse_csv("a,b\n\"0\",1\n\"1\",2\n\"1\",0\n", "q.csv", {ColumnKindChoice::kGaussian})
+                .values(0)[1],
+            1.0);
+  CsvOptions named;
+  named.discrete_columns = {"a", "b"};
+  const DataTable t = parse_csv("a,b\n0,10\n1,9\n1,10\n", "d.csv", named);
+  EXPECT_EQ(t.kind(), VariableKind::kDiscrete);
+  EXPECT_EQ(t.variables()[1].levels, (std::vector<std::string>{"9", "10"}));
+  EXPECT_EQ(t.column_origins()[1], "labels (--discrete-columns)");
+  named.discrete_columns = {"a", "nosuch"};
+  EXPECT_NE(error_of("a,b\n0,1\n1,0\n", named).find("--discrete-columns names 'nosuch'"),
+            std::string::npos);
+  // A column named discrete among numbers leaves a mixed table.
+  named.discrete_columns = {"a"};
+  const DataTable mixed = parse_csv("a,b\n0,1.5\n1,0.5\n1,2.5\n", "m.csv", named);
+  EXPECT_TRUE(mixed.is_mixed());
+  EXPECT_EQ(mixed.variables()[0].levels, (std::vector<std::string>{"0", "1"}));
+}
+
+TEST(Csv, ZeroOneColumnsAndManyLevelsGetNotes) {
+  const DataTable t = parse_csv("a,b\n0,1.5\n1,0.5\n1,2.5\n0,3\n", "z.csv");
+  ASSERT_EQ(t.notes().size(), 1u);
+  EXPECT_NE(t.notes()[0].find("column 'a' holds only 0 and 1"), std::string::npos) << t.notes()[0];
+  // 4 levels over 10 rows: more than rows/5 = 2.
+  const DataTable many = parse_csv("a,b\n1,x\n2,y\n3,x\n4,y\n1,x\n2,y\n3,x\n4,y\n1,x\n2,y\n",
+                                   "m.csv", {ColumnKindChoice::kDiscrete});
+  ASSERT_EQ(many.notes().size(), 1u);
+  EXPECT_NE(many.notes()[0].find("column 'a' has 4 levels for 10 rows"), std::string::npos)
+      << many.notes()[0];
+}
+
+TEST(Csv, BinsCutNumericColumns) {
+  // x = 1..9: quantile thirds at x_(3) = 3 and x_(6) = 6; fixed edges at 2.5 and 7.
+  std::string text = "x,y,l\n";
+  for (int i = 1; i <= 9; ++i)
+    text += std::to_string(i) + "," + std::to_string(10 - i) + "," + (i % 2 ? "a" : "b") + "\n";
+  CsvOptions options;
+  options.bins = {parse_bin_spec("x=quantile:3"), parse_bin_spec("y=edges:2.5,7")};
+  const DataTable t = parse_csv(text, "b.csv", options);
+  ASSERT_EQ(t.kind(), VariableKind::kDiscrete);
+  EXPECT_EQ(t.variables()[0].levels, (std::vector<std::string>{"<=3", "(3,6]", ">6"}));
+  EXPECT_EQ(labels_of(t, 0), (std::vector<std::string>{"<=3", "<=3", "<=3", "(3,6]", "(3,6]",
+                                                       "(3,6]", ">6", ">6", ">6"}));
+  EXPECT_EQ(t.variables()[1].levels, (std::vector<std::string>{"<=2.5", "(2.5,7]", ">7"}));
+  EXPECT_EQ(labels_of(t, 1), (std::vector<std::string>{">7", ">7", "(2.5,7]", "(2.5,7]", "(2.5,7]",
+                                                       "(2.5,7]", "(2.5,7]", "<=2.5", "<=2.5"}));
+  EXPECT_EQ(t.column_origins()[0], "numbers, cut into 3 quantile bins at edges 3,6");
+  // Ties merge quantile edges; empty fixed bins are dropped; both say so.
+  options.bins = {parse_bin_spec("x=quantile:4"), parse_bin_spec("y=edges:2,100,200")};
+  const DataTable tied = parse_csv("x,y,l\n1,1,a\n1,2,b\n1,3,a\n1,4,b\n2,5,a\n", "t.csv", options);
+  EXPECT_EQ(tied.variables()[0].levels, (std::vector<std::string>{"<=1", ">1"}));
+  EXPECT_EQ(tied.variables()[1].levels, (std::vector<std::string>{"<=2", "(2,100]"}));
+  EXPECT_EQ(tied.notes().size(), 2u);
+  // A binned column with one value is a constant column.
+  options.bins = {parse_bin_spec("x=quantile:3")};
+  EXPECT_NE(error_of("x,l\n2,a\n2,b\n", options).find("column 'x' has a single level 'all'"),
+            std::string::npos);
+  // Cells of a binned column must be numbers.
+  options.bins = {parse_bin_spec("l=quantile:2")};
+  EXPECT_NE(error_of(text, options).find("in.csv:2: column 'l': 'a' is not a number (--bin)"),
+            std::string::npos);
+  for (const std::string bad : {"x", "x=quantile", "x=quantile:1", "x=quantile:2.5", "x=edges:3,2",
+                                "x=edges:", "x=edges:1,inf", "x=deciles:3", "=quantile:3"})
+    EXPECT_THROW(parse_bin_spec(bad), OptionError) << bad;
+  EXPECT_EQ(parse_bin_spec("a=b=edges:-1,1e3").column, "a=b");
+}
+
+TEST(Csv, CountColumnWeighsRows) {
+  // An aggregated table equals the table with each row repeated count times.
+  CsvOptions counted;
+  counted.count_column = "n";
+  const DataTable aggregated = parse_csv("a,b,n\nx,u,2\ny,u,0\ny,v,3\n", "agg.csv", counted);
+  const DataTable expanded = parse_csv("a,b\nx,u\nx,u\ny,v\ny,v\ny,v\n", "long.csv");
+  ASSERT_EQ(aggregated.num_rows(), 5u);
+  for (int v = 0; v < 2; ++v) {
+    EXPECT_EQ(aggregated.variables()[v].levels, expanded.variables()[v].levels);
+    EXPECT_EQ(labels_of(aggregated, v), labels_of(expanded, v));
+  }
+  EXPECT_NE(aggregated.notes().back().find("3 rows stand for 5 observations"), std::string::npos);
+  EXPECT_NE(error_of("a,b,n\nx,u,2\ny,v,-1\n", counted).find("whole numbers >= 0"),
+            std::string::npos);
+  EXPECT_NE(error_of("a,b,n\nx,u,1.5\ny,v,1\n", counted).find("whole numbers >= 0"),
+            std::string::npos);
+  EXPECT_NE(error_of("a,b,n\nx,u,z\ny,v,1\n", counted).find("(--count-column)"), std::string::npos);
 }
 
 TEST(Csv, MissingCellsNameLineAndColumn) {

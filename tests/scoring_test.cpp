@@ -1,7 +1,7 @@
 // From local scores to a table: structure priors (parent-count against the log binomial
 // coefficient of its definition, Friedman & Koller 2003; edge penalty), candidate parents (the
-// pairwise screen), forbidden and required edges and their file errors, the memory limit, and
-// bit-identical tables for any number of threads.
+// pairwise screen), forbidden and required edges and their file errors, the memory limit,
+// bit-identical tables for any number of threads, and BGe scores that do not depend on units.
 #include <gtest/gtest.h>
 #include <tbb/global_control.h>
 
@@ -207,6 +207,43 @@ TEST(Scoring, TablesAreBitIdenticalForAnyThreadCount) {
     expect_bit_identical(one, two);
     EXPECT_GT(one.total_parent_sets(), 20000u);
   }
+}
+
+// The largest relative difference between the local scores of two tables over the same sets.
+double largest_relative_difference(const ScoreTable& a, const ScoreTable& b) {
+  double worst = 0;
+  for (int v = 0; v < a.num_variables(); ++v) {
+    EXPECT_EQ(a.num_parent_sets(v), b.num_parent_sets(v));
+    for (std::size_t i = 0; i < a.num_parent_sets(v); ++i) {
+      EXPECT_EQ(a.parent_sets(v)[i], b.parent_sets(v)[i]);
+      const double x = a.log_scores(v)[i], y = b.log_scores(v)[i];
+      worst = std::max(worst, std::abs(x - y) / std::max(1.0, std::abs(x)));
+    }
+  }
+  return worst;
+}
+
+// Gaussian data are scale-free by default (BgeParameters::standardize): a column in other units
+// (x -> 1000 x + 7) gives the same local score for every node and parent set. With raw units
+// (the opt-out) the same change moves the scores, so the check can fail.
+TEST(Scoring, BgeScoresDoNotDependOnUnitsByDefault) {
+  const DataTable data = testing_util::random_gaussian_data(5, 200, 17);
+  std::vector<std::string> names;
+  std::vector<std::vector<double>> values;
+  for (int v = 0; v < data.num_variables(); ++v) {
+    names.push_back(data.name(v));
+    values.emplace_back(data.values(v).begin(), data.values(v).end());
+  }
+  for (double& x : values[2]) x = 1000 * x + 7;
+  const DataTable rescaled = DataTable::gaussian(names, values);
+  ScoreOptions options;
+  options.max_indegree = 4;
+  ASSERT_TRUE(options.bge.standardize);
+  EXPECT_LT(largest_relative_difference(score_data(data, options), score_data(rescaled, options)),
+            1e-10);
+  options.bge.standardize = false;
+  EXPECT_GT(largest_relative_difference(score_data(data, options), score_data(rescaled, options)),
+            1e-3);
 }
 
 TEST(Scoring, MemoryLimitStopsBeforeAllocating) {

@@ -1,6 +1,7 @@
 // `covey import-scores`, `covey export-scores` and `covey info`: moving score tables between
 // covey's HDF5 layout and the plain-text TSV format, and describing a table.
 #include <iostream>
+#include <variant>
 
 #include "command.hpp"
 #include "common.hpp"
@@ -56,25 +57,37 @@ void setup_info(CLI::App& app) {
     out["variables"] = nlohmann::json::array();
     for (int v = 0; v < table.num_variables(); ++v) {
       const Variable& var = table.variables()[v];
+      const auto became = attribute_string(m.parameters, "column:" + var.name);
       out["variables"].push_back(
           {{"name", var.name},
            {"kind", m.score == "imported" ? "imported" : to_string(var.kind)},
            {"levels", var.levels},
+           {"became", became ? *became : ""},
            {"candidate_parents", table.candidates(v).size()},
            {"parent_sets", table.num_parent_sets(v)}});
     }
+    const auto standardized = m.parameters.find("standardized");
+    if (standardized != m.parameters.end() && std::holds_alternative<bool>(standardized->second))
+      out["units"] = std::get<bool>(standardized->second)
+                         ? "standardized: each column scaled to mean 0 and standard deviation 1 "
+                           "before BGe"
+                         : "raw: columns scored in their own units (--raw-units)";
     if (*json) return print_json(out);
     std::cout << *input << ": " << table.num_variables() << " variables, "
               << table.total_parent_sets() << " parent sets, score " << m.score << ", prior "
               << m.prior << ", " << table.memory_bytes() / 1024.0 / 1024.0 << " MiB\n";
     if (m.num_rows >= 0)
       std::cout << "scored from " << m.num_rows << " rows of " << m.source << "\n";
-    if (!m.parameters.empty()) std::cout << "parameters: " << out["parameters"].dump() << "\n";
-    std::cout << "variable\tkind\tlevels\tcandidates\tparent_sets\n";
+    Attributes shown;  // the per-column phrases go into the table below
+    for (const auto& [key, value] : m.parameters)
+      if (key.rfind("column:", 0) != 0) shown.emplace(key, value);
+    if (!shown.empty()) std::cout << "parameters: " << attributes_to_json(shown).dump() << "\n";
+    if (out.contains("units")) std::cout << "units: " << out["units"].get<std::string>() << "\n";
+    std::cout << "variable\tkind\tlevels\tcandidates\tparent_sets\tbecame\n";
     for (const auto& v : out["variables"])
       std::cout << v["name"].get<std::string>() << '\t' << v["kind"].get<std::string>() << '\t'
                 << v["levels"].size() << '\t' << v["candidate_parents"] << '\t' << v["parent_sets"]
-                << '\n';
+                << '\t' << v["became"].get<std::string>() << '\n';
   });
 }
 

@@ -10,6 +10,24 @@ char* skip_bom(char* begin, char* end) {
   return end - begin >= 3 && std::memcmp(begin, "\xEF\xBB\xBF", 3) == 0 ? begin + 3 : begin;
 }
 
+char detect_delimiter(const char* begin, const char* end) {
+  const char* p = begin;
+  while (p < end && (*p == '\n' || *p == '\r' || is_blank(*p))) ++p;  // blank lines first
+  std::size_t comma = 0, semicolon = 0, tab = 0;
+  bool quoted = false;
+  for (; p < end; ++p) {
+    if (*p == '"') quoted = !quoted;
+    if (quoted) continue;
+    if (*p == '\n') break;
+    comma += *p == ',';
+    semicolon += *p == ';';
+    tab += *p == '\t';
+  }
+  if (semicolon > comma && semicolon >= tab) return ';';
+  if (tab > comma && tab > semicolon) return '\t';
+  return ',';
+}
+
 bool Tokenizer::next_row(std::vector<std::string>& fields, long& line) {
   Field f{};
   while (!at_end()) {

@@ -10,6 +10,10 @@ namespace covey::csv {
 // Past a UTF-8 byte-order mark at `begin`, if there is one.
 char* skip_bom(char* begin, char* end);
 
+// The delimiter of the first non-blank line of [begin, end): whichever of ',', ';' and tab occurs
+// most often outside quotes (',' on a tie or when none occurs). A one-column file has none.
+char detect_delimiter(const char* begin, const char* end);
+
 inline bool is_blank(char c) {
   return c == ' ' || c == '\t';
 }
@@ -39,13 +43,15 @@ struct Field {
   }
 };
 
-// Splits CSV text (RFC 4180: fields separated by commas, rows by LF or CRLF, a field may be
-// double-quoted with "" for a quote and line breaks inside) into rows and fields without
-// copying. Blanks around fields are dropped. Line numbers are physical file lines, for messages
+// Splits CSV text (RFC 4180: fields separated by commas, or by another delimiter such as ';' or
+// a tab, rows by LF or CRLF, a field may be double-quoted with "" for a quote and line breaks
+// inside) into rows and fields without copying. Blanks around fields are dropped (a tab is not a
+// blank when it is the delimiter). Line numbers are physical file lines, for messages
 // "NAME:LINE: ..." (InputError).
 class Tokenizer {
  public:
-  Tokenizer(char* begin, char* end, const std::string& name) : p_(begin), end_(end), name_(name) {}
+  Tokenizer(char* begin, char* end, const std::string& name, char delimiter = ',')
+      : p_(begin), end_(end), delimiter_(delimiter), name_(name) {}
 
   bool at_end() const { return p_ >= end_; }
   long line() const { return line_; }
@@ -55,7 +61,7 @@ class Tokenizer {
   // Reads the field at the cursor; returns true when it was the last field of its row (and then
   // consumes the line ending).
   [[gnu::always_inline]] bool next(Field& f) {
-    while (p_ < end_ && is_blank(*p_)) ++p_;
+    while (p_ < end_ && blank(*p_)) ++p_;
     f.escaped = false;
     if (p_ < end_ && *p_ == '"') {
       const long opened = line_;
@@ -76,17 +82,17 @@ class Tokenizer {
         ++p_;
       }
       f.end = p_++;
-      while (p_ < end_ && is_blank(*p_)) ++p_;
-      if (p_ < end_ && *p_ != ',' && *p_ != '\n' && *p_ != '\r') fail_text_after_quote();
+      while (p_ < end_ && blank(*p_)) ++p_;
+      if (p_ < end_ && *p_ != delimiter_ && *p_ != '\n' && *p_ != '\r') fail_text_after_quote();
     } else {
       f.quoted = false;
       f.begin = p_;
-      while (p_ < end_ && *p_ != ',' && *p_ != '\n' && *p_ != '\r') ++p_;
+      while (p_ < end_ && *p_ != delimiter_ && *p_ != '\n' && *p_ != '\r') ++p_;
       f.end = p_;
-      while (f.end > f.begin && is_blank(f.end[-1])) --f.end;
+      while (f.end > f.begin && blank(f.end[-1])) --f.end;
     }
     if (p_ >= end_) return true;
-    if (*p_ == ',') {
+    if (*p_ == delimiter_) {
       ++p_;
       return false;
     }
@@ -101,11 +107,13 @@ class Tokenizer {
   bool next_row(std::vector<std::string>& fields, long& line);
 
  private:
+  bool blank(char c) const { return c != delimiter_ && is_blank(c); }
   [[noreturn]] void fail_unclosed_quote(long opened) const;
   [[noreturn]] void fail_text_after_quote() const;
 
   char* p_;
   char* end_;
+  char delimiter_;
   long line_ = 1;
   std::string name_;  // the file, for messages
 };

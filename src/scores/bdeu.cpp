@@ -62,7 +62,7 @@ struct Workspace {
 class Bdeu final : public LocalScore {
  public:
   Bdeu(const DataTable& data, double ess) : data_(data), ess_(ess), rows_(data.num_rows()) {
-    if (data.kind() != VariableKind::kDiscrete)
+    if (data.kind() != VariableKind::kDiscrete || data.is_mixed())
       throw InputError("BDeu needs discrete data (the table holds Gaussian columns)");
     if (!(ess > 0) || !std::isfinite(ess)) throw OptionError("{ess} must be a positive number");
     for (int v = 0; v < data.num_variables(); ++v) {

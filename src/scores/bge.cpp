@@ -22,6 +22,7 @@
 #include <cmath>
 #include <numbers>
 
+#include "bge_internal.hpp"
 #include "covey/core/error.hpp"
 #include "covey/scores/scores.hpp"
 
@@ -47,7 +48,7 @@ namespace {
 class Bge final : public LocalScore {
  public:
   Bge(const DataTable& data, const BgeParameters& p) : n_(data.num_variables()) {
-    if (data.kind() != VariableKind::kGaussian)
+    if (data.kind() != VariableKind::kGaussian || data.is_mixed())
       throw InputError("BGe needs Gaussian data (the table holds discrete columns)");
     const double alpha_w = bge_alpha_w(p, n_);
     const double t = bge_t(p, n_);
@@ -58,12 +59,8 @@ class Bge final : public LocalScore {
     constant_.resize(n_);
     det_s_.resize(n_);
     det_y_.resize(n_);
-    int sign;
     for (int l = 0; l < n_; ++l) {
-      constant_[l] = 0.5 * std::log(p.alpha_mu / (rows + p.alpha_mu)) -
-                     0.5 * rows * std::log(std::numbers::pi) +
-                     lgamma_r((rows + a + l + 1) / 2, &sign) - lgamma_r((a + l + 1) / 2, &sign) +
-                     0.5 * (a + 2 * l + 1) * std::log(t);
+      constant_[l] = bge_detail::local_constant(rows, l, a, t, p.alpha_mu);
       det_s_[l] = 0.5 * (rows + a + l);
       det_y_[l] = 0.5 * (rows + a + l + 1);
     }
@@ -95,20 +92,8 @@ class Bge final : public LocalScore {
   void build_scale_matrix(const DataTable& data, bool standardize, double t) {
     const std::size_t rows = data.num_rows();
     std::vector<double> mean(n_), scale(n_, 1.0);
-    for (int v = 0; v < n_; ++v) {
-      long double sum = 0;
-      for (double x : data.values(v)) sum += x;
-      mean[v] = static_cast<double>(sum / rows);
-      if (standardize) {
-        long double ss = 0;
-        for (double x : data.values(v)) ss += (x - mean[v]) * (x - mean[v]);
-        const double sd = rows > 1 ? std::sqrt(static_cast<double>(ss / (rows - 1))) : 0.0;
-        if (!(sd > 0))
-          throw InputError("cannot standardize column '" + data.name(v) +
-                           "': it has no spread (constant or a single row)");
-        scale[v] = 1 / sd;
-      }
-    }
+    for (int v = 0; v < n_; ++v)
+      bge_detail::center_and_scale(data.values(v), standardize, data.name(v), mean[v], scale[v]);
     constexpr std::size_t kBlock = 2048;
     Eigen::MatrixXd sum = Eigen::MatrixXd::Zero(n_, n_);
     Eigen::MatrixXd block(kBlock, n_);

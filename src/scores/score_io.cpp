@@ -317,7 +317,12 @@ bool is_tsv_path(const std::string& path) {
 }  // namespace
 
 ScoreTable load_scores(const std::string& path) {
-  return is_tsv_path(path) ? read_scores_tsv(path) : read_scores_hdf5(path);
+  ScoreTable table = is_tsv_path(path) ? read_scores_tsv(path) : read_scores_hdf5(path);
+  // Every engine and chain assumes a network of two or more nodes.
+  if (table.num_variables() < 2)
+    throw InputError(path + ": a score table of " + std::to_string(table.num_variables()) +
+                     " variable; a network needs at least two variables");
+  return table;
 }
 
 void save_scores(const ScoreTable& table, const std::string& path) {

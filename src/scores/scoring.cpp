@@ -294,21 +294,36 @@ ScoreTable score_data(const DataTable& data, const ScoreOptions& options) {
   ScoreMetadata meta;
   meta.source = data.source();
   std::unique_ptr<LocalScore> score;
-  if (data.kind() == VariableKind::kDiscrete) {
+  auto bge_parameters = [&] {
+    const int n = static_cast<int>(
+        std::count_if(data.variables().begin(), data.variables().end(),
+                      [](const Variable& v) { return v.kind == VariableKind::kGaussian; }));
+    meta.parameters["alpha_mu"] = options.bge.alpha_mu;
+    meta.parameters["alpha_w"] = bge_alpha_w(options.bge, n);
+    meta.parameters["t"] = bge_t(options.bge, n);
+    meta.parameters["standardized"] = options.bge.standardize;
+  };
+  ScoreOptions scoring = options;
+  if (data.is_mixed()) {
+    score = make_conditional_gaussian(data, options.equivalent_sample_size, options.bge);
+    meta.score = "cg";
+    meta.parameters["equivalent_sample_size"] = options.equivalent_sample_size;
+    bge_parameters();
+    scoring.constraints = with_discrete_before_gaussian(options.constraints, data.variables());
+  } else if (data.kind() == VariableKind::kDiscrete) {
     score = make_bdeu(data, options.equivalent_sample_size);
     meta.score = "bdeu";
     meta.parameters["equivalent_sample_size"] = options.equivalent_sample_size;
   } else {
     score = make_bge(data, options.bge);
-    const int n = data.num_variables();
     meta.score = "bge";
-    meta.parameters["alpha_mu"] = options.bge.alpha_mu;
-    meta.parameters["alpha_w"] = bge_alpha_w(options.bge, n);
-    meta.parameters["t"] = bge_t(options.bge, n);
-    meta.parameters["standardized"] = options.bge.standardize;
+    bge_parameters();
   }
   meta.parameters["rows_dropped"] = static_cast<long long>(data.rows_dropped());
-  return compute_scores(*score, data.variables(), data.num_rows(), options, std::move(meta));
+  const std::vector<std::string>& origins = data.column_origins();
+  for (std::size_t v = 0; v < origins.size(); ++v)
+    meta.parameters["column:" + data.name(static_cast<int>(v))] = origins[v];
+  return compute_scores(*score, data.variables(), data.num_rows(), scoring, std::move(meta));
 }
 
 }  // namespace covey

@@ -1,5 +1,6 @@
 // libFuzzer target: the data CSV reader (parse_csv, the text entry point of read_csv), under
-// each column-kind choice and with incomplete rows dropped or refused.
+// each column-kind choice, with incomplete rows dropped or refused, and with a column named "a"
+// binned and a column named "n" read as counts.
 #include <cstddef>
 #include <cstdint>
 #include <string>
@@ -17,12 +18,15 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
                                  : covey::ColumnKindChoice::kGaussian;
   options.drop_incomplete = (mode & 0x10) != 0;
   options.allow_constant = (mode & 0x20) != 0;
+  if (mode & 0x40) options.bins = {covey::parse_bin_spec("a=quantile:3")};
+  if (mode & 0x80) options.count_column = "n";
+  options.memory_limit = std::uint64_t{1} << 28;  // counts can ask for much
   try {
     covey::DataTable table = covey::parse_csv(
         std::string(reinterpret_cast<const char*>(data + 1), size - 1), "fuzz.csv", options);
-    // A table that was accepted must be consistent.
+    // A table that was accepted must be consistent (column by column: a table may be mixed).
     for (int v = 0; v < table.num_variables(); ++v) {
-      if (table.kind() == covey::VariableKind::kDiscrete) {
+      if (table.variables()[v].kind == covey::VariableKind::kDiscrete) {
         if (table.codes(v).size() != table.num_rows()) __builtin_trap();
         for (auto c : table.codes(v))
           if (c >= table.num_levels(v)) __builtin_trap();

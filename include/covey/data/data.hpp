@@ -1,9 +1,13 @@
 #pragma once
 // Data tables for scoring: one column per variable, all columns of one kind. Discrete columns are
-// coded as small integers 0..r-1 over their levels (sorted, see sort_levels); Gaussian columns are
-// doubles. Columns are stored contiguously (column-major), which is the access pattern of scoring.
+// coded as small integers 0..r-1 over their levels (sorted, see sort_levels; binned columns in bin
+// order); Gaussian columns are doubles. Columns are stored contiguously (column-major), which is
+// the access pattern of scoring.
 //
-// CSV input (docs/file-formats.md): a header row of unique names, RFC 4180 quoting, LF or CRLF.
+// CSV input (docs/file-formats.md): a header row of unique names, RFC 4180 quoting, LF or CRLF,
+// ',' ';' or tab between fields; R's row-name column (an empty first name) is dropped. Per-column
+// choices: columns read as labels, numeric columns cut into bins, a count column (aggregated
+// tables: one row per cell, the count says how many observations it stands for).
 #include <cstddef>
 #include <cstdint>
 #include <span>
@@ -18,8 +22,26 @@ namespace covey {
 // forced for the whole table.
 enum class ColumnKindChoice { kInfer, kDiscrete, kGaussian };
 
+// How a numeric column is cut into discrete levels. Bins are right-closed: x <= e_1, e_1 < x <=
+// e_2, ..., x > e_last. Quantile edges are the empirical quantiles x_(ceil(k N / K)), k = 1..K-1
+// (repeated edges merged, so tied data may give fewer bins); fixed edges are given ascending.
+struct BinSpec {
+  enum class Rule { kQuantile, kEdges };
+  std::string column;
+  Rule rule = Rule::kQuantile;
+  int bins = 0;               // kQuantile: the number of bins asked for (2 or more)
+  std::vector<double> edges;  // kEdges: strictly ascending inner edges
+};
+// Parses "NAME=quantile:K" or "NAME=edges:E1,E2,..." (the text of --bin); throws OptionError
+// naming {bin}.
+BinSpec parse_bin_spec(const std::string& text);
+
 struct CsvOptions {
   ColumnKindChoice kind = ColumnKindChoice::kInfer;
+  char delimiter = 0;                           // ',', ';', '\t', ...; 0: detect from the header
+  std::vector<std::string> discrete_columns{};  // read as labels even when they hold numbers
+  std::vector<BinSpec> bins{};                  // numeric columns cut into discrete levels
+  std::string count_column{};                   // empty: none; else a column of row weights
   bool drop_incomplete = false;    // drop rows with a missing cell instead of refusing them
   bool allow_constant = false;     // keep discrete columns with a single level
   std::uint64_t memory_limit = 0;  // ceiling of the load's estimated memory; 0: the default
@@ -42,6 +64,13 @@ class DataTable {
   // A Gaussian table: values[v] holds one finite value per row.
   static DataTable gaussian(std::vector<std::string> names,
                             std::vector<std::vector<double>> values);
+  // A mixed table (both kinds present): variables[v].kind says whether codes[v] (discrete) or
+  // values[v] (Gaussian) holds column v; the other is empty. kind() is kDiscrete for it; ask
+  // is_mixed() first.
+  static DataTable mixed(std::vector<Variable> variables,
+                         std::vector<std::vector<std::uint16_t>> codes,
+                         std::vector<std::vector<double>> values);
+  bool is_mixed() const { return mixed_; }
 
   int num_variables() const { return static_cast<int>(variables_.size()); }
   std::size_t num_rows() const { return rows_; }
@@ -49,10 +78,10 @@ class DataTable {
   const std::vector<Variable>& variables() const { return variables_; }
   const std::string& name(int v) const { return variables_[v].name; }
 
-  // Discrete tables only.
+  // Discrete columns only.
   int num_levels(int v) const { return static_cast<int>(variables_[v].levels.size()); }
   std::span<const std::uint16_t> codes(int v) const { return codes_[v]; }
-  // Gaussian tables only.
+  // Gaussian columns only.
   std::span<const double> values(int v) const { return values_[v]; }
 
   // Where the table came from (file name) and how many incomplete rows were dropped on reading.
@@ -62,19 +91,34 @@ class DataTable {
     source_ = std::move(source);
     rows_dropped_ = rows_dropped;
   }
+  // What each column became, one phrase per variable (e.g. "numbers, binned into 3 quantile
+  // bins"), and notes for the user about the reading (a dropped row-name column, a 0/1 column
+  // scored as Gaussian, a discrete column with very many levels). Empty for tables not read from
+  // CSV.
+  const std::vector<std::string>& column_origins() const { return origins_; }
+  const std::vector<std::string>& notes() const { return notes_; }
+  void set_reading_report(std::vector<std::string> origins, std::vector<std::string> notes) {
+    origins_ = std::move(origins);
+    notes_ = std::move(notes);
+  }
 
  private:
   std::vector<Variable> variables_;
   VariableKind kind_ = VariableKind::kDiscrete;
+  bool mixed_ = false;
   std::size_t rows_ = 0;
   std::vector<std::vector<std::uint16_t>> codes_;
   std::vector<std::vector<double>> values_;
   std::string source_;
   std::size_t rows_dropped_ = 0;
+  std::vector<std::string> origins_;
+  std::vector<std::string> notes_;
 };
 
-// Reads a CSV file (the whole file at once). Throws InputError naming the file, line and column,
-// and ResourceError before reading when csv_load_bytes exceeds the memory limit.
+// Reads a CSV file (the whole file at once): a discrete, Gaussian or mixed table. Throws
+// InputError naming the file, line and column (also for a table of fewer than two variables or a
+// non-finite number), and ResourceError before reading when csv_load_bytes exceeds the memory
+// limit.
 DataTable read_csv(const std::string& path, const CsvOptions& options = {});
 // Parses CSV text; `name` stands for the file in messages.
 DataTable parse_csv(std::string text, const std::string& name, const CsvOptions& options = {});

@@ -15,7 +15,8 @@ ScoreTable read_scores_hdf5(const std::string& path);
 ScoreTable read_scores_tsv(const std::string& path);
 void write_scores_tsv(const ScoreTable& table, const std::string& path);  // atomic
 
-// Any score table a command accepts: `.tsv` (or `.txt`) as TSV, anything else as HDF5.
+// Any score table a command accepts: `.tsv` (or `.txt`) as TSV, anything else as HDF5; a table
+// of fewer than two variables is refused (InputError).
 ScoreTable load_scores(const std::string& path);
 // Writes by the same rule: `.tsv` (or `.txt`) as TSV, anything else as HDF5 (atomic).
 void save_scores(const ScoreTable& table, const std::string& path);

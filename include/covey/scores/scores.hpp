@@ -61,9 +61,25 @@ inline std::uint64_t bdeu_count_cells(std::size_t rows) {
 struct BgeParameters {
   double alpha_mu = 1.0;
   double alpha_w = std::numeric_limits<double>::quiet_NaN();  // NaN: n + 2
-  bool standardize = false;  // scale every column to mean 0, standard deviation 1 first
+  // Scale every column to mean 0 and standard deviation 1 first (the default): with the default
+  // prior T = t I, BGe is not invariant to units, so raw units would make the network depend on
+  // whether a column is in ppb or ppm (docs/mathematics.md, "BGe and units").
+  bool standardize = true;
 };
 std::unique_ptr<LocalScore> make_bge(const DataTable& data, const BgeParameters& parameters);
+// The conditional-Gaussian score of a mixed table (DataTable::is_mixed): discrete nodes by BDeu
+// (equivalent sample size `ess`) over the discrete columns; a Gaussian node by the sum, over the
+// observed configurations of its discrete parents, of the BGe local score given its Gaussian
+// parents on those rows (prior of the Gaussian columns alone: n = their number; columns
+// standardized over all rows unless parameters.standardize is false). Gaussian parents of
+// discrete nodes are not defined: see with_discrete_before_gaussian.
+std::unique_ptr<LocalScore> make_conditional_gaussian(const DataTable& data, double ess,
+                                                      const BgeParameters& parameters);
+// The constraints plus every Gaussian -> discrete edge forbidden (background knowledge of the
+// conditional-Gaussian score); throws InputError when such an edge is required.
+EdgeConstraints with_discrete_before_gaussian(EdgeConstraints constraints,
+                                              const std::vector<Variable>& variables);
+
 // The alpha_w and t a BGe score uses for n variables (resolving the default); throws InputError
 // unless alpha_mu > 0 and alpha_w > n + 1.
 double bge_alpha_w(const BgeParameters& parameters, int n);
@@ -118,7 +134,8 @@ ScoreTable compute_scores(const LocalScore& score, const std::vector<Variable>& 
                           std::size_t rows, const ScoreOptions& options, ScoreMetadata metadata);
 
 // The whole step from data: BDeu for discrete tables, BGe for Gaussian ones, metadata filled
-// (score, parameters, prior, max in-degree, rows, source, version; command line left to callers).
+// (score, parameters, prior, max in-degree, rows, source, version, and "column:NAME" = what each
+// column became on reading; command line left to callers).
 ScoreTable score_data(const DataTable& data, const ScoreOptions& options);
 
 }  // namespace covey
