@@ -176,6 +176,22 @@ TEST(Report, PageStatesVerdictCautionAndWorstFeatures) {
   EXPECT_EQ(ok.find("Not converged"), std::string::npos);
 }
 
+TEST(Report, VerdictUsesTheLibraryWordingWithItsCaveats) {
+  TempDir tmp;
+  // Three constant edges are undefined: the page counts them and never claims "All".
+  ReportData d = synthetic_report_data({.converged = true, .constant_features = 3});
+  d.run.chains = 1;
+  const VerdictText text = report_verdict_text(d);
+  write_report(d, tmp.file("r"));
+  const std::string html = read_file(tmp.file("r") + "/index.html");
+  EXPECT_EQ(html.find("All "), std::string::npos);
+  EXPECT_NE(html.find("not assessed (R-hat or bulk ESS undefined"), std::string::npos);
+  EXPECT_NE(html.find("R-hat: "), std::string::npos);
+  EXPECT_NE(html.find("tail ESS: "), std::string::npos);
+  ASSERT_FALSE(text.caveats.empty());
+  EXPECT_NE(html.find("split R-hat"), std::string::npos);
+}
+
 TEST(Report, ConsensusCycleIsDrawnAndNoted) {
   TempDir tmp;
   write_report(synthetic_report_data({.with_cycle = true}), tmp.file("r"));

@@ -9,6 +9,7 @@
 #include "command.hpp"
 #include "common.hpp"
 #include "core/mpi_context.hpp"
+#include "covey/analysis/check.hpp"
 #include "covey/chains/chain_runner.hpp"
 #include "covey/chains/chain_support.hpp"
 #include "covey/core/error.hpp"
@@ -90,7 +91,7 @@ const std::pair<const char*, const char*> kFixedOptions[] = {{"--chains", "chain
                                                              {"--block-size", "block_size"},
                                                              {"--block-rate", "block_rate"}};
 
-void print_text(const ChainRunSummary& s) {
+void print_text(const ChainRunSummary& s, const ChainRunOptions& o) {
   const nlohmann::json j = s.to_json();
   char line[256];
   std::snprintf(line, sizeof line,
@@ -113,11 +114,9 @@ void print_text(const ChainRunSummary& s) {
   if (s.counts.proposed[int(Move::kTeleport)] || j["regenerations"].get<std::uint64_t>())
     std::cout << "regenerations: " << j["regenerations"].get<std::uint64_t>() << "\n";
   if (s.convergence_checked) {
-    const auto& c = s.convergence;
-    std::snprintf(line, sizeof line,
-                  "convergence: %s (%zu edge features, max R-hat %.4f, min ESS %.0f)\n",
-                  c.converged ? "reached" : "not reached", c.features, c.max_rhat, c.min_ess);
-    std::cout << line;
+    const VerdictText text = stopping_verdict_text(s.convergence, o, s.chains);
+    std::cout << "convergence: " << text.outcome << "\n";
+    for (const std::string& caveat : text.caveats) std::cout << "  caveat: " << caveat << "\n";
   }
 }
 
@@ -182,7 +181,7 @@ void run_chain_command(CLI::App* cmd, const ChainArgs& a) {
   if (a.json)
     print_json(summary.to_json());
   else
-    print_text(summary);
+    print_text(summary, o);
 }
 
 void setup_chain(CLI::App& app) {

@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <array>
+#include <cctype>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
@@ -55,6 +56,17 @@ ConvergenceVerdict assess_convergence(const ReportData& data) {
   for (const ReportFeature& f : data.features)
     summaries.push_back({f.probability, f.rhat, f.ess_bulk, f.ess_tail, kUndefined, f.mcse});
   return judge(summaries, thresholds_of(data));
+}
+
+VerdictText report_verdict_text(const ReportData& data) {
+  VerdictContext context;
+  context.chains = data.run.chains;
+  context.draws = static_cast<std::size_t>(std::max<std::int64_t>(
+      0, data.run.draws_per_chain * static_cast<std::int64_t>(data.run.chains)));
+  for (const ReportFeature& f : data.features)
+    if (f.kind != FeatureKind::kScore && mcse_unreliable(f.probability, context.draws))
+      ++context.unreliable_mcse;
+  return verdict_text(assess_convergence(data), thresholds_of(data), context);
 }
 
 namespace {
@@ -463,6 +475,7 @@ h2 { font-size: 21px; margin: 0 0 14px; letter-spacing: -0.005em; }
   list-style: none; color: var(--muted); font-size: 15px; }
 .verdict .numbers b { color: var(--ink); font-variant-numeric: tabular-nums; }
 .verdict .rule { margin: 8px 0 0; color: var(--muted); font-size: 14.5px; }
+.verdict .measures { margin: 0 0 8px; font-size: 15px; font-variant-numeric: tabular-nums; }
 .caution { background: #fff7e6; border: 1px solid #f1c677; border-left: 8px solid var(--orange);
   border-radius: 14px; padding: 18px 24px; margin: 20px 0; }
 .caution h2 { font-size: 18px; margin: 0 0 6px; }
@@ -529,40 +542,37 @@ window.addEventListener('load', function () {
 
 std::string verdict_html(const ReportData& d, const ConvergenceVerdict& v) {
   using State = ConvergenceVerdict::State;
-  const std::string rule = "R-hat &lt; " + fixed(d.rhat_threshold, 2) +
-                           " and bulk and tail ESS &gt; " + fixed(d.ess_threshold, 0);
-  std::string cls, badge, summary;
+  std::string cls, badge;
   switch (v.state) {
     case State::kConverged:
       cls = "ok";
       badge = "\u2713 Converged";
-      summary =
-          "All " + grouped(static_cast<std::int64_t>(v.features)) + " features meet " + rule + ".";
       break;
     case State::kNotConverged:
       cls = "bad";
       badge = "\u2715 Not converged";
-      summary = "<b>" + grouped(static_cast<std::int64_t>(v.failing)) + " of " +
-                grouped(static_cast<std::int64_t>(v.features)) + " features</b> fail " + rule +
-                ". Run the chains longer, and see the worst features below.";
       break;
     case State::kUndetermined:
       cls = "unknown";
       badge = "? Not assessed";
-      summary = "No feature has a defined diagnostic, so convergence cannot be judged against " +
-                rule + ".";
       break;
   }
-  std::string out = "<section class=\"card verdict " + cls +
-                    "\" id=\"verdict\">\n<div class=\"badge\">" + badge +
-                    "</div>\n<div>\n<p class=\"summary\">" + summary + "</p>\n";
+  // The sentence is the library's, as `check` and `chain` print it, with a capital letter.
+  const VerdictText text = report_verdict_text(d);
+  std::string summary = text.outcome;
+  if (!summary.empty()) summary[0] = static_cast<char>(std::toupper(summary[0]));
+  if (v.state == State::kNotConverged)
+    summary += ". Run the chains longer, and see the worst features below";
+  std::string out =
+      "<section class=\"card verdict " + cls + "\" id=\"verdict\">\n<div class=\"badge\">" + badge +
+      "</div>\n<div>\n<p class=\"summary\">" + plot::markup_escape(summary) + ".</p>\n";
+  if (!text.measures.empty())
+    out += "<p class=\"measures\">" + plot::markup_escape(text.measures) + "</p>\n";
   out += "<ul class=\"numbers\"><li>max R-hat <b>" + rhat_text(v.max_rhat) +
          "</b></li><li>min bulk ESS <b>" + ess_text(v.min_ess_bulk) +
-         "</b></li><li>min tail ESS <b>" + ess_text(v.min_ess_tail) + "</b></li>";
-  if (v.undefined > 0)
-    out += "<li><b>" + grouped(static_cast<std::int64_t>(v.undefined)) + "</b> constant " +
-           (v.undefined == 1 ? "feature" : "features") + " (R-hat undefined)</li>";
-  out += "</ul>\n";
+         "</b></li><li>min tail ESS <b>" + ess_text(v.min_ess_tail) + "</b></li></ul>\n";
+  for (const std::string& caveat : text.caveats)
+    out += "<p class=\"rule caveat\">Caveat: " + plot::markup_escape(caveat) + ".</p>\n";
   if (!d.run.verdict.empty())
     out += "<p class=\"rule\">Stopping rule of the run: " + plot::markup_escape(d.run.verdict) +
            "</p>\n";

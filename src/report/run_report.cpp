@@ -8,7 +8,6 @@
 
 #include "covey/analysis/check.hpp"
 #include "covey/chains/structure_chain.hpp"
-#include "covey/core/enum_names.hpp"
 #include "covey/core/error.hpp"
 
 namespace covey {
@@ -108,17 +107,6 @@ ReportData report_data_from_runs(const std::vector<ChainRun>& runs, const RunFea
     data.cautions.push_back("Only " + std::to_string(d.chains) +
                             " chains: R-hat is more reliable with 4 or more.");
   return data;
-}
-
-namespace {
-constexpr EnumName<ConvergenceVerdict::State> kStateNames[] = {
-    {ConvergenceVerdict::State::kConverged, "converged"},
-    {ConvergenceVerdict::State::kNotConverged, "not converged"},
-    {ConvergenceVerdict::State::kUndetermined, "undetermined"}};
-}  // namespace
-
-const char* to_string(ConvergenceVerdict::State state) {
-  return enum_name(kStateNames, state, "undetermined");
 }
 
 Comparison compare_run_edges(const RunDiagnostics& d, const PosteriorEstimate& other,

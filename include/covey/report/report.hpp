@@ -85,6 +85,9 @@ struct ReportData {
 // rhat_threshold and ess_threshold.
 using ConvergenceVerdict = Verdict;
 ConvergenceVerdict assess_convergence(const ReportData& data);
+// The verdict in the one wording of covey (verdict_text in diagnostics.hpp), with the caveats
+// of the run's chains and of probabilities whose MCSE is unreliable.
+VerdictText report_verdict_text(const ReportData& data);
 
 // A feature's name for people, e.g. "smoker → cancer", "age — income", "log score".
 std::string feature_label(const ReportFeature& feature, const std::vector<std::string>& names);
