@@ -12,6 +12,7 @@
 
 #include "covey/core/atomic_file.hpp"
 #include "covey/core/error.hpp"
+#include "covey/report/plot.hpp"
 #include "image_check.hpp"
 #include "report_fixture.hpp"
 #include "test_util.hpp"
@@ -190,6 +191,29 @@ TEST(Report, VerdictUsesTheLibraryWordingWithItsCaveats) {
   EXPECT_NE(html.find("tail ESS: "), std::string::npos);
   ASSERT_FALSE(text.caveats.empty());
   EXPECT_NE(html.find("split R-hat"), std::string::npos);
+}
+
+TEST(Report, AnswersWhatTheNetworkIsAndTitlesTheComparison) {
+  TempDir tmp;
+  const ReportData d = synthetic_report_data();
+  write_report(d, tmp.file("r"));
+  const std::string html = read_file(tmp.file("r") + "/index.html");
+  // The most probable edge heads the table of links, with its probability and MCSE.
+  const ReportFeature* best = nullptr;
+  for (const auto& f : d.features)
+    if (f.kind == FeatureKind::kEdge && (!best || f.probability > best->probability)) best = &f;
+  ASSERT_NE(best, nullptr);
+  const auto section = html.find("id=\"network\"");
+  ASSERT_NE(section, std::string::npos);
+  const auto first_row = html.find("<tbody>", section);
+  const std::string label = plot::markup_escape(feature_label(*best, d.variables));
+  EXPECT_LT(html.find(label, first_row), html.find("</tr>", first_row));
+  EXPECT_NE(html.find("Adjacency (either direction)", section), std::string::npos);
+  // The comparison is titled by what it compares.
+  EXPECT_NE(html.find("<h2>Edge probabilities: " + plot::markup_escape(d.comparison->label_a) +
+                      " against "),
+            std::string::npos);
+  EXPECT_EQ(html.find("Restricted against unrestricted"), std::string::npos);
 }
 
 TEST(Report, ConsensusCycleIsDrawnAndNoted) {

@@ -168,8 +168,9 @@ void setup_check(CLI::App& app) {
   cmd->add_option("--top", options->top, "Features shown in the text output, worst first (0: all)")
       ->capture_default_str();
   cmd->add_flag("--draws", options->draws,
-                "Read FILES as CSV draws: a header with columns chain, iteration and one column "
-                "per quantity, then one row per draw");
+                "Read FILES as CSV draws: a header with columns chain, iteration (or R "
+                "posterior's .chain, .iteration, .draw) and one column per quantity, then one "
+                "row per draw");
   cmd->add_flag("--json", options->json,
                 "Print JSON (undefined values are null, infinite ones \"inf\")");
   cmd->add_flag("--strict", options->strict, "Exit with status 4 unless the verdict is converged");

@@ -179,8 +179,9 @@ std::string percent(double v) {
 
 // --- figures -----------------------------------------------------------------------------------
 
-constexpr int kPageFigureWidth = 930;  // content width of a card on a wide screen
-constexpr int kMaxIsolatedDrawn = 12;  // more variables without an edge are listed, not drawn
+constexpr int kPageFigureWidth = 930;      // content width of a card on a wide screen
+constexpr int kMaxIsolatedDrawn = 12;      // more variables without an edge are listed, not drawn
+constexpr std::size_t kTracePoints = 400;  // points per chain in the trace plot
 
 struct Figure {
   std::string id, heading;
@@ -213,13 +214,28 @@ Figure trace_figure(const ReportData& d, const std::string& dir) {
   lp.title = "Log score of the sampled DAGs, by chain";
   lp.x_label = "step";
   lp.y_label = "log score";
+  // Thousands of draws per chain drawn as lines fill the plot as a solid band: each chain is
+  // shown by the means of at most kTracePoints consecutive blocks of its draws, which keeps a
+  // trend, a climb from the start and a chain stuck apart visible.
+  std::size_t block = 1;
+  for (const ChainTrace& t : d.traces)
+    block = std::max(block, (t.log_scores.size() + kTracePoints - 1) / kTracePoints);
   for (std::size_t c = 0; c < d.traces.size(); ++c) {
     plot::Series s;
     s.name = "chain " + std::to_string(c + 1);
-    s.x.assign(d.traces[c].steps.begin(), d.traces[c].steps.end());
-    s.y = d.traces[c].log_scores;
+    const ChainTrace& t = d.traces[c];
+    for (std::size_t at = 0; at < t.log_scores.size(); at += block) {
+      const std::size_t end = std::min(t.log_scores.size(), at + block);
+      double sum = 0;
+      for (std::size_t i = at; i < end; ++i) sum += t.log_scores[i];
+      s.x.push_back(static_cast<double>(t.steps[end - 1]));
+      s.y.push_back(sum / static_cast<double>(end - at));
+    }
     lp.series.push_back(std::move(s));
   }
+  if (block > 1)
+    lp.title = "Log score of the sampled DAGs, by chain (means of " + std::to_string(block) +
+               " consecutive draws)";
   const plot::FigureSize size{900, 380};
   write_both(lp, dir, "trace", size);
   Figure f{"trace",
@@ -234,6 +250,9 @@ Figure trace_figure(const ReportData& d, const std::string& dir) {
       "<b>What to look for:</b> the chains overlap and wander around the same level, with no "
       "trend and no chain stuck apart from the others. An early climb is a chain leaving its "
       "starting graph.";
+  if (block > 1)
+    f.caption_html += " Each point is the mean log score of " + std::to_string(block) +
+                      " consecutive kept draws of its chain, so that the chains stay apart.";
   return f;
 }
 
@@ -419,7 +438,8 @@ Figure comparison_figure(const ReportData& d, const std::string& dir) {
   const plot::FigureSize size{640, 600};
   write_both(sp, dir, "comparison", size);
   Figure f{"comparison",
-           "Restricted against unrestricted",
+           cmp.title.empty() ? "Edge probabilities: " + cmp.label_a + " against " + cmp.label_b
+                             : cmp.title,
            "comparison.png",
            {{"SVG", "comparison.svg"}},
            size.width,
@@ -673,6 +693,47 @@ std::string worst_features_html(const ReportData& d, const ConvergenceVerdict& v
   return out + "</p>\n</section>\n";
 }
 
+// The most probable features of one kind, with their MCSE: what the network is, as numbers.
+std::string probable_rows(const ReportData& d, FeatureKind kind, std::size_t shown) {
+  std::vector<const ReportFeature*> order;
+  for (const auto& f : d.features)
+    if (f.kind == kind && !std::isnan(f.probability)) order.push_back(&f);
+  std::stable_sort(order.begin(), order.end(), [](const ReportFeature* a, const ReportFeature* b) {
+    return a->probability > b->probability;
+  });
+  std::string out;
+  for (std::size_t i = 0; i < std::min(shown, order.size()); ++i) {
+    const ReportFeature& f = *order[i];
+    out += "<tr><td>" + plot::markup_escape(feature_label(f, d.variables)) + "</td><td>" +
+           fixed(f.probability, 3) +
+           "<span class=\"bar\"><span style=\"width:" + fixed(100 * f.probability, 1) +
+           "%\"></span></span></td><td>" + mcse_text(f.mcse) + "</td></tr>\n";
+  }
+  return out;
+}
+
+std::string network_html(const ReportData& d) {
+  constexpr std::size_t kShown = 15;
+  const std::string edges = probable_rows(d, FeatureKind::kEdge, kShown);
+  const std::string adjacencies = probable_rows(d, FeatureKind::kAdjacency, kShown);
+  if (edges.empty() && adjacencies.empty()) return "";
+  std::string out = "<section class=\"card\" id=\"network\">\n<h2>The most probable links</h2>\n";
+  const auto table = [&](const char* label, const std::string& rows) {
+    if (rows.empty()) return;
+    out += "<table aria-label=\"" + std::string(label) + "\">\n<thead><tr><th>" + label +
+           "</th><th>Posterior probability</th><th>MCSE</th></tr></thead>\n<tbody>\n" + rows +
+           "</tbody>\n</table>\n";
+  };
+  table("Directed edge", edges);
+  table("Adjacency (either direction)", adjacencies);
+  out +=
+      "<p class=\"note\">The " + std::to_string(kShown) +
+      " most probable of each kind. An adjacency far more probable than either of its edges is a "
+      "link whose direction the data leave open. MCSE is the Monte Carlo standard error of the "
+      "probability; one within 1/draws of 0 or 1 is unreliable.</p>\n";
+  return out + "</section>\n";
+}
+
 std::string figure_html(const Figure& f) {
   std::string out = "<section class=\"card\" id=\"" + f.id + "\">\n<h2>" +
                     plot::markup_escape(f.heading) + "</h2>\n<figure>\n";
@@ -700,7 +761,10 @@ std::string page_html(const ReportData& d, const ConvergenceVerdict& v,
   out += "<header>\n<h1>" + plot::markup_escape(d.title) + "</h1>\n<p class=\"source\">";
   if (!d.source.empty()) out += "From <code>" + plot::markup_escape(d.source) + "</code> · ";
   out += "covey " + std::string(kVersion) + "</p>\n<nav aria-label=\"sections\">";
-  out += "<a href=\"#verdict\">Verdict</a><a href=\"#run\">Run</a>";
+  const std::string network = network_html(d);
+  out += "<a href=\"#verdict\">Verdict</a>";
+  if (!network.empty()) out += "<a href=\"#network\">Most probable links</a>";
+  out += "<a href=\"#run\">Run</a>";
   for (const auto& f : figures) {
     out += "<a href=\"#" + f.id + "\">" + plot::markup_escape(f.heading) + "</a>";
     if (f.id == "ess") out += "<a href=\"#worst\">Worst features</a>";
@@ -708,6 +772,7 @@ std::string page_html(const ReportData& d, const ConvergenceVerdict& v,
   out += "</nav>\n</header>\n";
   out += verdict_html(d, v);
   out += caution_html(d);
+  out += network;
   out += run_html(d);
   bool worst_written = false;
   for (const auto& f : figures) {

@@ -52,10 +52,24 @@ RunFacts run_facts(const std::vector<ChainRun>& runs, const RunDiagnostics& d) {
   std::snprintf(buffer, sizeof buffer, "%.1f s", seconds);
   facts.extra.push_back({"sampling time (all files)", buffer});
   facts.extra.push_back({"run files", std::to_string(runs.size())});
+  // The options as people read them; a bound of -1 (off) is left out rather than shown as a
+  // raw value.
   const auto& o = runs.front().options();
-  for (const char* key : {"thin", "burn_in", "seed", "rev_rate", "teleport_rate", "teleport_cover",
-                          "cover_limit", "start"})
-    if (o.contains(key)) facts.extra.push_back({key, option_text(o[key])});
+  static const std::pair<const char*, const char*> kShown[] = {
+      {"thin", "thinning (kept every)"},
+      {"burn_in", "burn-in steps"},
+      {"seed", "seed"},
+      {"start", "start"},
+      {"rev_rate", "REV move rate"},
+      {"teleport_rate", "teleport rate"},
+      {"teleport_cover", "teleports from D_k, k"},
+      {"cover_limit", "restricted to D_k, k"}};
+  for (const auto& [key, label] : kShown) {
+    if (!o.contains(key)) continue;
+    const bool off = o[key].is_number() && o[key].get<double>() < 0;
+    const bool unused_rate = std::string(key) == "teleport_rate" && !teleports;
+    if (!off && !unused_rate) facts.extra.push_back({label, option_text(o[key])});
+  }
   return facts;
 }
 
@@ -153,6 +167,8 @@ ReportData run_report_data(const RunReportRequest& request) {
   data.consensus_threshold = request.consensus;
   if (other) {
     data.comparison = compare_run_edges(d, *other, "chain run (" + request.runs.front() + ")");
+    data.comparison->title =
+        "Edge probabilities: " + data.comparison->label_a + " against " + data.comparison->label_b;
     if (other->source() == PosteriorSource::kCoverDraws)
       data.cautions.push_back(
           "The comparison's second posterior is restricted to the DAGs whose moral graph has "

@@ -46,6 +46,7 @@ struct ComparisonPair {
 // Two estimates of the same edge probabilities, e.g. the restricted class D_k (exact) against
 // the unrestricted chains.
 struct Comparison {
+  std::string title;  // the section heading, naming what is compared ("" : from the labels)
   std::string label_a, label_b;  // axis labels, e.g. "exact, cover-bounded class (k = 2)"
   std::vector<ComparisonPair> pairs;
 };
