@@ -8,7 +8,9 @@
 
 #include <filesystem>
 #include <fstream>
+#include <map>
 #include <set>
+#include <sstream>
 
 #include "covey/core/atomic_file.hpp"
 #include "covey/core/error.hpp"
@@ -336,21 +338,56 @@ std::string chromium(const std::string& arguments, const std::string& profile) {
          profile + "/profile' " + arguments;
 }
 
-std::pair<int, int> images_loaded(const std::string& page, const std::string& profile) {
+// The counts the page's own script writes as attributes of <body> once loaded (-1: absent),
+// in a window `width` px wide.
+std::map<std::string, int> page_checks(const std::string& page, const std::string& profile,
+                                       int width = 1280) {
   const auto r =
-      run_shell(chromium("--virtual-time-budget=5000 --dump-dom 'file://" + page + "'", profile));
+      run_shell(chromium("--virtual-time-budget=5000 --window-size=" + std::to_string(width) +
+                             ",1200 --dump-dom 'file://" + page + "'",
+                         profile));
   EXPECT_EQ(r.exit_code, 0) << r.err;
-  // The page's own script writes the counts as attributes of <body>.
-  auto attribute = [&](const std::string& name) {
-    const std::string key = name + "=\"";
+  std::map<std::string, int> checks;
+  for (const char* name :
+       {"data-images-loaded", "data-images-total", "data-figures-clipped", "data-page-overflow"}) {
+    const std::string key = std::string(name) + "=\"";
     const auto at = r.out.find(key);
-    if (at == std::string::npos) return -1;
-    return std::atoi(r.out.c_str() + at + key.size());
-  };
-  const int loaded = attribute("data-images-loaded"), total = attribute("data-images-total");
-  EXPECT_TRUE(loaded >= 0 && total >= 0) << "the page's image check did not run; DOM:\n"
-                                         << r.out.substr(0, 2000);
-  return {loaded, total};
+    checks[name] = at == std::string::npos ? -1 : std::atoi(r.out.c_str() + at + key.size());
+    EXPECT_GE(checks[name], 0) << "the page's check did not run; DOM:\n" << r.out.substr(0, 2000);
+  }
+  return checks;
+}
+
+std::pair<int, int> images_loaded(const std::string& page, const std::string& profile) {
+  const auto checks = page_checks(page, profile);
+  return {checks.at("data-images-loaded"), checks.at("data-images-total")};
+}
+
+// Whether every node box of a graphviz SVG lies inside its viewBox, by Python's xml.etree: the
+// node shapes' coordinates, moved by the graph's translate(), against the viewBox.
+testing_util::CommandResult node_boxes_inside_view_box(const std::string& svg) {
+  const std::string script =
+      "import re, sys, xml.etree.ElementTree as E\n"
+      "root = E.parse(sys.argv[1]).getroot()\n"
+      "x0, y0, w, h = map(float, root.get('viewBox').split())\n"
+      "ns = '{http://www.w3.org/2000/svg}'\n"
+      "graph = root.find(ns + 'g')\n"
+      "tx, ty = map(float, re.search(r'translate\\(([-\\d.]+) ([-\\d.]+)\\)', "
+      "graph.get('transform')).groups())\n"
+      "bad = 0; nodes = 0\n"
+      "for g in graph.iter(ns + 'g'):\n"
+      "    if g.get('class') != 'node': continue\n"
+      "    nodes += 1\n"
+      "    for shape in g:\n"
+      "        text = shape.get('points') or shape.get('d') or ''\n"
+      "        xy = [float(v) for v in re.findall(r'-?\\d+(?:\\.\\d+)?', text)]\n"
+      "        for x, y in zip(xy[0::2], xy[1::2]):\n"
+      "            if not (x0 <= x + tx <= x0 + w and y0 <= y + ty <= y0 + h): bad += 1\n"
+      "print(nodes, bad)\n"
+      "sys.exit(1 if bad or not nodes else 0)\n";
+  const std::string path = svg + ".check.py";
+  testing_util::write_file(path, script);
+  return run_shell(std::string(COVEY_REFERENCE_PYTHON) + " '" + path + "' '" + svg + "'");
 }
 
 TEST(ReportInBrowser, ChromiumLoadsEveryImageAndDrawsThePage) {
@@ -385,6 +422,46 @@ TEST(ReportInBrowser, ChromiumLoadsEveryImageAndDrawsThePage) {
   EXPECT_GT(testing_util::count_pixels_near(shot, 0xd55e00, 20, 0, 0, 1, 0.2), 2000u);
   if (const char* keep = std::getenv("COVEY_KEEP_SCREENSHOT"))
     fs::copy_file(shot, keep, fs::copy_options::overwrite_existing);
+}
+
+// Thirty variables: the page is no wider than the window, every figure (the consensus graph
+// included) fits its card, and the consensus SVG holds every node box inside its viewBox.
+TEST(ReportInBrowser, ThirtyVariablesFitThePage) {
+  ASSERT_TRUE(fs::exists(COVEY_CHROMIUM)) << "chromium not found";
+  TempDir tmp;
+  const std::string dir = tmp.file("report");
+  ReportData d = synthetic_report_data({.variables = 30, .converged = false});
+  d.variables[7] = "grade";  // the demo's name that was clipped
+  write_report(d, dir);
+  for (int width : {1280, 800}) {
+    const auto checks = page_checks(dir + "/index.html", tmp.path(), width);
+    EXPECT_EQ(checks.at("data-images-loaded"), checks.at("data-images-total")) << width;
+    EXPECT_EQ(checks.at("data-figures-clipped"), 0) << width;
+    EXPECT_EQ(checks.at("data-page-overflow"), 0) << width;
+  }
+  const auto inside = node_boxes_inside_view_box(dir + "/consensus.svg");
+  EXPECT_EQ(inside.exit_code, 0) << inside.out << inside.err;
+  EXPECT_NE(inside.out.find("30 0"), std::string::npos) << inside.out;  // all 30 nodes drawn
+
+  // Controls: figures at their natural size stick out of their cards, and a viewBox cut in
+  // half leaves node boxes outside, so both checks can fail.
+  fs::copy(dir, tmp.file("natural"));
+  const std::string page = tmp.file("natural") + "/index.html";
+  std::string html = read_file(page);
+  html.replace(html.find("</style>"), 0, "figure img { max-width: none !important; }");
+  testing_util::write_file(page, html);
+  EXPECT_GT(page_checks(page, tmp.path()).at("data-figures-clipped"), 0);
+  std::string svg = read_file(dir + "/consensus.svg");
+  const auto at = svg.find("viewBox=\"0.00 0.00 ");
+  ASSERT_NE(at, std::string::npos);
+  const auto end = svg.find('"', at + 9);
+  std::istringstream box(svg.substr(at + 9, end - at - 9));
+  double x0, y0, w, h;
+  box >> x0 >> y0 >> w >> h;
+  svg.replace(at, end - at + 1,
+              "viewBox=\"0 0 " + std::to_string(w / 2) + " " + std::to_string(h / 2) + "\"");
+  testing_util::write_file(tmp.file("cut.svg"), svg);
+  EXPECT_NE(node_boxes_inside_view_box(tmp.file("cut.svg")).exit_code, 0);
 }
 
 }  // namespace

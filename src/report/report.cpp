@@ -395,6 +395,11 @@ Figure consensus_figure(const ReportData& d, const std::string& dir, const Conse
                    ", each labelled with it; thicker means more probable. It summarises the "
                    "edge marginals one at a time and need not be the most probable DAG. Dashed "
                    "boxes are variables without a consensus edge.";
+  if (!g.undirected.empty())
+    f.caption_html +=
+        " Dashed orange lines without arrowheads are links whose direction is uncertain: the "
+        "two variables are adjacent with the probability shown, but neither direction alone "
+        "passes the threshold.";
   if (g.edges.empty()) f.caption_html += " <b>No edge passes the threshold.</b>";
   const std::vector<int> isolated = isolated_variables(g);
   if (static_cast<int>(isolated.size()) > kMaxIsolatedDrawn) {
@@ -526,8 +531,7 @@ td.fail { color: var(--vermillion); font-weight: 700; }
 .note { color: var(--muted); font-size: 14.5px; margin: 10px 0 0; }
 figure { margin: 0; }
 figure img { display: block; max-width: 100%; height: auto; margin: 0 auto; border-radius: 6px; }
-.scroll { overflow-x: auto; }
-.scroll.wide img { max-width: none; margin: 0; }
+.fit { overflow: hidden; }
 figcaption { color: var(--muted); font-size: 15px; margin-top: 12px; }
 figcaption b { color: var(--ink); }
 figcaption .files { display: block; margin-top: 6px; font-size: 13.5px; }
@@ -557,6 +561,20 @@ window.addEventListener('load', function () {
   }
   document.body.setAttribute('data-images-loaded', String(loaded));
   document.body.setAttribute('data-images-total', String(images.length));
+  // Figures sticking out of their card's content box, and a page wider than the window: both mean something
+  // is cut off or needs sideways scrolling.
+  var clipped = 0;
+  for (var j = 0; j < images.length; j++) {
+    var card = images[j].closest('section'), box = images[j].getBoundingClientRect();
+    if (!card || box.width === 0) continue;
+    var frame = card.getBoundingClientRect(), style = getComputedStyle(card);
+    var left = frame.left + parseFloat(style.borderLeftWidth) + parseFloat(style.paddingLeft);
+    var right = frame.right - parseFloat(style.borderRightWidth) - parseFloat(style.paddingRight);
+    if (box.left < left - 0.5 || box.right > right + 0.5) clipped++;
+  }
+  document.body.setAttribute('data-figures-clipped', String(clipped));
+  document.body.setAttribute('data-page-overflow', String(
+    Math.max(0, document.documentElement.scrollWidth - document.documentElement.clientWidth)));
 });
 )JS";
 
@@ -737,9 +755,9 @@ std::string network_html(const ReportData& d) {
 std::string figure_html(const Figure& f) {
   std::string out = "<section class=\"card\" id=\"" + f.id + "\">\n<h2>" +
                     plot::markup_escape(f.heading) + "</h2>\n<figure>\n";
-  // A figure wider than the page (a large consensus graph) scrolls rather than shrinking its
-  // text out of legibility.
-  out += f.width > kPageFigureWidth ? "<div class=\"scroll wide\">" : "<div class=\"scroll\">";
+  // Every figure fits its card: a wider one (a large consensus graph) is scaled down to the
+  // card's width, and its caption points to the full-size SVG.
+  out += "<div class=\"fit\">";
   out += "<a href=\"" + f.links.front().second + "\"><img src=\"" + f.png + "\" width=\"" +
          std::to_string(f.width) + "\" height=\"" + std::to_string(f.height) + "\" alt=\"" +
          plot::markup_escape(f.alt) + "\"></a></div>\n";
@@ -747,7 +765,10 @@ std::string figure_html(const Figure& f) {
   for (std::size_t i = 0; i < f.links.size(); ++i)
     out += (i ? " · " : "") + std::string("<a href=\"") + f.links[i].second + "\">" +
            plot::markup_escape(f.links[i].first) + "</a>";
-  out += " · <a href=\"" + f.png + "\">PNG</a></span></figcaption>\n</figure>\n</section>\n";
+  out += " · <a href=\"" + f.png + "\">PNG</a>";
+  if (f.width > kPageFigureWidth)
+    out += " (scaled down to fit the page; the SVG zooms without loss)";
+  out += "</span></figcaption>\n</figure>\n</section>\n";
   return out;
 }
 
