@@ -399,7 +399,8 @@ TEST(ReportCommand, WritesThePageWithComparisonAndRefusesForeignFolders) {
   EXPECT_EQ(j["page"], out + "/index.html");
   const std::string html = testing_util::read_file(out + "/index.html");
   for (const char* part : {"trace.png", "rhat.png", "ess.png", "edges.png", "consensus.png",
-                           "comparison.png", "not proven cause", "vertex cover of at most 2"})
+                           "comparison.png", "not proven cause", "vertex cover of at most 2",
+                           "feature-trace-1.png", "feature-trace-3.png", "The most probable links"})
     EXPECT_NE(html.find(part), std::string::npos) << part;
   // No internal values: the unset cover limit (-1) and raw option keys are not shown.
   EXPECT_EQ(html.find(">-1<"), std::string::npos);

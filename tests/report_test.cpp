@@ -218,6 +218,29 @@ TEST(Report, AnswersWhatTheNetworkIsAndTitlesTheComparison) {
   EXPECT_EQ(html.find("Restricted against unrestricted"), std::string::npos);
 }
 
+TEST(Report, WorstFeaturesAreDrawnByChainAndBadTracesRefused) {
+  TempDir tmp;
+  ReportData d = synthetic_report_data();
+  FeatureTrace trace;
+  trace.feature = 5;
+  trace.chains = {{{10, 20, 30}, {0.0, 0.5, 0.33}}, {{10, 20, 30}, {1.0, 1.0, 0.67}}};
+  d.feature_traces = {trace};
+  write_report(d, tmp.file("r"));
+  const std::string html = read_file(tmp.file("r") + "/index.html");
+  EXPECT_NE(html.find("feature-trace-1.png"), std::string::npos);
+  EXPECT_NE(html.find("Running probability of " +
+                      plot::markup_escape(feature_label(d.features[5], d.variables))),
+            std::string::npos);
+  EXPECT_GT(testing_util::png_stats(tmp.file("r") + "/feature-trace-1.png").luminance_variance,
+            50.0);
+  d.feature_traces[0].feature = d.features.size();
+  EXPECT_THROW(write_report(d, tmp.file("r2")), InputError);
+  d.feature_traces[0].feature = 5;
+  d.feature_traces[0].chains[1].running_mean.pop_back();
+  EXPECT_THROW(write_report(d, tmp.file("r2")), InputError);
+  EXPECT_FALSE(fs::exists(tmp.file("r2")));
+}
+
 TEST(Report, ConsensusCycleIsDrawnAndNoted) {
   TempDir tmp;
   write_report(synthetic_report_data({.with_cycle = true}), tmp.file("r"));

@@ -88,6 +88,15 @@ void validate(const ReportData& d) {
                        std::to_string(f.to) + ", outside 0.." + std::to_string(n - 1) +
                        " or equal");
   }
+  for (const FeatureTrace& t : d.feature_traces) {
+    if (t.feature >= d.features.size())
+      throw InputError("report: a feature trace names feature " + std::to_string(t.feature) +
+                       " of " + std::to_string(d.features.size()));
+    for (const FeatureTrace::Chain& c : t.chains)
+      if (c.steps.size() != c.running_mean.size())
+        throw InputError("report: a feature trace has " + std::to_string(c.steps.size()) +
+                         " step numbers but " + std::to_string(c.running_mean.size()) + " values");
+  }
   for (std::size_t c = 0; c < d.traces.size(); ++c)
     if (d.traces[c].steps.size() != d.traces[c].log_scores.size())
       throw InputError("report: chain " + std::to_string(c + 1) + " has " +
@@ -253,6 +262,42 @@ Figure trace_figure(const ReportData& d, const std::string& dir) {
   if (block > 1)
     f.caption_html += " Each point is the mean log score of " + std::to_string(block) +
                       " consecutive kept draws of its chain, so that the chains stay apart.";
+  return f;
+}
+
+Figure feature_trace_figure(const ReportData& d, const std::string& dir, std::size_t k) {
+  const FeatureTrace& t = d.feature_traces[k];
+  const ReportFeature& feature = d.features[t.feature];
+  const std::string label = feature_label(feature, d.variables);
+  plot::LinePlot lp;
+  lp.title = "Running probability of " + label + ", by chain";
+  lp.x_label = "step";
+  lp.y_label = "probability so far";
+  for (std::size_t c = 0; c < t.chains.size(); ++c) {
+    plot::Series s;
+    s.name = "chain " + std::to_string(c + 1);
+    s.x.assign(t.chains[c].steps.begin(), t.chains[c].steps.end());
+    s.y = t.chains[c].running_mean;
+    lp.series.push_back(std::move(s));
+  }
+  const plot::FigureSize size{900, 300};
+  const std::string base = "feature-trace-" + std::to_string(k + 1);
+  write_both(lp, dir, base, size);
+  Figure f{base,
+           "Worst feature " + std::to_string(k + 1) + " by chain",
+           base + ".png",
+           {{"SVG", base + ".svg"}},
+           size.width,
+           size.height,
+           "Running probability of " + label + " in each chain against the step number",
+           ""};
+  f.caption_html =
+      "<b>What to look for:</b> the chains' lines meet at one value. Lines that stay apart are "
+      "chains that disagree about <b>" +
+      plot::markup_escape(label) + "</b> (R-hat " + rhat_text(feature.rhat) + ", bulk ESS " +
+      ess_text(feature.ess_bulk) +
+      "); a line that jumps in steps is a chain that rarely changes "
+      "this feature. Each point is the share of the chain's draws so far that hold it.";
   return f;
 }
 
@@ -787,6 +832,10 @@ std::string page_html(const ReportData& d, const ConvergenceVerdict& v,
   if (!network.empty()) out += "<a href=\"#network\">Most probable links</a>";
   out += "<a href=\"#run\">Run</a>";
   for (const auto& f : figures) {
+    if (f.id.rfind("feature-trace-", 0) == 0) {  // one link for the worst features' traces
+      if (f.id == "feature-trace-1") out += "<a href=\"#" + f.id + "\">Worst features by chain</a>";
+      continue;
+    }
     out += "<a href=\"#" + f.id + "\">" + plot::markup_escape(f.heading) + "</a>";
     if (f.id == "ess") out += "<a href=\"#worst\">Worst features</a>";
   }
@@ -825,6 +874,8 @@ void write_report(const ReportData& data, const std::string& dir) {
     figures.push_back(rhat_figure(data, tmp, verdict));
     figures.push_back(ess_figure(data, tmp));
   }
+  for (std::size_t k = 0; k < data.feature_traces.size(); ++k)
+    figures.push_back(feature_trace_figure(data, tmp, k));
   if (!data.edge_probability.empty() && !data.variables.empty()) {
     figures.push_back(heat_map_figure(data, tmp));
     const ConsensusGraph graph =

@@ -2,7 +2,8 @@
 // covey's visual report: one folder holding index.html (self-contained: inline CSS, no network)
 // and the figures it shows (PNG, with the SVG and the consensus DOT beside them). The page
 // leads with the convergence verdict and a caution about reading structure as cause, then the
-// run facts, trace plot, R-hat and ESS distributions, the worst features, the edge-probability
+// run facts, trace plot, R-hat and ESS distributions, the worst features and their running
+// probabilities by chain, the edge-probability
 // heat map, the consensus DAG and, when given, the comparison of two posteriors edge by edge.
 //
 // ReportData is a plain in-memory model: whoever reads a run's files fills it. Undefined values
@@ -35,6 +36,18 @@ struct ReportFeature {
 struct ChainTrace {
   std::vector<std::int64_t> steps;  // step number of each kept draw
   std::vector<double> log_scores;   // log w(G) of each kept draw (same length)
+};
+
+// One feature's indicator as each chain saw it: its running mean (the probability estimated from
+// that chain's draws up to each point). Chains settling on different values show a feature that
+// has not mixed.
+struct FeatureTrace {
+  std::size_t feature = 0;  // index into ReportData::features
+  struct Chain {
+    std::vector<std::int64_t> steps;   // step number of each point
+    std::vector<double> running_mean;  // same length
+  };
+  std::vector<Chain> chains;
 };
 
 struct ComparisonPair {
@@ -72,6 +85,7 @@ struct ReportData {
   std::vector<std::string> variables;
   std::vector<ChainTrace> traces;  // one per chain
   std::vector<ReportFeature> features;
+  std::vector<FeatureTrace> feature_traces;           // the worst features, each drawn by chain
   std::vector<std::vector<double>> edge_probability;  // [from][to], n x n (diagonal NaN) or empty
   std::optional<Comparison> comparison;
   RunFacts run;
