@@ -456,12 +456,11 @@ TEST(ReportInBrowser, ThirtyVariablesFitThePage) {
   ReportData d = synthetic_report_data({.variables = 30, .converged = false});
   d.variables[7] = "grade";  // the demo's name that was clipped
   write_report(d, dir);
-  for (int width : {1280, 800}) {
-    const auto checks = page_checks(dir + "/index.html", tmp.path(), width);
-    EXPECT_EQ(checks.at("data-images-loaded"), checks.at("data-images-total")) << width;
-    EXPECT_EQ(checks.at("data-figures-clipped"), 0) << width;
-    EXPECT_EQ(checks.at("data-page-overflow"), 0) << width;
-  }
+  // A window narrower than the 980 px page: what fits here fits on a wider screen.
+  const auto checks = page_checks(dir + "/index.html", tmp.path(), 800);
+  EXPECT_EQ(checks.at("data-images-loaded"), checks.at("data-images-total"));
+  EXPECT_EQ(checks.at("data-figures-clipped"), 0);
+  EXPECT_EQ(checks.at("data-page-overflow"), 0);
   const auto inside = node_boxes_inside_view_box(dir + "/consensus.svg");
   EXPECT_EQ(inside.exit_code, 0) << inside.out << inside.err;
   EXPECT_NE(inside.out.find("30 0"), std::string::npos) << inside.out;  // all 30 nodes drawn

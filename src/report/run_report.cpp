@@ -169,7 +169,7 @@ ReportData report_data_from_runs(const std::vector<ChainRun>& runs, const RunFea
     data.cautions.push_back(std::to_string(verdict.failing) +
                             " features fail the convergence thresholds: the probabilities "
                             "shown are not yet reliable; run the chains longer.");
-  if (d.chains < 4)
+  if (d.chains >= 2 && d.chains < 4)  // one chain: the verdict's own caveat says more
     data.cautions.push_back("Only " + std::to_string(d.chains) +
                             " chains: R-hat is more reliable with 4 or more.");
   return data;
