@@ -38,24 +38,23 @@ bool ess_fails(double ess, const ReportData& d) {
   return assess_ess(ess, thresholds_of(d)) == FeatureStatus::kFail;
 }
 
-// How far a feature is from passing, as a ratio to its threshold (>= 1 fails); -inf when none
-// of its diagnostics is defined. Orders the table of worst features.
-double badness(const ReportFeature& f, const ReportData& d) {
-  double b = -INFINITY;
-  if (!std::isnan(f.rhat)) b = std::max(b, (f.rhat - 1) / (d.rhat_threshold - 1));
-  for (double ess : {f.ess_bulk, f.ess_tail})
-    if (!std::isnan(ess)) b = std::max(b, d.ess_threshold / std::max(ess, 1e-300));
-  return b;
+}  // namespace
+
+namespace {
+
+// The features as the diagnostics layer sees them, for its verdict and its worst-first order.
+std::vector<FeatureSummary> summaries_of(const ReportData& data) {
+  std::vector<FeatureSummary> summaries;
+  summaries.reserve(data.features.size());
+  for (const ReportFeature& f : data.features)
+    summaries.push_back({f.probability, f.rhat, f.ess_bulk, f.ess_tail, kUndefined, f.mcse});
+  return summaries;
 }
 
 }  // namespace
 
 ConvergenceVerdict assess_convergence(const ReportData& data) {
-  std::vector<FeatureSummary> summaries;
-  summaries.reserve(data.features.size());
-  for (const ReportFeature& f : data.features)
-    summaries.push_back({f.probability, f.rhat, f.ess_bulk, f.ess_tail, kUndefined, f.mcse});
-  return judge(summaries, thresholds_of(data));
+  return judge(summaries_of(data), thresholds_of(data));
 }
 
 VerdictText report_verdict_text(const ReportData& data) {
@@ -710,12 +709,13 @@ std::string run_html(const ReportData& d) {
 }
 
 std::string worst_features_html(const ReportData& d, const ConvergenceVerdict& v) {
+  // The order of `covey check` (worst_first): failing features first, then passing ones, each
+  // by R-hat and then by the smaller ESS; undefined features are counted in the verdict instead.
+  const std::vector<FeatureSummary> summaries = summaries_of(d);
   std::vector<const ReportFeature*> order;
-  for (const auto& f : d.features)
-    if (badness(f, d) > -INFINITY) order.push_back(&f);  // some diagnostic defined
-  std::stable_sort(order.begin(), order.end(), [&](const ReportFeature* a, const ReportFeature* b) {
-    return badness(*a, d) > badness(*b, d);
-  });
+  for (std::size_t i : worst_first(summaries, thresholds_of(d)))
+    if (assess(summaries[i], thresholds_of(d)) != FeatureStatus::kUndefined)
+      order.push_back(&d.features[i]);
   constexpr std::size_t kShown = 12;
   const std::size_t shown = std::min(order.size(), kShown);
   std::string out = "<section class=\"card\" id=\"worst\">\n<h2>";
@@ -744,12 +744,14 @@ std::string worst_features_html(const ReportData& d, const ConvergenceVerdict& v
     out += cell(ess_text(f.ess_tail), ess_fails(f.ess_tail, d), std::isnan(f.ess_tail));
     out += "</tr>\n";
   }
-  out += "</tbody>\n</table>\n<p class=\"note\">Ordered by distance from the thresholds (R-hat " +
-         std::string("&lt; ") + fixed(d.rhat_threshold, 2) + ", ESS &gt; " +
-         fixed(d.ess_threshold, 0) +
-         "); failing values in vermillion. Posterior is the "
-         "probability of the feature (for the log score, its posterior mean); MCSE is its Monte "
-         "Carlo standard error.";
+  out +=
+      "</tbody>\n</table>\n<p class=\"note\">Failing first, then by R-hat and the smaller ESS, as "
+      "<code>covey check</code> orders them (R-hat " +
+      std::string("&lt; ") + fixed(d.rhat_threshold, 2) + ", ESS &gt; " +
+      fixed(d.ess_threshold, 0) +
+      "); failing values in vermillion. Posterior is the "
+      "probability of the feature (for the log score, its posterior mean); MCSE is its Monte "
+      "Carlo standard error.";
   if (order.size() > shown)
     out += " Showing the " + std::to_string(shown) + " worst of " +
            grouped(static_cast<std::int64_t>(order.size())) + ".";
