@@ -99,14 +99,20 @@ Header read_header(CsvReader& reader, const std::string& path) {
     if (!seen.emplace(h.names[c], c).second)
       reader.fail("column '" + h.names[c] + "' appears twice in the header");
   }
-  for (const char* required : {"chain", "iteration"})
+  // R's posterior names them .chain and .iteration (with a .draw column numbering all draws),
+  // as `covey export --edge-draws` writes them.
+  const bool dotted = seen.count(".chain") && seen.count(".iteration");
+  const std::string chain = dotted ? ".chain" : "chain",
+                    iteration = dotted ? ".iteration" : "iteration";
+  for (const std::string& required : {chain, iteration})
     if (!seen.count(required))
-      reader.fail(std::string("no column '") + required +
+      reader.fail("no column '" + required +
                   "' in the header (expected chain, iteration and one column per quantity)");
-  h.chain_column = seen["chain"];
-  h.iteration_column = seen["iteration"];
+  h.chain_column = seen[chain];
+  h.iteration_column = seen[iteration];
   for (std::size_t c = 0; c < h.names.size(); ++c)
-    if (c != h.chain_column && c != h.iteration_column) h.quantity_columns.push_back(c);
+    if (c != h.chain_column && c != h.iteration_column && !(dotted && h.names[c] == ".draw"))
+      h.quantity_columns.push_back(c);
   if (h.quantity_columns.empty()) reader.fail("no quantity columns besides chain and iteration");
   return h;
 }

@@ -252,11 +252,15 @@ Verdict judge(std::span<const FeatureSummary> summaries, const Thresholds& thres
     v.min_ess_bulk = std::fmin(v.min_ess_bulk, s.ess_bulk);
     v.min_ess_tail = std::fmin(v.min_ess_tail, s.ess_tail);
   }
-  using State = Verdict::State;
-  v.state = v.passing + v.failing == 0 ? State::kUndetermined
-            : v.failing == 0           ? State::kConverged
-                                       : State::kNotConverged;
+  v.state = verdict_state(v.passing, v.failing);
   return v;
+}
+
+Verdict::State verdict_state(std::size_t passing, std::size_t failing) {
+  using State = Verdict::State;
+  return passing + failing == 0 ? State::kUndetermined
+         : failing == 0         ? State::kConverged
+                                : State::kNotConverged;
 }
 
 }  // namespace covey

@@ -113,5 +113,119 @@ TEST(Verdict, CountsEachMeasureAndStatesTheOutcome) {
   EXPECT_EQ(judge({}, t).state, Verdict::State::kUndetermined);
 }
 
+// verdict_text (diagnostics.hpp): the one wording of check, chain and the report.
+const std::vector<FeatureSummary> kMixedSummaries = {
+    {0.5, 1.001, 900, 800, 0, 0.01},  // passes
+    {0.5, 1.001, 900, std::numeric_limits<double>::quiet_NaN(), 0,
+     0.01},  // passes without a tail ESS
+    {1.0, std::numeric_limits<double>::quiet_NaN(), std::numeric_limits<double>::quiet_NaN(),
+     std::numeric_limits<double>::quiet_NaN(), 0,
+     std::numeric_limits<double>::quiet_NaN()}};  // undefined
+
+TEST(VerdictText, ConvergedWithUndefinedFeaturesNeverSaysAll) {
+  VerdictContext context;
+  context.chains = 4;
+  const VerdictText text = verdict_text(judge(kMixedSummaries, {}), {}, context);
+  EXPECT_EQ(text.outcome,
+            "converged: 2 of 3 features pass (R-hat < 1.01, bulk ESS > 400 and tail ESS > 400 "
+            "where defined); 1 not assessed (R-hat or bulk ESS undefined, e.g. constant draws)");
+  EXPECT_EQ(text.outcome.find("all"), std::string::npos);
+  EXPECT_EQ(text.measures,
+            "R-hat: 2 pass, 0 fail, 1 undefined; bulk ESS: 2 pass, 0 fail, 1 undefined; "
+            "tail ESS: 1 pass, 0 fail, 2 undefined");
+  EXPECT_TRUE(text.caveats.empty());
+}
+
+TEST(VerdictText, AllOnlyWhenEveryFeaturePasses) {
+  VerdictContext context;
+  context.chains = 4;
+  const VerdictText text =
+      verdict_text(judge(std::span(kMixedSummaries).first(1), {}), {}, context);
+  EXPECT_EQ(text.outcome.rfind("converged: all 1 features pass (", 0), 0u) << text.outcome;
+}
+
+TEST(VerdictText, NotConvergedCountsTheFailuresAndTheRule) {
+  Thresholds t;
+  t.max_rhat = 1.05;
+  t.min_ess = 100;
+  std::vector<FeatureSummary> s = kMixedSummaries;
+  s.push_back({0.5, 1.2, 50, 60, 0, 0.01});
+  VerdictContext context;
+  context.chains = 4;
+  context.noun = "quantities";
+  const VerdictText text = verdict_text(judge(s, t), t, context);
+  EXPECT_EQ(text.outcome.rfind("not converged: 1 of 4 quantities fail (R-hat < 1.05, bulk ESS > "
+                               "100 and tail ESS > 100 where defined); 1 not assessed",
+                               0),
+            0u)
+      << text.outcome;
+  EXPECT_NE(text.measures.find("R-hat: 2 pass, 1 fail, 1 undefined"), std::string::npos);
+}
+
+TEST(VerdictText, NothingAssessableIsNotAssessed) {
+  const VerdictText none = verdict_text(judge({}, {}), {}, {});
+  EXPECT_EQ(none.outcome, "not assessed: no features to judge");
+  const VerdictText constant = verdict_text(judge(std::span(kMixedSummaries).last(1), {}), {}, {});
+  EXPECT_EQ(constant.outcome,
+            "not assessed: none of the 1 features has a defined R-hat and bulk ESS (e.g. "
+            "constant draws)");
+}
+
+TEST(VerdictText, OneChainIsCaveatedAsSplitRhatOnly) {
+  VerdictContext context;
+  context.chains = 1;
+  const VerdictText one = verdict_text(judge(kMixedSummaries, {}), {}, context);
+  ASSERT_EQ(one.caveats.size(), 1u);
+  EXPECT_NE(one.caveats[0].find("split R-hat"), std::string::npos);
+  context.chains = 2;
+  EXPECT_TRUE(verdict_text(judge(kMixedSummaries, {}), {}, context).caveats.empty());
+}
+
+TEST(VerdictText, ProbabilitiesNearZeroOrOneHaveAnUnreliableMcse) {
+  // Within 1/draws of 0 or 1 (here 1/1000), but not exactly 0 or 1 (constant: undefined).
+  EXPECT_TRUE(mcse_unreliable(0.001, 1000));
+  EXPECT_TRUE(mcse_unreliable(0.9995, 1000));
+  EXPECT_FALSE(mcse_unreliable(0.002, 1000));
+  EXPECT_FALSE(mcse_unreliable(0.0, 1000));
+  EXPECT_FALSE(mcse_unreliable(1.0, 1000));
+  VerdictContext context;
+  context.chains = 4;
+  context.draws = 1000;
+  context.unreliable_mcse = 2;
+  const VerdictText text = verdict_text(judge(kMixedSummaries, {}), {}, context);
+  ASSERT_EQ(text.caveats.size(), 1u);
+  EXPECT_EQ(text.caveats[0],
+            "2 probabilities lie within 1/1000 (one draw) of 0 or 1: their MCSE is unreliable");
+}
+
+TEST(VerdictText, CheckCountsUnreliableMcseOfProbabilitiesOnly) {
+  testing_util::TempDir dir;
+  // A quantity near 0 is not a probability: no MCSE caveat for a draws CSV.
+  const CheckResult r = check_draws_csv(write_three_quantities(dir), {});
+  EXPECT_EQ(r.context.chains, 4);
+  EXPECT_EQ(r.context.draws, 800u);
+  EXPECT_EQ(r.context.noun, "quantities");
+  EXPECT_EQ(r.context.unreliable_mcse, 0u);
+  EXPECT_EQ(verdict_text(r).outcome.rfind("not converged: 1 of 3 quantities fail", 0), 0u);
+}
+
+TEST(VerdictText, StoppingRuleStatesItsThresholdsWithoutMeasureCounts) {
+  ConvergenceStatus status;
+  status.features = 10;
+  status.failing = 0;
+  status.undefined = 3;
+  status.converged = true;
+  ChainRunOptions options;
+  options.until_ess = 250;
+  const VerdictText text = stopping_verdict_text(status, options, 1);
+  EXPECT_EQ(text.outcome.rfind("converged: 7 of 10 edge features pass (R-hat < 1.01, bulk ESS > "
+                               "250",
+                               0),
+            0u)
+      << text.outcome;
+  EXPECT_TRUE(text.measures.empty());
+  ASSERT_EQ(text.caveats.size(), 1u);  // one chain
+}
+
 }  // namespace
 }  // namespace covey

@@ -25,6 +25,25 @@ std::vector<std::vector<double>> chain_matrix() {
   return {{kNaN, 0.9, 0.5}, {0.05, kNaN, 0.51}, {0.49, 0.1, kNaN}};
 }
 
+TEST(ConsensusGraph, UndirectedLinkWhenOnlyTheAdjacencyPassesTheThreshold) {
+  // a - c: 0.5 + 0.49 = 0.99 adjacent, neither direction above 0.5; a -> b passes on its own.
+  const auto g = consensus_graph({"a", "b", "c"}, chain_matrix());
+  ASSERT_EQ(g.undirected.size(), 1u);
+  EXPECT_EQ(g.undirected[0].from, 0);
+  EXPECT_EQ(g.undirected[0].to, 2);
+  EXPECT_DOUBLE_EQ(g.undirected[0].probability, 0.99);
+  // A pair with a passing direction is drawn as that edge only; a weak pair not at all.
+  EXPECT_TRUE(consensus_graph({"a", "b", "c"}, chain_matrix(), 0.995).undirected.empty());
+  const std::string dot = consensus_dot(g);
+  EXPECT_NE(dot.find("\"a\" -> \"c\" [dir=none, style=dashed"), std::string::npos) << dot;
+  EXPECT_EQ(dot.find("\"a\" -> \"b\" [dir=none"), std::string::npos) << dot;
+  // An undirected link connects: neither end is isolated.
+  const auto only_link =
+      consensus_graph({"a", "b", "c"}, {{kNaN, 0.3, 0.0}, {0.3, kNaN, 0.0}, {0.0, 0.0, kNaN}});
+  ASSERT_EQ(only_link.undirected.size(), 1u);
+  EXPECT_EQ(isolated_variables(only_link), std::vector<int>{2});
+}
+
 TEST(ConsensusGraph, KeepsEdgesStrictlyAboveTheThresholdMostProbableFirst) {
   const auto g = consensus_graph({"a", "b", "c"}, chain_matrix());
   ASSERT_EQ(g.edges.size(), 2u);

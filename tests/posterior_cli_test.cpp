@@ -399,8 +399,14 @@ TEST(ReportCommand, WritesThePageWithComparisonAndRefusesForeignFolders) {
   EXPECT_EQ(j["page"], out + "/index.html");
   const std::string html = testing_util::read_file(out + "/index.html");
   for (const char* part : {"trace.png", "rhat.png", "ess.png", "edges.png", "consensus.png",
-                           "comparison.png", "not proven cause", "vertex cover of at most 2"})
+                           "comparison.png", "not proven cause", "vertex cover of at most 2",
+                           "feature-trace-1.png", "feature-trace-3.png", "The most probable links"})
     EXPECT_NE(html.find(part), std::string::npos) << part;
+  // No internal values: the unset cover limit (-1) and raw option keys are not shown.
+  EXPECT_EQ(html.find(">-1<"), std::string::npos);
+  EXPECT_EQ(html.find("cover_limit"), std::string::npos);
+  EXPECT_NE(html.find("teleports from D_k, k"), std::string::npos);
+  EXPECT_NE(html.find("<h2>Edge probabilities: chain run ("), std::string::npos);
   for (const char* image : {"trace.png", "comparison.svg", "consensus.svg"})
     EXPECT_TRUE(std::filesystem::exists(out + "/" + image)) << image;
   // A folder that is not a covey report is never replaced.
@@ -417,6 +423,107 @@ TEST(ReportCommand, WritesThePageWithComparisonAndRefusesForeignFolders) {
   EXPECT_EQ(r.exit_code, 1);
   EXPECT_NE(r.err.find("another score table"), std::string::npos) << r.err;
   EXPECT_FALSE(std::filesystem::exists(dir.file("r2")));
+}
+
+// ---- export -------------------------------------------------------------------------------
+
+std::vector<std::vector<std::string>> read_simple_csv(const std::string& path) {
+  std::vector<std::vector<std::string>> rows;
+  std::ifstream in(path);
+  for (std::string line; std::getline(in, line);) {
+    std::vector<std::string> f;
+    std::stringstream ss(line);
+    for (std::string cell; std::getline(ss, cell, ',');) f.push_back(cell);
+    if (!line.empty() && line.back() == ',') f.push_back("");
+    rows.push_back(f);
+  }
+  return rows;
+}
+
+// The probabilities CSV holds check's numbers; the edge draws are the run's draws, which R's
+// posterior (as_draws_df of read.csv, then rhat) and covey check --draws both read.
+TEST(Export, ProbabilitiesEqualCheckAndEdgeDrawsAreReadByRPosterior) {
+  const Fixture& fx = fixture();
+  TempDir dir;
+  const std::string probabilities = dir.file("p.csv"), edge_draws = dir.file("d.csv");
+  auto r = run_covey("export " + fx.run + " --probabilities " + probabilities + " --edge-draws " +
+                     edge_draws);
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  const auto rows = read_simple_csv(probabilities);
+  ASSERT_EQ(rows.size(), 51u);  // header, 20 edges, 10 adjacencies, 20 ancestor relations
+  EXPECT_EQ(rows[0], (std::vector<std::string>{"kind", "from", "to", "probability", "mcse",
+                                               "mcse_reliable", "rhat", "ess_bulk", "ess_tail"}));
+  r = run_covey("check " + fx.run + " --json --features edges,adjacencies,ancestors");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  std::map<std::string, nlohmann::json> checked;
+  const auto check_json = nlohmann::json::parse(r.out);
+  for (const auto& f : check_json["features"])
+    checked[f["kind"].get<std::string>() + " " + f["from"].get<std::string>() + " " +
+            f["to"].get<std::string>()] = f;
+  for (std::size_t i = 1; i < rows.size(); ++i) {
+    const auto& row = rows[i];
+    ASSERT_EQ(row.size(), 9u);
+    const std::string key = row[0] + " " + row[1] + " " + row[2];
+    ASSERT_TRUE(checked.count(key)) << key;
+    const nlohmann::json& f = checked.at(key);
+    EXPECT_DOUBLE_EQ(std::stod(row[3]), f["probability"].get<double>()) << row[1] << row[2];
+    if (f["mcse"].is_null())
+      EXPECT_EQ(row[4], "NA");
+    else
+      EXPECT_DOUBLE_EQ(std::stod(row[4]), f["mcse"].get<double>());
+  }
+  // Edge draws: 4 chains x 4000 draws, 20 edge columns.
+  const auto draws = read_simple_csv(edge_draws);
+  ASSERT_EQ(draws.size(), 16001u);
+  EXPECT_EQ(draws[0].size(), 23u);
+  EXPECT_EQ(draws[0][0], ".chain");
+  EXPECT_EQ(draws[1][0], "1");
+  EXPECT_EQ(draws.back()[2], "16000");
+  // covey check reads it back: the same R-hat as from the run itself.
+  r = run_covey("check --draws " + edge_draws + " --json");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  std::map<std::string, double> rhat_of_column;
+  const auto draws_json = nlohmann::json::parse(r.out);
+  for (const auto& f : draws_json["features"]) rhat_of_column[f["name"]] = number(f["rhat"]);
+  // The first edge that is not constant (R-hat defined), FROM->TO.
+  std::size_t position = 3;
+  while (position + 1 < draws[0].size() && std::isnan(rhat_of_column[draws[0][position]]))
+    ++position;
+  const std::string column = draws[0][position];
+  const std::string from = column.substr(0, column.find("->")),
+                    to = column.substr(column.find("->") + 2);
+  const double ours = number(checked.at("edge " + from + " " + to)["rhat"]);
+  ASSERT_TRUE(rhat_of_column.count(column)) << column;
+  EXPECT_DOUBLE_EQ(rhat_of_column.at(column), ours);
+  // R's posterior reads it directly (reference: posterior::as_draws_df and posterior::rhat).
+  if (std::string(COVEY_RSCRIPT).empty()) GTEST_SKIP() << "Rscript not found";
+  const std::string script = dir.file("read.R");
+  testing_util::write_file(
+      script,
+      "suppressPackageStartupMessages(library(posterior))\n"
+      "x <- as_draws_df(read.csv(commandArgs(TRUE)[1]))\n"
+      "stopifnot(nchains(x) == 4, niterations(x) == 4000, nvariables(x) == 20)\n"
+      "v <- variables(x)[as.integer(commandArgs(TRUE)[2])]\n"
+      "cat(sprintf('%.17g', rhat(extract_variable_matrix(x, v))))\n");
+  const auto r_run = testing_util::run_shell(std::string(COVEY_RSCRIPT) + " " + script + " " +
+                                             edge_draws + " " + std::to_string(position - 2));
+  ASSERT_EQ(r_run.exit_code, 0) << r_run.err;
+  ASSERT_FALSE(std::isnan(ours)) << column;
+  EXPECT_NEAR(std::stod(r_run.out), ours, 1e-6 * ours);
+}
+
+TEST(Export, RefusesToReplaceFilesWithoutForce) {
+  const Fixture& fx = fixture();
+  TempDir dir;
+  const std::string path = dir.file("p.csv");
+  testing_util::write_file(path, "keep me");
+  auto r = run_covey("export " + fx.run + " --probabilities " + path);
+  EXPECT_EQ(r.exit_code, 1);
+  EXPECT_NE(r.err.find("--force"), std::string::npos) << r.err;
+  EXPECT_EQ(testing_util::read_file(path), "keep me");
+  r = run_covey("export " + fx.run + " --probabilities " + path + " --features edges --force");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  EXPECT_EQ(read_simple_csv(path).size(), 21u);
 }
 
 }  // namespace

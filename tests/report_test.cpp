@@ -8,10 +8,13 @@
 
 #include <filesystem>
 #include <fstream>
+#include <map>
 #include <set>
+#include <sstream>
 
 #include "covey/core/atomic_file.hpp"
 #include "covey/core/error.hpp"
+#include "covey/report/plot.hpp"
 #include "image_check.hpp"
 #include "report_fixture.hpp"
 #include "test_util.hpp"
@@ -176,6 +179,68 @@ TEST(Report, PageStatesVerdictCautionAndWorstFeatures) {
   EXPECT_EQ(ok.find("Not converged"), std::string::npos);
 }
 
+TEST(Report, VerdictUsesTheLibraryWordingWithItsCaveats) {
+  TempDir tmp;
+  // Three constant edges are undefined: the page counts them and never claims "All".
+  ReportData d = synthetic_report_data({.converged = true, .constant_features = 3});
+  d.run.chains = 1;
+  const VerdictText text = report_verdict_text(d);
+  write_report(d, tmp.file("r"));
+  const std::string html = read_file(tmp.file("r") + "/index.html");
+  EXPECT_EQ(html.find("All "), std::string::npos);
+  EXPECT_NE(html.find("not assessed (R-hat or bulk ESS undefined"), std::string::npos);
+  EXPECT_NE(html.find("R-hat: "), std::string::npos);
+  EXPECT_NE(html.find("tail ESS: "), std::string::npos);
+  ASSERT_FALSE(text.caveats.empty());
+  EXPECT_NE(html.find("split R-hat"), std::string::npos);
+}
+
+TEST(Report, AnswersWhatTheNetworkIsAndTitlesTheComparison) {
+  TempDir tmp;
+  const ReportData d = synthetic_report_data();
+  write_report(d, tmp.file("r"));
+  const std::string html = read_file(tmp.file("r") + "/index.html");
+  // The most probable edge heads the table of links, with its probability and MCSE.
+  const ReportFeature* best = nullptr;
+  for (const auto& f : d.features)
+    if (f.kind == FeatureKind::kEdge && (!best || f.probability > best->probability)) best = &f;
+  ASSERT_NE(best, nullptr);
+  const auto section = html.find("id=\"network\"");
+  ASSERT_NE(section, std::string::npos);
+  const auto first_row = html.find("<tbody>", section);
+  const std::string label = plot::markup_escape(feature_label(*best, d.variables));
+  EXPECT_LT(html.find(label, first_row), html.find("</tr>", first_row));
+  EXPECT_NE(html.find("Adjacency (either direction)", section), std::string::npos);
+  // The comparison is titled by what it compares.
+  EXPECT_NE(html.find("<h2>Edge probabilities: " + plot::markup_escape(d.comparison->label_a) +
+                      " against "),
+            std::string::npos);
+  EXPECT_EQ(html.find("Restricted against unrestricted"), std::string::npos);
+}
+
+TEST(Report, WorstFeaturesAreDrawnByChainAndBadTracesRefused) {
+  TempDir tmp;
+  ReportData d = synthetic_report_data();
+  FeatureTrace trace;
+  trace.feature = 5;
+  trace.chains = {{{10, 20, 30}, {0.0, 0.5, 0.33}}, {{10, 20, 30}, {1.0, 1.0, 0.67}}};
+  d.feature_traces = {trace};
+  write_report(d, tmp.file("r"));
+  const std::string html = read_file(tmp.file("r") + "/index.html");
+  EXPECT_NE(html.find("feature-trace-1.png"), std::string::npos);
+  EXPECT_NE(html.find("Running probability of " +
+                      plot::markup_escape(feature_label(d.features[5], d.variables))),
+            std::string::npos);
+  EXPECT_GT(testing_util::png_stats(tmp.file("r") + "/feature-trace-1.png").luminance_variance,
+            50.0);
+  d.feature_traces[0].feature = d.features.size();
+  EXPECT_THROW(write_report(d, tmp.file("r2")), InputError);
+  d.feature_traces[0].feature = 5;
+  d.feature_traces[0].chains[1].running_mean.pop_back();
+  EXPECT_THROW(write_report(d, tmp.file("r2")), InputError);
+  EXPECT_FALSE(fs::exists(tmp.file("r2")));
+}
+
 TEST(Report, ConsensusCycleIsDrawnAndNoted) {
   TempDir tmp;
   write_report(synthetic_report_data({.with_cycle = true}), tmp.file("r"));
@@ -296,21 +361,56 @@ std::string chromium(const std::string& arguments, const std::string& profile) {
          profile + "/profile' " + arguments;
 }
 
-std::pair<int, int> images_loaded(const std::string& page, const std::string& profile) {
+// The counts the page's own script writes as attributes of <body> once loaded (-1: absent),
+// in a window `width` px wide.
+std::map<std::string, int> page_checks(const std::string& page, const std::string& profile,
+                                       int width = 1280) {
   const auto r =
-      run_shell(chromium("--virtual-time-budget=5000 --dump-dom 'file://" + page + "'", profile));
+      run_shell(chromium("--virtual-time-budget=5000 --window-size=" + std::to_string(width) +
+                             ",1200 --dump-dom 'file://" + page + "'",
+                         profile));
   EXPECT_EQ(r.exit_code, 0) << r.err;
-  // The page's own script writes the counts as attributes of <body>.
-  auto attribute = [&](const std::string& name) {
-    const std::string key = name + "=\"";
+  std::map<std::string, int> checks;
+  for (const char* name :
+       {"data-images-loaded", "data-images-total", "data-figures-clipped", "data-page-overflow"}) {
+    const std::string key = std::string(name) + "=\"";
     const auto at = r.out.find(key);
-    if (at == std::string::npos) return -1;
-    return std::atoi(r.out.c_str() + at + key.size());
-  };
-  const int loaded = attribute("data-images-loaded"), total = attribute("data-images-total");
-  EXPECT_TRUE(loaded >= 0 && total >= 0) << "the page's image check did not run; DOM:\n"
-                                         << r.out.substr(0, 2000);
-  return {loaded, total};
+    checks[name] = at == std::string::npos ? -1 : std::atoi(r.out.c_str() + at + key.size());
+    EXPECT_GE(checks[name], 0) << "the page's check did not run; DOM:\n" << r.out.substr(0, 2000);
+  }
+  return checks;
+}
+
+std::pair<int, int> images_loaded(const std::string& page, const std::string& profile) {
+  const auto checks = page_checks(page, profile);
+  return {checks.at("data-images-loaded"), checks.at("data-images-total")};
+}
+
+// Whether every node box of a graphviz SVG lies inside its viewBox, by Python's xml.etree: the
+// node shapes' coordinates, moved by the graph's translate(), against the viewBox.
+testing_util::CommandResult node_boxes_inside_view_box(const std::string& svg) {
+  const std::string script =
+      "import re, sys, xml.etree.ElementTree as E\n"
+      "root = E.parse(sys.argv[1]).getroot()\n"
+      "x0, y0, w, h = map(float, root.get('viewBox').split())\n"
+      "ns = '{http://www.w3.org/2000/svg}'\n"
+      "graph = root.find(ns + 'g')\n"
+      "tx, ty = map(float, re.search(r'translate\\(([-\\d.]+) ([-\\d.]+)\\)', "
+      "graph.get('transform')).groups())\n"
+      "bad = 0; nodes = 0\n"
+      "for g in graph.iter(ns + 'g'):\n"
+      "    if g.get('class') != 'node': continue\n"
+      "    nodes += 1\n"
+      "    for shape in g:\n"
+      "        text = shape.get('points') or shape.get('d') or ''\n"
+      "        xy = [float(v) for v in re.findall(r'-?\\d+(?:\\.\\d+)?', text)]\n"
+      "        for x, y in zip(xy[0::2], xy[1::2]):\n"
+      "            if not (x0 <= x + tx <= x0 + w and y0 <= y + ty <= y0 + h): bad += 1\n"
+      "print(nodes, bad)\n"
+      "sys.exit(1 if bad or not nodes else 0)\n";
+  const std::string path = svg + ".check.py";
+  testing_util::write_file(path, script);
+  return run_shell(std::string(COVEY_REFERENCE_PYTHON) + " '" + path + "' '" + svg + "'");
 }
 
 TEST(ReportInBrowser, ChromiumLoadsEveryImageAndDrawsThePage) {
@@ -345,6 +445,45 @@ TEST(ReportInBrowser, ChromiumLoadsEveryImageAndDrawsThePage) {
   EXPECT_GT(testing_util::count_pixels_near(shot, 0xd55e00, 20, 0, 0, 1, 0.2), 2000u);
   if (const char* keep = std::getenv("COVEY_KEEP_SCREENSHOT"))
     fs::copy_file(shot, keep, fs::copy_options::overwrite_existing);
+}
+
+// Thirty variables: the page is no wider than the window, every figure (the consensus graph
+// included) fits its card, and the consensus SVG holds every node box inside its viewBox.
+TEST(ReportInBrowser, ThirtyVariablesFitThePage) {
+  ASSERT_TRUE(fs::exists(COVEY_CHROMIUM)) << "chromium not found";
+  TempDir tmp;
+  const std::string dir = tmp.file("report");
+  ReportData d = synthetic_report_data({.variables = 30, .converged = false});
+  d.variables[7] = "grade";  // the demo's name that was clipped
+  write_report(d, dir);
+  // A window narrower than the 980 px page: what fits here fits on a wider screen.
+  const auto checks = page_checks(dir + "/index.html", tmp.path(), 800);
+  EXPECT_EQ(checks.at("data-images-loaded"), checks.at("data-images-total"));
+  EXPECT_EQ(checks.at("data-figures-clipped"), 0);
+  EXPECT_EQ(checks.at("data-page-overflow"), 0);
+  const auto inside = node_boxes_inside_view_box(dir + "/consensus.svg");
+  EXPECT_EQ(inside.exit_code, 0) << inside.out << inside.err;
+  EXPECT_NE(inside.out.find("30 0"), std::string::npos) << inside.out;  // all 30 nodes drawn
+
+  // Controls: figures at their natural size stick out of their cards, and a viewBox cut in
+  // half leaves node boxes outside, so both checks can fail.
+  fs::copy(dir, tmp.file("natural"));
+  const std::string page = tmp.file("natural") + "/index.html";
+  std::string html = read_file(page);
+  html.replace(html.find("</style>"), 0, "figure img { max-width: none !important; }");
+  testing_util::write_file(page, html);
+  EXPECT_GT(page_checks(page, tmp.path()).at("data-figures-clipped"), 0);
+  std::string svg = read_file(dir + "/consensus.svg");
+  const auto at = svg.find("viewBox=\"0.00 0.00 ");
+  ASSERT_NE(at, std::string::npos);
+  const auto end = svg.find('"', at + 9);
+  std::istringstream box(svg.substr(at + 9, end - at - 9));
+  double x0, y0, w, h;
+  box >> x0 >> y0 >> w >> h;
+  svg.replace(at, end - at + 1,
+              "viewBox=\"0 0 " + std::to_string(w / 2) + " " + std::to_string(h / 2) + "\"");
+  testing_util::write_file(tmp.file("cut.svg"), svg);
+  EXPECT_NE(node_boxes_inside_view_box(tmp.file("cut.svg")).exit_code, 0);
 }
 
 }  // namespace

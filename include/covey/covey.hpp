@@ -37,6 +37,7 @@
 #include "covey/chains/structure_chain.hpp"
 
 #include "covey/analysis/check.hpp"
+#include "covey/analysis/export.hpp"
 #include "covey/analysis/posterior_compare.hpp"
 #include "covey/analysis/run_diagnostics.hpp"
 

@@ -21,6 +21,14 @@ void judge_items(CheckResult& result, const Thresholds& thresholds) {
   for (const FeatureSummary& s : result.summaries) result.status.push_back(assess(s, thresholds));
   result.worst_first = worst_first(result.summaries, thresholds);
   result.verdict = judge(result.summaries, thresholds);
+  result.context.chains = result.chains;
+  result.context.noun = result.plural;
+  result.context.draws = static_cast<std::size_t>(result.chains) * result.iterations;
+  result.context.unreliable_mcse = 0;
+  for (std::size_t i = 0; i < result.items.size(); ++i)
+    if (result.items[i].mean_key == "probability" &&
+        mcse_unreliable(result.summaries[i].mean, result.context.draws))
+      ++result.context.unreliable_mcse;
 }
 
 CheckedItem feature_item(const FeatureId& f, const std::vector<std::string>& names) {
@@ -43,6 +51,28 @@ void check_thresholds(const Thresholds& thresholds, const std::string& context) 
     std::snprintf(value, sizeof value, "%g", thresholds.max_rhat);
     throw OptionError(context + ": {max_rhat} must exceed 1, got " + std::string(value));
   }
+}
+
+VerdictText verdict_text(const CheckResult& result) {
+  return verdict_text(result.verdict, result.thresholds, result.context);
+}
+
+VerdictText stopping_verdict_text(const ConvergenceStatus& status, const ChainRunOptions& options,
+                                  int chains) {
+  Thresholds thresholds;  // the stopping rule's defaults (chain_runner.cpp) are these
+  if (options.until_rhat > 0) thresholds.max_rhat = options.until_rhat;
+  if (options.until_ess > 0) thresholds.min_ess = options.until_ess;
+  Verdict v;
+  v.features = status.features;
+  v.failing = status.failing;
+  v.undefined = status.undefined;
+  v.passing = status.features - std::min(status.features, status.failing + status.undefined);
+  v.max_rhat = status.max_rhat;
+  v.state = verdict_state(v.passing, v.failing);
+  VerdictContext context;
+  context.chains = chains;
+  context.noun = "edge features";
+  return verdict_text(v, thresholds, context);
 }
 
 CheckResult check_chain_runs(const std::vector<std::string>& files, const FeatureKinds& kinds,

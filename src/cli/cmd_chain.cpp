@@ -9,6 +9,7 @@
 #include "command.hpp"
 #include "common.hpp"
 #include "core/mpi_context.hpp"
+#include "covey/analysis/check.hpp"
 #include "covey/chains/chain_runner.hpp"
 #include "covey/chains/chain_support.hpp"
 #include "covey/core/error.hpp"
@@ -122,7 +123,7 @@ nlohmann::json summary_json(const ChainRunSummary& s) {
   return out;
 }
 
-void print_text(const ChainRunSummary& s) {
+void print_text(const ChainRunSummary& s, const ChainRunOptions& o) {
   char line[256];
   std::snprintf(line, sizeof line,
                 "%s: %d chains, %llu steps each (%llu this session, %.1f s, %.3g proposals/s)\n",
@@ -143,11 +144,9 @@ void print_text(const ChainRunSummary& s) {
   if (s.counts.proposed[int(Move::kTeleport)] || s.total_regenerations())
     std::cout << "regenerations: " << s.total_regenerations() << "\n";
   if (s.convergence_checked) {
-    const auto& c = s.convergence;
-    std::snprintf(line, sizeof line,
-                  "convergence: %s (%zu edge features, max R-hat %.4f, min ESS %.0f)\n",
-                  c.converged ? "reached" : "not reached", c.features, c.max_rhat, c.min_ess);
-    std::cout << line;
+    const VerdictText text = stopping_verdict_text(s.convergence, o, s.chains);
+    std::cout << "convergence: " << text.outcome << "\n";
+    for (const std::string& caveat : text.caveats) std::cout << "  caveat: " << caveat << "\n";
   }
 }
 
@@ -208,7 +207,7 @@ void run_chain_command(CLI::App* cmd, const ChainArgs& a) {
   if (a.json)
     print_json(summary_json(summary));
   else
-    print_text(summary);
+    print_text(summary, o);
 }
 
 void setup_chain(CLI::App& app) {

@@ -44,32 +44,6 @@ CheckResult check_input(const CheckOptions& options) {
   return check_chain_runs(options.files, kinds, options.thresholds);
 }
 
-std::string threshold_text(const Thresholds& t) {
-  return "R-hat < " + format_number("%g", t.max_rhat) + " and bulk and tail ESS > " +
-         format_number("%g", t.min_ess);
-}
-
-std::string verdict_line(const CheckResult& in, const Verdict& v, const Thresholds& t) {
-  const std::size_t total = v.passing + v.failing + v.undefined;
-  std::string line = "verdict: ";
-  if (v.passing + v.failing == 0) {
-    line += "not assessed: all " + std::to_string(total) + " " + in.plural +
-            " have undefined R-hat or ESS (constant draws)";
-    return line;
-  }
-  if (v.converged())
-    line += "converged: all " + std::to_string(v.passing) + " assessed " + in.plural + " have " +
-            threshold_text(t);
-  else
-    line += "not converged: " + std::to_string(v.failing) + " of " +
-            std::to_string(v.passing + v.failing) + " assessed " + in.plural +
-            " fail (required: " + threshold_text(t) + ")";
-  if (v.undefined > 0)
-    line += "; " + std::to_string(v.undefined) +
-            " undefined (R-hat or ESS undefined, e.g. constant draws), not assessed";
-  return line;
-}
-
 nlohmann::json report_json(const CheckResult& in) {
   const Verdict& v = in.verdict;
   const Thresholds& t = in.thresholds;
@@ -83,10 +57,22 @@ nlohmann::json report_json(const CheckResult& in) {
   out["thresholds"] = {{"rhat", t.max_rhat}, {"ess", t.min_ess}};
   if (in.regenerations > 0)
     out["regeneration"] = {{"regenerations", in.regenerations}, {"complete_tours", in.tours}};
+  const auto counts = [](const Verdict::Counts& c) {
+    return nlohmann::json{
+        {"passing", c.passing}, {"failing", c.failing}, {"undefined", c.undefined}};
+  };
+  const VerdictText text = verdict_text(in);
   out["verdict"] = {{"converged", v.converged()},
+                    {"state", to_string(v.state)},
                     {"passing", v.passing},
                     {"failing", v.failing},
-                    {"undefined", v.undefined}};
+                    {"undefined", v.undefined},
+                    {"rhat", counts(v.rhat)},
+                    {"ess_bulk", counts(v.ess_bulk)},
+                    {"ess_tail", counts(v.ess_tail)},
+                    {"unreliable_mcse", in.context.unreliable_mcse},
+                    {"text", text.outcome},
+                    {"caveats", text.caveats}};
   out["features"] = nlohmann::json::array();
   for (std::size_t i : in.worst_first) {
     const FeatureSummary& s = in.summaries[i];
@@ -122,8 +108,8 @@ void print_report(const CheckResult& in, std::size_t top) {
     std::cout << ", " << shown << " of " << order.size() << " assessed shown";
   std::cout << ")\n";
   if (in.regenerations > 0)
-    std::cout << "regenerations (teleports, whole-set blocks): " << in.regenerations << " (" << in.tours
-              << " complete tours)"
+    std::cout << "regenerations (teleports, whole-set blocks): " << in.regenerations << " ("
+              << in.tours << " complete tours)"
               << (in.regenerative_se.empty() ? "" : "; regen_se: regenerative standard error")
               << "\n";
   std::size_t width = 8;
@@ -158,7 +144,10 @@ void print_report(const CheckResult& in, std::size_t top) {
                 << format_number("%.6g", in.summaries[undefined[k]].mean);
     std::cout << "\n";
   }
-  std::cout << verdict_line(in, in.verdict, in.thresholds) << "\n";
+  const VerdictText text = verdict_text(in);
+  std::cout << "verdict: " << text.outcome << "\n";
+  if (!text.measures.empty()) std::cout << "  " << text.measures << "\n";
+  for (const std::string& caveat : text.caveats) std::cout << "  caveat: " << caveat << "\n";
 }
 
 void setup_check(CLI::App& app) {
@@ -179,8 +168,9 @@ void setup_check(CLI::App& app) {
   cmd->add_option("--top", options->top, "Features shown in the text output, worst first (0: all)")
       ->capture_default_str();
   cmd->add_flag("--draws", options->draws,
-                "Read FILES as CSV draws: a header with columns chain, iteration and one column "
-                "per quantity, then one row per draw");
+                "Read FILES as CSV draws: a header with columns chain, iteration (or R "
+                "posterior's .chain, .iteration, .draw) and one column per quantity, then one "
+                "row per draw");
   cmd->add_flag("--json", options->json,
                 "Print JSON (undefined values are null, infinite ones \"inf\")");
   cmd->add_flag("--strict", options->strict, "Exit with status 4 unless the verdict is converged");

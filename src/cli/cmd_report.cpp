@@ -65,17 +65,22 @@ void setup_report(CLI::App& app) {
     write_report(data, o->output);
     const ConvergenceVerdict v = assess_convergence(data);
     const char* state = to_string(v.state);
+    const VerdictText text = report_verdict_text(data);
     if (o->json) {
       print_json({{"output", o->output},
                   {"page", o->output + "/index.html"},
                   {"verdict", state},
                   {"features", v.features},
                   {"failing", v.failing},
-                  {"undefined", v.undefined}});
+                  {"undefined", v.undefined},
+                  {"text", text.outcome},
+                  {"caveats", text.caveats}});
       return;
     }
-    std::cout << "report written to " << o->output << "/index.html (" << state << ": " << v.failing
-              << " of " << v.features << " features fail, " << v.undefined << " undefined)\n";
+    std::cout << "report written to " << o->output << "/index.html\nverdict: " << text.outcome
+              << "\n";
+    if (!text.measures.empty()) std::cout << "  " << text.measures << "\n";
+    for (const std::string& caveat : text.caveats) std::cout << "  caveat: " << caveat << "\n";
   });
 }
 

@@ -64,9 +64,22 @@ ConsensusGraph consensus_graph(const std::vector<std::string>& names,
         graph.edges.push_back({static_cast<int>(u), static_cast<int>(v), p, false});
     }
   }
-  std::stable_sort(
-      graph.edges.begin(), graph.edges.end(),
-      [](const ConsensusEdge& a, const ConsensusEdge& b) { return a.probability > b.probability; });
+  // The edge probabilities of a pair are exclusive events (a DAG holds at most one direction),
+  // so their sum is the probability that the pair is adjacent.
+  for (std::size_t u = 0; u < n; ++u)
+    for (std::size_t v = u + 1; v < n; ++v) {
+      const double forward = edge_probability[u][v], backward = edge_probability[v][u];
+      if (std::isnan(forward) || std::isnan(backward)) continue;
+      if (forward > threshold || backward > threshold) continue;
+      const double adjacent = std::min(1.0, forward + backward);
+      if (adjacent > threshold)
+        graph.undirected.push_back({static_cast<int>(u), static_cast<int>(v), adjacent, false});
+    }
+  const auto by_probability = [](const ConsensusEdge& a, const ConsensusEdge& b) {
+    return a.probability > b.probability;
+  };
+  std::stable_sort(graph.edges.begin(), graph.edges.end(), by_probability);
+  std::stable_sort(graph.undirected.begin(), graph.undirected.end(), by_probability);
 
   // An edge u -> v closes a cycle exactly when v reaches u: one search per node (n is small).
   std::vector<std::vector<int>> children(n);
@@ -117,6 +130,7 @@ std::string fixed(double v, int decimals) {
 std::vector<int> isolated_variables(const ConsensusGraph& graph) {
   std::vector<char> connected(graph.names.size(), 0);
   for (const auto& e : graph.edges) connected[e.from] = connected[e.to] = 1;
+  for (const auto& e : graph.undirected) connected[e.from] = connected[e.to] = 1;
   std::vector<int> isolated;
   for (std::size_t v = 0; v < graph.names.size(); ++v)
     if (!connected[v]) isolated.push_back(static_cast<int>(v));
@@ -161,6 +175,16 @@ std::string consensus_dot(const ConsensusGraph& graph, const ConsensusDotOptions
            quote("P(" + graph.names[e.from] + " -> " + graph.names[e.to] + ") = " + p);
     if (e.on_cycle) out += ", color=" + quote(cycle_colour) + ", fontcolor=" + quote(cycle_colour);
     out += "];\n";
+  }
+  const std::string undirected_colour = plot::to_hex(plot::okabe_ito::kOrange);
+  for (const auto& e : graph.undirected) {
+    const std::string p = fixed(e.probability, 2);
+    out += "  " + quote(graph.names[e.from]) + " -> " + quote(graph.names[e.to]) +
+           " [dir=none, style=dashed, penwidth=1.5, color=" + quote(undirected_colour) +
+           ", label=" + quote(" " + p) + ", tooltip=" +
+           quote("P(" + graph.names[e.from] + " adjacent to " + graph.names[e.to] + ") = " + p +
+                 "; neither direction is above " + fixed(graph.threshold, 2)) +
+           "];\n";
   }
   return out + "}\n";
 }

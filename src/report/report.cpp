@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <array>
+#include <cctype>
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
@@ -37,24 +38,34 @@ bool ess_fails(double ess, const ReportData& d) {
   return assess_ess(ess, thresholds_of(d)) == FeatureStatus::kFail;
 }
 
-// How far a feature is from passing, as a ratio to its threshold (>= 1 fails); -inf when none
-// of its diagnostics is defined. Orders the table of worst features.
-double badness(const ReportFeature& f, const ReportData& d) {
-  double b = -INFINITY;
-  if (!std::isnan(f.rhat)) b = std::max(b, (f.rhat - 1) / (d.rhat_threshold - 1));
-  for (double ess : {f.ess_bulk, f.ess_tail})
-    if (!std::isnan(ess)) b = std::max(b, d.ess_threshold / std::max(ess, 1e-300));
-  return b;
+}  // namespace
+
+namespace {
+
+// The features as the diagnostics layer sees them, for its verdict and its worst-first order.
+std::vector<FeatureSummary> summaries_of(const ReportData& data) {
+  std::vector<FeatureSummary> summaries;
+  summaries.reserve(data.features.size());
+  for (const ReportFeature& f : data.features)
+    summaries.push_back({f.probability, f.rhat, f.ess_bulk, f.ess_tail, kUndefined, f.mcse});
+  return summaries;
 }
 
 }  // namespace
 
 ConvergenceVerdict assess_convergence(const ReportData& data) {
-  std::vector<FeatureSummary> summaries;
-  summaries.reserve(data.features.size());
+  return judge(summaries_of(data), thresholds_of(data));
+}
+
+VerdictText report_verdict_text(const ReportData& data) {
+  VerdictContext context;
+  context.chains = data.run.chains;
+  context.draws = static_cast<std::size_t>(std::max<std::int64_t>(
+      0, data.run.draws_per_chain * static_cast<std::int64_t>(data.run.chains)));
   for (const ReportFeature& f : data.features)
-    summaries.push_back({f.probability, f.rhat, f.ess_bulk, f.ess_tail, kUndefined, f.mcse});
-  return judge(summaries, thresholds_of(data));
+    if (f.kind != FeatureKind::kScore && mcse_unreliable(f.probability, context.draws))
+      ++context.unreliable_mcse;
+  return verdict_text(assess_convergence(data), thresholds_of(data), context);
 }
 
 namespace {
@@ -75,6 +86,15 @@ void validate(const ReportData& d) {
                        ") names variables " + std::to_string(f.from) + " and " +
                        std::to_string(f.to) + ", outside 0.." + std::to_string(n - 1) +
                        " or equal");
+  }
+  for (const FeatureTrace& t : d.feature_traces) {
+    if (t.feature >= d.features.size())
+      throw InputError("report: a feature trace names feature " + std::to_string(t.feature) +
+                       " of " + std::to_string(d.features.size()));
+    for (const FeatureTrace::Chain& c : t.chains)
+      if (c.steps.size() != c.running_mean.size())
+        throw InputError("report: a feature trace has " + std::to_string(c.steps.size()) +
+                         " step numbers but " + std::to_string(c.running_mean.size()) + " values");
   }
   for (std::size_t c = 0; c < d.traces.size(); ++c)
     if (d.traces[c].steps.size() != d.traces[c].log_scores.size())
@@ -167,8 +187,9 @@ std::string percent(double v) {
 
 // --- figures -----------------------------------------------------------------------------------
 
-constexpr int kPageFigureWidth = 930;  // content width of a card on a wide screen
-constexpr int kMaxIsolatedDrawn = 12;  // more variables without an edge are listed, not drawn
+constexpr int kPageFigureWidth = 930;      // content width of a card on a wide screen
+constexpr int kMaxIsolatedDrawn = 12;      // more variables without an edge are listed, not drawn
+constexpr std::size_t kTracePoints = 400;  // points per chain in the trace plot
 
 struct Figure {
   std::string id, heading;
@@ -201,13 +222,28 @@ Figure trace_figure(const ReportData& d, const std::string& dir) {
   lp.title = "Log score of the sampled DAGs, by chain";
   lp.x_label = "step";
   lp.y_label = "log score";
+  // Thousands of draws per chain drawn as lines fill the plot as a solid band: each chain is
+  // shown by the means of at most kTracePoints consecutive blocks of its draws, which keeps a
+  // trend, a climb from the start and a chain stuck apart visible.
+  std::size_t block = 1;
+  for (const ChainTrace& t : d.traces)
+    block = std::max(block, (t.log_scores.size() + kTracePoints - 1) / kTracePoints);
   for (std::size_t c = 0; c < d.traces.size(); ++c) {
     plot::Series s;
     s.name = "chain " + std::to_string(c + 1);
-    s.x.assign(d.traces[c].steps.begin(), d.traces[c].steps.end());
-    s.y = d.traces[c].log_scores;
+    const ChainTrace& t = d.traces[c];
+    for (std::size_t at = 0; at < t.log_scores.size(); at += block) {
+      const std::size_t end = std::min(t.log_scores.size(), at + block);
+      double sum = 0;
+      for (std::size_t i = at; i < end; ++i) sum += t.log_scores[i];
+      s.x.push_back(static_cast<double>(t.steps[end - 1]));
+      s.y.push_back(sum / static_cast<double>(end - at));
+    }
     lp.series.push_back(std::move(s));
   }
+  if (block > 1)
+    lp.title = "Log score of the sampled DAGs, by chain (means of " + std::to_string(block) +
+               " consecutive draws)";
   const plot::FigureSize size{900, 380};
   write_both(lp, dir, "trace", size);
   Figure f{"trace",
@@ -222,6 +258,45 @@ Figure trace_figure(const ReportData& d, const std::string& dir) {
       "<b>What to look for:</b> the chains overlap and wander around the same level, with no "
       "trend and no chain stuck apart from the others. An early climb is a chain leaving its "
       "starting graph.";
+  if (block > 1)
+    f.caption_html += " Each point is the mean log score of " + std::to_string(block) +
+                      " consecutive kept draws of its chain, so that the chains stay apart.";
+  return f;
+}
+
+Figure feature_trace_figure(const ReportData& d, const std::string& dir, std::size_t k) {
+  const FeatureTrace& t = d.feature_traces[k];
+  const ReportFeature& feature = d.features[t.feature];
+  const std::string label = feature_label(feature, d.variables);
+  plot::LinePlot lp;
+  lp.title = "Running probability of " + label + ", by chain";
+  lp.x_label = "step";
+  lp.y_label = "probability so far";
+  for (std::size_t c = 0; c < t.chains.size(); ++c) {
+    plot::Series s;
+    s.name = "chain " + std::to_string(c + 1);
+    s.x.assign(t.chains[c].steps.begin(), t.chains[c].steps.end());
+    s.y = t.chains[c].running_mean;
+    lp.series.push_back(std::move(s));
+  }
+  const plot::FigureSize size{900, 300};
+  const std::string base = "feature-trace-" + std::to_string(k + 1);
+  write_both(lp, dir, base, size);
+  Figure f{base,
+           "Worst feature " + std::to_string(k + 1) + " by chain",
+           base + ".png",
+           {{"SVG", base + ".svg"}},
+           size.width,
+           size.height,
+           "Running probability of " + label + " in each chain against the step number",
+           ""};
+  f.caption_html =
+      "<b>What to look for:</b> the chains' lines meet at one value. Lines that stay apart are "
+      "chains that disagree about <b>" +
+      plot::markup_escape(label) + "</b> (R-hat " + rhat_text(feature.rhat) + ", bulk ESS " +
+      ess_text(feature.ess_bulk) +
+      "); a line that jumps in steps is a chain that rarely changes "
+      "this feature. Each point is the share of the chain's draws so far that hold it.";
   return f;
 }
 
@@ -364,6 +439,11 @@ Figure consensus_figure(const ReportData& d, const std::string& dir, const Conse
                    ", each labelled with it; thicker means more probable. It summarises the "
                    "edge marginals one at a time and need not be the most probable DAG. Dashed "
                    "boxes are variables without a consensus edge.";
+  if (!g.undirected.empty())
+    f.caption_html +=
+        " Dashed orange lines without arrowheads are links whose direction is uncertain: the "
+        "two variables are adjacent with the probability shown, but neither direction alone "
+        "passes the threshold.";
   if (g.edges.empty()) f.caption_html += " <b>No edge passes the threshold.</b>";
   const std::vector<int> isolated = isolated_variables(g);
   if (static_cast<int>(isolated.size()) > kMaxIsolatedDrawn) {
@@ -407,7 +487,8 @@ Figure comparison_figure(const ReportData& d, const std::string& dir) {
   const plot::FigureSize size{640, 600};
   write_both(sp, dir, "comparison", size);
   Figure f{"comparison",
-           "Restricted against unrestricted",
+           cmp.title.empty() ? "Edge probabilities: " + cmp.label_a + " against " + cmp.label_b
+                             : cmp.title,
            "comparison.png",
            {{"SVG", "comparison.svg"}},
            size.width,
@@ -463,6 +544,7 @@ h2 { font-size: 21px; margin: 0 0 14px; letter-spacing: -0.005em; }
   list-style: none; color: var(--muted); font-size: 15px; }
 .verdict .numbers b { color: var(--ink); font-variant-numeric: tabular-nums; }
 .verdict .rule { margin: 8px 0 0; color: var(--muted); font-size: 14.5px; }
+.verdict .measures { margin: 0 0 8px; font-size: 15px; font-variant-numeric: tabular-nums; }
 .caution { background: #fff7e6; border: 1px solid #f1c677; border-left: 8px solid var(--orange);
   border-radius: 14px; padding: 18px 24px; margin: 20px 0; }
 .caution h2 { font-size: 18px; margin: 0 0 6px; }
@@ -493,8 +575,7 @@ td.fail { color: var(--vermillion); font-weight: 700; }
 .note { color: var(--muted); font-size: 14.5px; margin: 10px 0 0; }
 figure { margin: 0; }
 figure img { display: block; max-width: 100%; height: auto; margin: 0 auto; border-radius: 6px; }
-.scroll { overflow-x: auto; }
-.scroll.wide img { max-width: none; margin: 0; }
+.fit { overflow: hidden; }
 figcaption { color: var(--muted); font-size: 15px; margin-top: 12px; }
 figcaption b { color: var(--ink); }
 figcaption .files { display: block; margin-top: 6px; font-size: 13.5px; }
@@ -524,45 +605,56 @@ window.addEventListener('load', function () {
   }
   document.body.setAttribute('data-images-loaded', String(loaded));
   document.body.setAttribute('data-images-total', String(images.length));
+  // Figures sticking out of their card's content box, and a page wider than the window: both mean something
+  // is cut off or needs sideways scrolling.
+  var clipped = 0;
+  for (var j = 0; j < images.length; j++) {
+    var card = images[j].closest('section'), box = images[j].getBoundingClientRect();
+    if (!card || box.width === 0) continue;
+    var frame = card.getBoundingClientRect(), style = getComputedStyle(card);
+    var left = frame.left + parseFloat(style.borderLeftWidth) + parseFloat(style.paddingLeft);
+    var right = frame.right - parseFloat(style.borderRightWidth) - parseFloat(style.paddingRight);
+    if (box.left < left - 0.5 || box.right > right + 0.5) clipped++;
+  }
+  document.body.setAttribute('data-figures-clipped', String(clipped));
+  document.body.setAttribute('data-page-overflow', String(
+    Math.max(0, document.documentElement.scrollWidth - document.documentElement.clientWidth)));
 });
 )JS";
 
 std::string verdict_html(const ReportData& d, const ConvergenceVerdict& v) {
   using State = ConvergenceVerdict::State;
-  const std::string rule = "R-hat &lt; " + fixed(d.rhat_threshold, 2) +
-                           " and bulk and tail ESS &gt; " + fixed(d.ess_threshold, 0);
-  std::string cls, badge, summary;
+  std::string cls, badge;
   switch (v.state) {
     case State::kConverged:
       cls = "ok";
       badge = "\u2713 Converged";
-      summary =
-          "All " + grouped(static_cast<std::int64_t>(v.features)) + " features meet " + rule + ".";
       break;
     case State::kNotConverged:
       cls = "bad";
       badge = "\u2715 Not converged";
-      summary = "<b>" + grouped(static_cast<std::int64_t>(v.failing)) + " of " +
-                grouped(static_cast<std::int64_t>(v.features)) + " features</b> fail " + rule +
-                ". Run the chains longer, and see the worst features below.";
       break;
     case State::kUndetermined:
       cls = "unknown";
       badge = "? Not assessed";
-      summary = "No feature has a defined diagnostic, so convergence cannot be judged against " +
-                rule + ".";
       break;
   }
-  std::string out = "<section class=\"card verdict " + cls +
-                    "\" id=\"verdict\">\n<div class=\"badge\">" + badge +
-                    "</div>\n<div>\n<p class=\"summary\">" + summary + "</p>\n";
+  // The sentence is the library's, as `check` and `chain` print it, with a capital letter.
+  const VerdictText text = report_verdict_text(d);
+  std::string summary = text.outcome;
+  if (!summary.empty()) summary[0] = static_cast<char>(std::toupper(summary[0]));
+  if (v.state == State::kNotConverged)
+    summary += ". Run the chains longer, and see the worst features below";
+  std::string out =
+      "<section class=\"card verdict " + cls + "\" id=\"verdict\">\n<div class=\"badge\">" + badge +
+      "</div>\n<div>\n<p class=\"summary\">" + plot::markup_escape(summary) + ".</p>\n";
+  if (!text.measures.empty())
+    out += "<p class=\"measures\">" + plot::markup_escape(text.measures) + "</p>\n";
   out += "<ul class=\"numbers\"><li>max R-hat <b>" + rhat_text(v.max_rhat) +
          "</b></li><li>min bulk ESS <b>" + ess_text(v.min_ess_bulk) +
-         "</b></li><li>min tail ESS <b>" + ess_text(v.min_ess_tail) + "</b></li>";
-  if (v.undefined > 0)
-    out += "<li><b>" + grouped(static_cast<std::int64_t>(v.undefined)) + "</b> constant " +
-           (v.undefined == 1 ? "feature" : "features") + " (R-hat undefined)</li>";
-  out += "</ul>\n";
+         "</b></li><li>min tail ESS <b>" + ess_text(v.min_ess_tail) + "</b></li></ul>\n";
+  for (const std::string& caveat : text.caveats)
+    out += "<p class=\"rule caveat\">Caveat: " + plot::markup_escape(caveat) + ".</p>\n";
   if (!d.run.verdict.empty())
     out += "<p class=\"rule\">Stopping rule of the run: " + plot::markup_escape(d.run.verdict) +
            "</p>\n";
@@ -617,12 +709,13 @@ std::string run_html(const ReportData& d) {
 }
 
 std::string worst_features_html(const ReportData& d, const ConvergenceVerdict& v) {
+  // The order of `covey check` (worst_first): failing features first, then passing ones, each
+  // by R-hat and then by the smaller ESS; undefined features are counted in the verdict instead.
+  const std::vector<FeatureSummary> summaries = summaries_of(d);
   std::vector<const ReportFeature*> order;
-  for (const auto& f : d.features)
-    if (badness(f, d) > -INFINITY) order.push_back(&f);  // some diagnostic defined
-  std::stable_sort(order.begin(), order.end(), [&](const ReportFeature* a, const ReportFeature* b) {
-    return badness(*a, d) > badness(*b, d);
-  });
+  for (std::size_t i : worst_first(summaries, thresholds_of(d)))
+    if (assess(summaries[i], thresholds_of(d)) != FeatureStatus::kUndefined)
+      order.push_back(&d.features[i]);
   constexpr std::size_t kShown = 12;
   const std::size_t shown = std::min(order.size(), kShown);
   std::string out = "<section class=\"card\" id=\"worst\">\n<h2>";
@@ -651,24 +744,67 @@ std::string worst_features_html(const ReportData& d, const ConvergenceVerdict& v
     out += cell(ess_text(f.ess_tail), ess_fails(f.ess_tail, d), std::isnan(f.ess_tail));
     out += "</tr>\n";
   }
-  out += "</tbody>\n</table>\n<p class=\"note\">Ordered by distance from the thresholds (R-hat " +
-         std::string("&lt; ") + fixed(d.rhat_threshold, 2) + ", ESS &gt; " +
-         fixed(d.ess_threshold, 0) +
-         "); failing values in vermillion. Posterior is the "
-         "probability of the feature (for the log score, its posterior mean); MCSE is its Monte "
-         "Carlo standard error.";
+  out +=
+      "</tbody>\n</table>\n<p class=\"note\">Failing first, then by R-hat and the smaller ESS, as "
+      "<code>covey check</code> orders them (R-hat " +
+      std::string("&lt; ") + fixed(d.rhat_threshold, 2) + ", ESS &gt; " +
+      fixed(d.ess_threshold, 0) +
+      "); failing values in vermillion. Posterior is the "
+      "probability of the feature (for the log score, its posterior mean); MCSE is its Monte "
+      "Carlo standard error.";
   if (order.size() > shown)
     out += " Showing the " + std::to_string(shown) + " worst of " +
            grouped(static_cast<std::int64_t>(order.size())) + ".";
   return out + "</p>\n</section>\n";
 }
 
+// The most probable features of one kind, with their MCSE: what the network is, as numbers.
+std::string probable_rows(const ReportData& d, FeatureKind kind, std::size_t shown) {
+  std::vector<const ReportFeature*> order;
+  for (const auto& f : d.features)
+    if (f.kind == kind && !std::isnan(f.probability)) order.push_back(&f);
+  std::stable_sort(order.begin(), order.end(), [](const ReportFeature* a, const ReportFeature* b) {
+    return a->probability > b->probability;
+  });
+  std::string out;
+  for (std::size_t i = 0; i < std::min(shown, order.size()); ++i) {
+    const ReportFeature& f = *order[i];
+    out += "<tr><td>" + plot::markup_escape(feature_label(f, d.variables)) + "</td><td>" +
+           fixed(f.probability, 3) +
+           "<span class=\"bar\"><span style=\"width:" + fixed(100 * f.probability, 1) +
+           "%\"></span></span></td><td>" + mcse_text(f.mcse) + "</td></tr>\n";
+  }
+  return out;
+}
+
+std::string network_html(const ReportData& d) {
+  constexpr std::size_t kShown = 15;
+  const std::string edges = probable_rows(d, FeatureKind::kEdge, kShown);
+  const std::string adjacencies = probable_rows(d, FeatureKind::kAdjacency, kShown);
+  if (edges.empty() && adjacencies.empty()) return "";
+  std::string out = "<section class=\"card\" id=\"network\">\n<h2>The most probable links</h2>\n";
+  const auto table = [&](const char* label, const std::string& rows) {
+    if (rows.empty()) return;
+    out += "<table aria-label=\"" + std::string(label) + "\">\n<thead><tr><th>" + label +
+           "</th><th>Posterior probability</th><th>MCSE</th></tr></thead>\n<tbody>\n" + rows +
+           "</tbody>\n</table>\n";
+  };
+  table("Directed edge", edges);
+  table("Adjacency (either direction)", adjacencies);
+  out +=
+      "<p class=\"note\">The " + std::to_string(kShown) +
+      " most probable of each kind. An adjacency far more probable than either of its edges is a "
+      "link whose direction the data leave open. MCSE is the Monte Carlo standard error of the "
+      "probability; one within 1/draws of 0 or 1 is unreliable.</p>\n";
+  return out + "</section>\n";
+}
+
 std::string figure_html(const Figure& f) {
   std::string out = "<section class=\"card\" id=\"" + f.id + "\">\n<h2>" +
                     plot::markup_escape(f.heading) + "</h2>\n<figure>\n";
-  // A figure wider than the page (a large consensus graph) scrolls rather than shrinking its
-  // text out of legibility.
-  out += f.width > kPageFigureWidth ? "<div class=\"scroll wide\">" : "<div class=\"scroll\">";
+  // Every figure fits its card: a wider one (a large consensus graph) is scaled down to the
+  // card's width, and its caption points to the full-size SVG.
+  out += "<div class=\"fit\">";
   out += "<a href=\"" + f.links.front().second + "\"><img src=\"" + f.png + "\" width=\"" +
          std::to_string(f.width) + "\" height=\"" + std::to_string(f.height) + "\" alt=\"" +
          plot::markup_escape(f.alt) + "\"></a></div>\n";
@@ -676,7 +812,10 @@ std::string figure_html(const Figure& f) {
   for (std::size_t i = 0; i < f.links.size(); ++i)
     out += (i ? " · " : "") + std::string("<a href=\"") + f.links[i].second + "\">" +
            plot::markup_escape(f.links[i].first) + "</a>";
-  out += " · <a href=\"" + f.png + "\">PNG</a></span></figcaption>\n</figure>\n</section>\n";
+  out += " · <a href=\"" + f.png + "\">PNG</a>";
+  if (f.width > kPageFigureWidth)
+    out += " (scaled down to fit the page; the SVG zooms without loss)";
+  out += "</span></figcaption>\n</figure>\n</section>\n";
   return out;
 }
 
@@ -690,14 +829,22 @@ std::string page_html(const ReportData& d, const ConvergenceVerdict& v,
   out += "<header>\n<h1>" + plot::markup_escape(d.title) + "</h1>\n<p class=\"source\">";
   if (!d.source.empty()) out += "From <code>" + plot::markup_escape(d.source) + "</code> · ";
   out += "covey " + std::string(kVersion) + "</p>\n<nav aria-label=\"sections\">";
-  out += "<a href=\"#verdict\">Verdict</a><a href=\"#run\">Run</a>";
+  const std::string network = network_html(d);
+  out += "<a href=\"#verdict\">Verdict</a>";
+  if (!network.empty()) out += "<a href=\"#network\">Most probable links</a>";
+  out += "<a href=\"#run\">Run</a>";
   for (const auto& f : figures) {
+    if (f.id.rfind("feature-trace-", 0) == 0) {  // one link for the worst features' traces
+      if (f.id == "feature-trace-1") out += "<a href=\"#" + f.id + "\">Worst features by chain</a>";
+      continue;
+    }
     out += "<a href=\"#" + f.id + "\">" + plot::markup_escape(f.heading) + "</a>";
     if (f.id == "ess") out += "<a href=\"#worst\">Worst features</a>";
   }
   out += "</nav>\n</header>\n";
   out += verdict_html(d, v);
   out += caution_html(d);
+  out += network;
   out += run_html(d);
   bool worst_written = false;
   for (const auto& f : figures) {
@@ -729,6 +876,8 @@ void write_report(const ReportData& data, const std::string& dir) {
     figures.push_back(rhat_figure(data, tmp, verdict));
     figures.push_back(ess_figure(data, tmp));
   }
+  for (std::size_t k = 0; k < data.feature_traces.size(); ++k)
+    figures.push_back(feature_trace_figure(data, tmp, k));
   if (!data.edge_probability.empty() && !data.variables.empty()) {
     figures.push_back(heat_map_figure(data, tmp));
     const ConsensusGraph graph =

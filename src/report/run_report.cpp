@@ -4,11 +4,11 @@
 #include <cstdio>
 #include <numeric>
 #include <optional>
+#include <span>
 #include <string>
 
 #include "covey/analysis/check.hpp"
 #include "covey/chains/structure_chain.hpp"
-#include "covey/core/enum_names.hpp"
 #include "covey/core/error.hpp"
 
 namespace covey {
@@ -43,6 +43,8 @@ RunFacts run_facts(const std::vector<ChainRun>& runs, const RunDiagnostics& d) {
   std::snprintf(buffer, sizeof buffer, "%.1f s", seconds);
   facts.extra.push_back({"sampling time (all files)", buffer});
   facts.extra.push_back({"run files", std::to_string(runs.size())});
+  // The options as people read them; a bound of -1 (off) is left out rather than shown as a
+  // raw value.
   const auto& o = runs.front().options();
   // The options that shaped the draws, in words; classes and moves that were off are left out.
   auto number = [](double x) {
@@ -75,6 +77,56 @@ std::vector<std::vector<double>> edge_matrix(const RunDiagnostics& d, int n) {
   return m;
 }
 
+// The indicator of feature `f` in every draw (chain-major).
+void feature_draws(const RunFeatures& draws, const FeatureId& f, std::span<double> out) {
+  switch (f.kind) {
+    case FeatureKind::kEdge:
+      return draws.edge(f.from, f.to, out);
+    case FeatureKind::kAdjacency:
+      return draws.adjacency(f.from, f.to, out);
+    case FeatureKind::kAncestor:
+      return draws.ancestor(f.from, f.to, out);
+    case FeatureKind::kScore:
+      return draws.log_score(out);
+  }
+}
+
+constexpr std::size_t kTracedFeatures = 3;    // worst features drawn by chain
+constexpr std::size_t kPointsPerChain = 400;  // points per chain in those plots
+
+// Running means per chain of the worst assessable 0/1 features (worst_first), thinned to at most
+// kPointsPerChain points per chain.
+std::vector<FeatureTrace> worst_feature_traces(const RunFeatures& draws, const RunDiagnostics& d,
+                                               const Thresholds& thresholds) {
+  std::vector<FeatureTrace> traces;
+  const auto iterations = static_cast<std::size_t>(draws.iterations());
+  std::vector<double> values(iterations * static_cast<std::size_t>(draws.chains()));
+  const std::size_t stride = std::max<std::size_t>(1, iterations / kPointsPerChain);
+  for (std::size_t i : worst_first(d.summaries, thresholds)) {
+    if (traces.size() == kTracedFeatures) break;
+    if (d.features[i].kind == FeatureKind::kScore ||
+        assess(d.summaries[i], thresholds) == FeatureStatus::kUndefined)
+      continue;
+    feature_draws(draws, d.features[i], values);
+    FeatureTrace trace;
+    trace.feature = i;
+    for (int c = 0; c < draws.chains(); ++c) {
+      const auto steps = draws.draw_steps(c);
+      FeatureTrace::Chain chain;
+      double sum = 0;
+      for (std::size_t t = 0; t < iterations; ++t) {
+        sum += values[static_cast<std::size_t>(c) * iterations + t];
+        if ((t + 1) % stride != 0 && t + 1 != iterations) continue;
+        chain.steps.push_back(steps[t]);
+        chain.running_mean.push_back(sum / static_cast<double>(t + 1));
+      }
+      trace.chains.push_back(std::move(chain));
+    }
+    traces.push_back(std::move(trace));
+  }
+  return traces;
+}
+
 }  // namespace
 
 ReportData report_data_from_runs(const std::vector<ChainRun>& runs, const RunFeatures& draws,
@@ -102,6 +154,7 @@ ReportData report_data_from_runs(const std::vector<ChainRun>& runs, const RunFea
     data.features.push_back(f);
   }
   data.edge_probability = edge_matrix(d, draws.num_variables());
+  data.feature_traces = worst_feature_traces(draws, d, thresholds);
   data.run = run_facts(runs, d);
   data.rhat_threshold = thresholds.max_rhat;
   data.ess_threshold = thresholds.min_ess;
@@ -110,21 +163,10 @@ ReportData report_data_from_runs(const std::vector<ChainRun>& runs, const RunFea
     data.cautions.push_back(std::to_string(verdict.failing) +
                             " features fail the convergence thresholds: the probabilities "
                             "shown are not yet reliable; run the chains longer.");
-  if (d.chains < 4)
+  if (d.chains >= 2 && d.chains < 4)  // one chain: the verdict's own caveat says more
     data.cautions.push_back("Only " + std::to_string(d.chains) +
                             " chains: R-hat is more reliable with 4 or more.");
   return data;
-}
-
-namespace {
-constexpr EnumName<ConvergenceVerdict::State> kStateNames[] = {
-    {ConvergenceVerdict::State::kConverged, "converged"},
-    {ConvergenceVerdict::State::kNotConverged, "not converged"},
-    {ConvergenceVerdict::State::kUndetermined, "undetermined"}};
-}  // namespace
-
-const char* to_string(ConvergenceVerdict::State state) {
-  return enum_name(kStateNames, state, "undetermined");
 }
 
 Comparison compare_run_edges(const RunDiagnostics& d, const PosteriorEstimate& other,
@@ -171,6 +213,8 @@ ReportData run_report_data(const RunReportRequest& request) {
   data.consensus_threshold = request.consensus;
   if (other) {
     data.comparison = compare_run_edges(d, *other, "chain run (" + request.runs.front() + ")");
+    data.comparison->title =
+        "Edge probabilities: " + data.comparison->label_a + " against " + data.comparison->label_b;
     if (other->source() == PosteriorSource::kCoverDraws)
       data.cautions.push_back(
           "The comparison's second posterior is restricted to the DAGs whose moral graph has "

@@ -7,6 +7,7 @@
 #include <string>
 #include <vector>
 
+#include "covey/chains/chain_runner.hpp"
 #include "covey/diagnostics/diagnostics.hpp"
 #include "covey/graph/features.hpp"
 
@@ -34,7 +35,16 @@ struct CheckResult {
   Thresholds thresholds;
   std::vector<std::size_t> worst_first;  // item indices, worst first (diagnostics' worst_first)
   Verdict verdict;
+  VerdictContext context;  // chains, draws, probabilities with an unreliable MCSE
 };
+
+// The verdict in the one wording of covey (diagnostics.hpp's verdict_text).
+VerdictText verdict_text(const CheckResult& result);
+// The stopping rule's verdict of `covey chain` (edge features of the run, judged with
+// until_rhat / until_ess or the defaults of Thresholds) in the same wording. The status holds
+// feature counts only, so the per-measure counts are left out.
+VerdictText stopping_verdict_text(const ConvergenceStatus& status, const ChainRunOptions& options,
+                                  int chains);
 
 // Throws OptionError ("<context>: {max_rhat} must exceed 1, ...") unless max_rhat > 1.
 void check_thresholds(const Thresholds& thresholds, const std::string& context = "check");

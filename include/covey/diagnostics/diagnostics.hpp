@@ -19,6 +19,7 @@
 #include <functional>
 #include <limits>
 #include <span>
+#include <string>
 #include <string_view>
 #include <vector>
 
@@ -168,6 +169,40 @@ struct Verdict {
   bool converged() const { return failing == 0 && passing > 0; }
 };
 Verdict judge(std::span<const FeatureSummary> summaries, const Thresholds& thresholds);
+// The state of the counts: undetermined when none was assessed, else converged iff none fails.
+Verdict::State verdict_state(std::size_t passing, std::size_t failing);
+// "converged", "not converged" or "undetermined".
+const char* to_string(Verdict::State state);
+
+// --- The verdict in words --------------------------------------------------------------------
+// One wording for `check`, `chain`'s summary and the report: the outcome, then pass / fail /
+// undefined per measure, then caveats. An undefined measure is never counted as met, so the
+// text says "N of M" whenever some features could not be assessed.
+
+// The MCSE of a probability estimated from `draws` draws in all is unreliable when the estimate
+// lies within 1/draws of 0 or 1 (at most one draw differs): the standard error then rests on one
+// change of the indicator. A constant feature (exactly 0 or 1) has no MCSE at all (undefined,
+// counted as not assessed) and is not counted here.
+bool mcse_unreliable(double probability, std::size_t draws);
+
+// What the wording needs beyond the counts of the verdict.
+struct VerdictContext {
+  int chains = 0;                   // below 2: R-hat compares the halves of one chain only
+  std::string noun = "features";    // plural of what was judged, e.g. "edge features"
+  std::size_t unreliable_mcse = 0;  // probabilities within 1/draws of 0 or 1 (mcse_unreliable)
+  std::size_t draws = 0;            // draws in all chains, named in the MCSE caveat
+};
+
+struct VerdictText {
+  std::string outcome;   // e.g. "not converged: 3 of 170 assessed features fail ..."
+  std::string measures;  // "R-hat: 167 pass, 3 fail, 161 undefined; bulk ESS: ...; tail ESS: ..."
+                         // empty when the verdict holds no per-measure counts
+  std::vector<std::string> caveats;  // fewer than 2 chains; unreliable MCSE
+};
+// The rule as a phrase: "R-hat < 1.01, bulk ESS > 400 and tail ESS > 400 where defined".
+std::string threshold_text(const Thresholds& thresholds);
+VerdictText verdict_text(const Verdict& verdict, const Thresholds& thresholds,
+                         const VerdictContext& context);
 
 // --- Regenerative standard error -----------------------------------------------------------
 

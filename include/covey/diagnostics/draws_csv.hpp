@@ -1,7 +1,8 @@
 #pragma once
 // Draws of named quantities from a CSV file, for `covey check --draws`.
 //
-// Layout: a header line naming the columns, one of them `chain` and one `iteration` (integers),
+// Layout: a header line naming the columns, one of them `chain` and one `iteration` (integers;
+// or `.chain` and `.iteration`, R's posterior's names, with an optional `.draw` that is skipped),
 // every other column one quantity (finite numbers); then one row per draw. Fields may be
 // double-quoted (as R's write.csv writes them). Draws of a chain are ordered by iteration
 // number; chains by their label. All chains must have the same number of draws, at least

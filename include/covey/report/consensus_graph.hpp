@@ -19,6 +19,10 @@ struct ConsensusGraph {
   std::vector<std::string> names;  // one per variable
   double threshold = 0.5;
   std::vector<ConsensusEdge> edges;  // probability > threshold; by decreasing probability
+  // Links whose direction is uncertain: pairs u < v where neither u -> v nor v -> u passes the
+  // threshold but P(u -> v) + P(v -> u), the probability of the adjacency, does (probability
+  // holds that sum; on_cycle is false). By decreasing probability.
+  std::vector<ConsensusEdge> undirected;
   bool has_cycle = false;
 };
 
@@ -29,7 +33,7 @@ ConsensusGraph consensus_graph(const std::vector<std::string>& names,
                                const std::vector<std::vector<double>>& edge_probability,
                                double threshold = 0.5);
 
-// Variables without any consensus edge, in index order.
+// Variables without any consensus edge or undirected link, in index order.
 std::vector<int> isolated_variables(const ConsensusGraph& graph);
 
 struct ConsensusDotOptions {
@@ -40,7 +44,8 @@ struct ConsensusDotOptions {
 };
 
 // DOT text: a node per variable, edge width growing with probability, each edge labelled with
-// it, cycle edges in vermillion with a note under the graph.
+// it, cycle edges in vermillion with a note under the graph; undirected links as dashed lines
+// without arrowheads, labelled with the adjacency probability.
 std::string consensus_dot(const ConsensusGraph& graph, const ConsensusDotOptions& options = {});
 
 // Lays out DOT text with graphviz ("dot" layout) and writes it as .svg or .png (by extension)

@@ -2,7 +2,8 @@
 // covey's visual report: one folder holding index.html (self-contained: inline CSS, no network)
 // and the figures it shows (PNG, with the SVG and the consensus DOT beside them). The page
 // leads with the convergence verdict and a caution about reading structure as cause, then the
-// run facts, trace plot, R-hat and ESS distributions, the worst features, the edge-probability
+// run facts, trace plot, R-hat and ESS distributions, the worst features and their running
+// probabilities by chain, the edge-probability
 // heat map, the consensus DAG and, when given, the comparison of two posteriors edge by edge.
 //
 // ReportData is a plain in-memory model: whoever reads a run's files fills it. Undefined values
@@ -37,6 +38,18 @@ struct ChainTrace {
   std::vector<double> log_scores;   // log w(G) of each kept draw (same length)
 };
 
+// One feature's indicator as each chain saw it: its running mean (the probability estimated from
+// that chain's draws up to each point). Chains settling on different values show a feature that
+// has not mixed.
+struct FeatureTrace {
+  std::size_t feature = 0;  // index into ReportData::features
+  struct Chain {
+    std::vector<std::int64_t> steps;   // step number of each point
+    std::vector<double> running_mean;  // same length
+  };
+  std::vector<Chain> chains;
+};
+
 struct ComparisonPair {
   int from = 0, to = 0;                         // the edge from -> to
   double a = kUndefined, b = kUndefined;        // its probability under posteriors A and B
@@ -46,6 +59,7 @@ struct ComparisonPair {
 // Two estimates of the same edge probabilities, e.g. the restricted class D_k (exact) against
 // the unrestricted chains.
 struct Comparison {
+  std::string title;  // the section heading, naming what is compared ("" : from the labels)
   std::string label_a, label_b;  // axis labels, e.g. "exact, cover-bounded class (k = 2)"
   std::vector<ComparisonPair> pairs;
 };
@@ -71,6 +85,7 @@ struct ReportData {
   std::vector<std::string> variables;
   std::vector<ChainTrace> traces;  // one per chain
   std::vector<ReportFeature> features;
+  std::vector<FeatureTrace> feature_traces;           // the worst features, each drawn by chain
   std::vector<std::vector<double>> edge_probability;  // [from][to], n x n (diagonal NaN) or empty
   std::optional<Comparison> comparison;
   RunFacts run;
@@ -85,6 +100,9 @@ struct ReportData {
 // rhat_threshold and ess_threshold.
 using ConvergenceVerdict = Verdict;
 ConvergenceVerdict assess_convergence(const ReportData& data);
+// The verdict in the one wording of covey (verdict_text in diagnostics.hpp), with the caveats
+// of the run's chains and of probabilities whose MCSE is unreliable.
+VerdictText report_verdict_text(const ReportData& data);
 
 // A feature's name for people, e.g. "smoker → cancer", "age — income", "log score".
 std::string feature_label(const ReportFeature& feature, const std::vector<std::string>& names);

@@ -38,7 +38,4 @@ ReportData run_report_data(const RunReportRequest& request);
 Comparison compare_run_edges(const RunDiagnostics& diagnostics, const PosteriorEstimate& other,
                              const std::string& run_label);
 
-// "converged", "not converged" or "undetermined".
-const char* to_string(ConvergenceVerdict::State state);
-
 }  // namespace covey
