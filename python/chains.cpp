@@ -95,6 +95,8 @@ ChainRunSummary run_interruptible(const ScoreTable& table, const std::string& pa
   ChainRunSummary summary;
   std::exception_ptr failure;
   std::optional<py::error_already_set> interruption;
+  // Asked to stop before it starts: the run makes its first segment and checkpoints.
+  if (!stop.is_none() && py::bool_(stop())) stop_flag = SIGINT;
   {
     py::gil_scoped_release release;
     std::thread worker([&] {

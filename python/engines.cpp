@@ -37,6 +37,7 @@ py::array_t<double> matrix(int n, Probability probability) {
 
 py::dict best(const py::object& table_or_path, int cover, int threads) {
   const auto table = table_of(table_or_path);
+  check_cover_bound(*table, cover, "cover");
   const auto limit = thread_limit(threads);
   CoverBestResult best;
   {
@@ -60,6 +61,7 @@ py::dict draw(const py::object& table_or_path, int cover, std::size_t count, std
   const auto table = table_of(table_or_path);
   const std::uint64_t limit = memory_limit_of(memory_limit);
   const auto thread_ceiling = thread_limit(threads);
+  check_cover_bound(*table, cover, "cover");
   if (count == 0) throw OptionError("{count} must be positive");
   require_draws_memory(static_cast<double>(count), table->num_variables(), "count", limit);
   CoverSampler sampler;
