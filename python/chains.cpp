@@ -88,10 +88,27 @@ double seconds_of(const py::object& duration, const char* keyword) {
 // them) stops the run at its next segment with a checkpoint and is raised afterwards.
 ChainRunSummary run_interruptible(const ScoreTable& table, const std::string& path,
                                   const ChainRunOptions& options, ChainRunHooks hooks, bool resume,
-                                  const py::object& stop) {
+                                  const py::object& stop, const py::object& report) {
   std::atomic<int> stop_flag{0};
   std::atomic<bool> done{false};
+  std::atomic<std::uint64_t> steps{0}, target{0};
   hooks.stop_signal = &stop_flag;
+  hooks.on_segment = [&](std::uint64_t now, std::uint64_t goal) {
+    steps = now;
+    target = goal;
+  };
+  const auto start = std::chrono::steady_clock::now();
+  auto last_report = start;
+  std::uint64_t reported = 0;
+  // Calls report(steps, target, seconds) about twice a second while the steps advance.
+  auto report_progress = [&](bool force) {
+    const auto now = std::chrono::steady_clock::now();
+    if (report.is_none() || steps == reported) return;
+    if (!force && now - last_report < std::chrono::milliseconds(500)) return;
+    reported = steps;
+    last_report = now;
+    report(reported, target.load(), std::chrono::duration<double>(now - start).count());
+  };
   ChainRunSummary summary;
   std::exception_ptr failure;
   std::optional<py::error_already_set> interruption;
@@ -114,6 +131,7 @@ ChainRunSummary run_interruptible(const ScoreTable& table, const std::string& pa
       try {
         if (PyErr_CheckSignals() != 0) throw py::error_already_set();
         if (!stop.is_none() && py::bool_(stop())) stop_flag = SIGINT;
+        report_progress(false);
       } catch (py::error_already_set& e) {
         interruption.emplace(std::move(e));
         stop_flag = SIGINT;
@@ -122,6 +140,7 @@ ChainRunSummary run_interruptible(const ScoreTable& table, const std::string& pa
     worker.join();
   }
   if (failure) std::rethrow_exception(failure);
+  report_progress(true);
   if (interruption) throw std::move(*interruption);
   return summary;
 }
@@ -131,7 +150,7 @@ py::object chain(const py::object& table_or_path, const std::string& path,
                  const py::object& max_time, const py::object& checkpoint_every, double until_rhat,
                  double until_ess, const std::string& teleport_sampler,
                  const py::object& memory_limit, int threads, bool resume, bool progress,
-                 const py::object& stop) {
+                 const py::object& stop, const py::object& report) {
   const auto table = table_of(table_or_path);
   ChainRunOptions o = resume ? resumed_options(fixed, path) : fixed_options_of(fixed);
   if (steps) {
@@ -153,7 +172,7 @@ py::object chain(const py::object& table_or_path, const std::string& path,
   ChainRunHooks hooks = support->hooks();
   hooks.progress = progress;
   hooks.command_line = "python: covey.chain";
-  const ChainRunSummary summary = run_interruptible(*table, path, o, hooks, resume, stop);
+  const ChainRunSummary summary = run_interruptible(*table, path, o, hooks, resume, stop, report);
   return json_to_python(summary.to_json().dump());
 }
 
@@ -293,12 +312,12 @@ void bind_chains(py::module_& m) {
          std::optional<double> block_rate, const py::object& max_time,
          const py::object& checkpoint_every, double until_rhat, double until_ess,
          const std::string& teleport_sampler, const py::object& memory_limit, int threads,
-         bool resume, bool progress, const py::object& stop) {
+         bool resume, bool progress, const py::object& stop, const py::object& report) {
         const FixedArguments fixed{chains,         thin,          burn_in,   seed,
                                    teleport_cover, teleport_rate, rev_rate,  cover_limit,
                                    start,          block_size,    block_rate};
         return chain(table, path, fixed, steps, max_time, checkpoint_every, until_rhat, until_ess,
-                     teleport_sampler, memory_limit, threads, resume, progress, stop);
+                     teleport_sampler, memory_limit, threads, resume, progress, stop, report);
       },
       py::arg("table"), py::arg("path"), py::arg("chains"), py::arg("steps"), py::arg("thin"),
       py::arg("burn_in"), py::arg("seed"), py::arg("teleport_cover"), py::arg("teleport_rate"),
@@ -306,7 +325,7 @@ void bind_chains(py::module_& m) {
       py::arg("block_rate"), py::arg("max_time"), py::arg("checkpoint_every"),
       py::arg("until_rhat"), py::arg("until_ess"), py::arg("teleport_sampler"),
       py::arg("memory_limit"), py::arg("threads"), py::arg("resume"), py::arg("progress"),
-      py::arg("stop"));
+      py::arg("stop"), py::arg("report"));
 
   py::class_<Run>(m, "_Run")
       .def(py::init<const std::string&>(), py::arg("path"))

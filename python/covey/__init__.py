@@ -14,6 +14,7 @@ compiled module ``covey._covey``; this file only turns its results into labelled
 """
 
 import os as _os
+import sys as _sys
 import threading as _threading
 
 import numpy as _np
@@ -226,6 +227,27 @@ def _stop_callable(stop):
     raise OptionError("stop must be None, a callable or a threading.Event")
 
 
+class _NotebookProgress:
+    """A progress line for notebooks, where stderr is no terminal: rewritten in place."""
+
+    def __call__(self, steps, target, seconds):
+        share = f" ({100 * steps / target:.0f}%)" if target else ""
+        total = f" of {target:,}" if target else ""
+        print(f"\rchain: {steps:,}{total} steps per chain{share}, {seconds:.1f} s", end="",
+              file=_sys.stderr, flush=True)
+
+
+def _progress_of(progress):
+    """(library's terminal line on?, Python callback or None) for chain(progress=...)."""
+    if callable(progress):
+        return False, progress
+    if not progress:
+        return False, None
+    if "ipykernel" in _sys.modules and not _sys.stderr.isatty():
+        return False, _NotebookProgress()
+    return True, None
+
+
 def chain(table, path, *, steps=None, chains=None, thin=None, burn_in=None, seed=None,
           teleport_cover=None, teleport_rate=None, rev_rate=None, cover_limit=None, start=None,
           block_size=None, block_rate=None, max_time=None, checkpoint_every="5m",
@@ -239,7 +261,9 @@ def chain(table, path, *, steps=None, chains=None, thin=None, burn_in=None, seed
     cover_limit none, start "greedy" ("exact" with teleport_cover), block_size and block_rate
     chosen from the cost model. On resume=True they are read from the file (given anew, they
     must repeat it). Stopping: steps (total per chain), max_time ("10m", or seconds),
-    until_rhat / until_ess. A progress line is shown when stderr is a terminal.
+    until_rhat / until_ess. progress: True shows a progress line on a terminal and in Jupyter
+    notebooks; a callable gets (steps per chain so far, step target or 0, seconds) about twice
+    a second.
 
     Ctrl-C (KeyboardInterrupt) or stop (a callable returning True, or a threading.Event)
     ends the run at its next segment with a checkpoint; chain(..., resume=True) continues it
@@ -250,16 +274,20 @@ def chain(table, path, *, steps=None, chains=None, thin=None, burn_in=None, seed
     'steps'
     """
     path = _os.fspath(path)
+    terminal_line, report = _progress_of(progress)
     try:
         return _covey._chain(table, path, chains, steps, thin, burn_in,
                              None if seed is None else _seed(seed), teleport_cover,
                              teleport_rate, rev_rate, cover_limit, start, block_size, block_rate,
                              max_time, checkpoint_every, until_rhat, until_ess,
                              _os.fspath(teleport_sampler), memory_limit, threads, resume,
-                             progress, _stop_callable(stop))
+                             terminal_line, _stop_callable(stop), report)
     except KeyboardInterrupt:
         raise KeyboardInterrupt(f"covey.chain stopped; checkpoint written to {path} "
                                 "(continue with resume=True)") from None
+    finally:
+        if isinstance(report, _NotebookProgress):
+            print(file=_sys.stderr)
 
 
 class Run:

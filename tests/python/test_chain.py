@@ -88,3 +88,11 @@ def test_check_equals_cli_json(tmp_path, sensors_scores):
                 assert np.isnan(row[key])
             else:
                 assert row[key] == pytest.approx(value, rel=1e-12)
+
+
+def test_progress_callback_sees_the_steps(tmp_path, sensors_scores):
+    seen = []
+    covey.chain(sensors_scores, tmp_path / "run.h5", steps=20000,
+                progress=lambda steps, target, seconds: seen.append((steps, target)), **OPTIONS)
+    assert seen and seen[-1] == (20000, 20000)
+    assert all(0 < steps <= 20000 for steps, _ in seen)
