@@ -30,5 +30,6 @@ void bind_errors(py::module_& m);
 void bind_tables(py::module_& m);
 void bind_engines(py::module_& m);
 void bind_chains(py::module_& m);
+void bind_analysis(py::module_& m);
 
 }  // namespace covey::python

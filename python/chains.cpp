@@ -1,8 +1,8 @@
-// Chains from Python (`covey chain`), run files opened as arrays, and the convergence check of
-// runs (`covey check`). A chain runs on a worker thread while the calling thread waits with the
-// GIL held at intervals, so Ctrl-C (KeyboardInterrupt) and a stop= callback reach the library's
-// stop flag (ChainRunHooks::stop_signal): the run then writes its checkpoint and ends, and
-// resume=True continues it bit for bit (docs/chains.md).
+// Chains from Python (`covey chain`) and run files opened as arrays. A chain runs on a worker
+// thread while the calling thread waits with the GIL held at intervals, so Ctrl-C
+// (KeyboardInterrupt) and a stop= callback reach the library's stop flag
+// (ChainRunHooks::stop_signal): the run then writes its checkpoint and ends, and resume=True
+// continues it bit for bit (docs/chains.md).
 #include <pybind11/numpy.h>
 #include <pybind11/stl.h>
 
@@ -12,7 +12,6 @@
 #include <thread>
 
 #include "bindings.hpp"
-#include "covey/analysis/check.hpp"
 #include "covey/chains/chain_run_file.hpp"
 #include "covey/chains/chain_runner.hpp"
 #include "covey/chains/chain_support.hpp"
@@ -234,70 +233,6 @@ class Run {
   std::uint64_t draws_ = UINT64_MAX;
 };
 
-py::dict check(const std::vector<std::string>& files, const std::string& features, bool draws,
-               double max_rhat, double min_ess, int threads) {
-  Thresholds thresholds;
-  thresholds.max_rhat = max_rhat;
-  thresholds.min_ess = min_ess;
-  check_thresholds(thresholds);
-  const auto thread_ceiling = thread_limit(threads);
-  CheckResult in;
-  {
-    py::gil_scoped_release release;
-    if (draws && files.size() != 1)
-      throw InputError("check(draws=True): expected one CSV file, got " +
-                       std::to_string(files.size()));
-    in = draws ? check_draws_csv(files[0], thresholds)
-               : check_chain_runs(files, parse_feature_kinds(features, "features"), thresholds);
-  }
-  py::list kind, name, from, to, mean, rhat, ess_bulk, ess_tail, ess_mean, mcse, status, regen;
-  for (std::size_t i : in.worst_first) {
-    const CheckedItem& item = in.items[i];
-    const FeatureSummary& s = in.summaries[i];
-    kind.append(item.kind);
-    name.append(item.name.empty() ? item.display_name : item.name);
-    from.append(item.from);
-    to.append(item.to);
-    mean.append(s.mean);
-    rhat.append(s.rhat);
-    ess_bulk.append(s.ess_bulk);
-    ess_tail.append(s.ess_tail);
-    ess_mean.append(s.ess_mean);
-    mcse.append(s.mcse);
-    status.append(to_string(in.status[i]));
-    regen.append(in.regenerative_se.empty() ? NAN : in.regenerative_se[i]);
-  }
-  py::dict columns;
-  columns["kind"] = kind;
-  columns["name"] = name;
-  columns["from"] = from;
-  columns["to"] = to;
-  columns["mean"] = mean;
-  columns["rhat"] = rhat;
-  columns["ess_bulk"] = ess_bulk;
-  columns["ess_tail"] = ess_tail;
-  columns["ess_mean"] = ess_mean;
-  columns["mcse"] = mcse;
-  columns["regenerative_se"] = regen;
-  columns["status"] = status;
-  const Verdict& v = in.verdict;
-  py::dict verdict;
-  verdict["converged"] = v.converged();
-  verdict["passing"] = v.passing;
-  verdict["failing"] = v.failing;
-  verdict["undefined"] = v.undefined;
-  verdict["max_rhat"] = v.max_rhat;
-  verdict["min_ess_bulk"] = v.min_ess_bulk;
-  verdict["min_ess_tail"] = v.min_ess_tail;
-  py::dict out;
-  out["columns"] = columns;
-  out["verdict"] = verdict;
-  out["chains"] = in.chains;
-  out["draws_per_chain"] = in.iterations;
-  out["regenerations"] = in.regenerations;
-  return out;
-}
-
 }  // namespace
 
 void bind_chains(py::module_& m) {
@@ -345,9 +280,6 @@ void bind_chains(py::module_& m) {
       .def("draw_steps", [](const Run& r) {
         return r.series<std::int64_t>([](const ChainRun& run, int c) { return run.draw_steps(c); });
       });
-
-  m.def("_check", &check, py::arg("files"), py::arg("features"), py::arg("draws"),
-        py::arg("max_rhat"), py::arg("min_ess"), py::arg("threads"));
 }
 
 }  // namespace covey::python

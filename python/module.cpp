@@ -113,4 +113,5 @@ PYBIND11_MODULE(_covey, m) {
   covey::python::bind_tables(m);
   covey::python::bind_engines(m);
   covey::python::bind_chains(m);
+  covey::python::bind_analysis(m);
 }

@@ -34,7 +34,7 @@ from . import _covey
 __all__ = [
     "Error", "InputError", "OptionError", "ResourceError", "ScoreTable", "read_scores", "score",
     "best", "draw", "exact", "chain", "open_run", "check", "Best", "CoverDraws",
-    "ExactPosterior", "Run", "Check",
+    "ExactPosterior", "Run", "Check", "compare", "Comparison",
 ]
 
 
@@ -370,3 +370,32 @@ def check(runs, *, features="edges,adjacencies,ancestors,score", draws=False, ma
     files = [_os.fspath(runs)] if isinstance(runs, (str, _os.PathLike)) else \
         [_os.fspath(r) for r in runs]
     return Check(_covey._check(files, features, draws, max_rhat, min_ess, threads))
+
+
+class Comparison:
+    """Two posteriors side by side (``covey compare``): features (DataFrame kind, from, to, a,
+    b, diff = b - a, se; largest |diff| first), a and b (what each side is),
+    mass_in_cover_class and log_total_weight_all (dicts, or None when no side is
+    cover-bounded and no cover= was given)."""
+
+    def __init__(self, raw):
+        self.a = raw["a"]
+        self.b = raw["b"]
+        self.features = _pd.DataFrame(raw["columns"])
+        self.mass_in_cover_class = raw["mass_in_cover_class"]
+        self.log_total_weight_all = raw["log_total_weight_all"]
+
+    def __repr__(self):
+        return f"<covey.Comparison: {len(self.features)} features; a: {self.a}; b: {self.b}>"
+
+
+def compare(a, b, *, features="edges,adjacencies,ancestors", cover=None, exact_draws=20000,
+            seed=1, threads=0):
+    """Feature probabilities of two posteriors and their differences with standard errors.
+
+    a, b: a chain run (or a list of run files of one run), cover or exact draws, or a score
+    table (its exact posterior over all DAGs). cover=k adds the posterior mass of D_k.
+
+    >>> covey.compare("run.h5", "scores.h5").features.head()
+    """
+    return Comparison(_covey._compare(a, b, features, cover, exact_draws, _seed(seed), threads))

@@ -96,3 +96,18 @@ def test_progress_callback_sees_the_steps(tmp_path, sensors_scores):
                 progress=lambda steps, target, seconds: seen.append((steps, target)), **OPTIONS)
     assert seen and seen[-1] == (20000, 20000)
     assert all(0 < steps <= 20000 for steps, _ in seen)
+
+
+def test_compare_equals_cli_json(tmp_path, sensors_scores):
+    """A run against the exact posterior of its table: the same rows as `covey compare`."""
+    path = tmp_path / "run.h5"
+    covey.chain(sensors_scores, path, steps=20000, **OPTIONS)
+    cli = run_covey("compare", path, sensors_scores, "--cover", 2, "--json")
+    result = covey.compare(path, sensors_scores, cover=2)
+    assert len(result.features) == len(cli["features"])
+    for (_, row), expected in zip(result.features.iterrows(), cli["features"]):
+        assert (row["kind"], row["from"], row["to"]) == (expected["kind"], expected["from"],
+                                                         expected["to"])
+        assert row["diff"] == pytest.approx(expected["diff"], rel=1e-12, abs=1e-15)
+    assert result.mass_in_cover_class["estimate"] == pytest.approx(
+        cli["mass_in_cover_class"]["estimate"], rel=1e-12)
