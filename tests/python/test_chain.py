@@ -111,3 +111,12 @@ def test_compare_equals_cli_json(tmp_path, sensors_scores):
         assert row["diff"] == pytest.approx(expected["diff"], rel=1e-12, abs=1e-15)
     assert result.mass_in_cover_class["estimate"] == pytest.approx(
         cli["mass_in_cover_class"]["estimate"], rel=1e-12)
+
+
+def test_notebook_progress_line(tmp_path, sensors_scores, monkeypatch, capsys):
+    """Under a Jupyter kernel (stderr no terminal) progress=True writes the Python line."""
+    import sys
+    monkeypatch.setitem(sys.modules, "ipykernel", object())
+    covey.chain(sensors_scores, tmp_path / "run.h5", steps=20000, **OPTIONS)
+    err = capsys.readouterr().err
+    assert "\rchain: 20,000 of 20,000 steps per chain (100%)" in err and err.endswith("\n")
