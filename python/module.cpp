@@ -4,6 +4,9 @@
 // exceptions with the library's message.
 #include <pybind11/pybind11.h>
 
+#include <cctype>
+#include <string_view>
+
 #include "bindings.hpp"
 #include "covey/core/error.hpp"
 #include "covey/core/memory.hpp"
@@ -29,6 +32,41 @@ std::string keyword_of(const std::string& field) {
   return keyword;
 }
 
+// A library message with the CLI's flags in it ("--teleport-rate must lie in [0, 1]") as
+// Python users write the option: each "--flag" that starts a word becomes its keyword
+// (teleport_rate), --discrete and --gaussian the kind= values they stand for.
+std::string with_keywords(const std::string& message) {
+  static const std::pair<const char*, const char*> kRenamed[] = {
+      {"discrete", "kind='discrete'"},
+      {"gaussian", "kind='gaussian'"},
+  };
+  std::string out;
+  std::size_t at = 0;
+  while (at < message.size()) {
+    const bool word_start =
+        at == 0 || std::string_view(" ('\"").find(message[at - 1]) != std::string_view::npos;
+    if (!word_start || message.compare(at, 2, "--") != 0 || at + 2 >= message.size() ||
+        !std::islower(static_cast<unsigned char>(message[at + 2]))) {
+      out += message[at++];
+      continue;
+    }
+    std::size_t end = at + 2;
+    while (end < message.size() &&
+           (std::islower(static_cast<unsigned char>(message[end])) ||
+            std::isdigit(static_cast<unsigned char>(message[end])) || message[end] == '-'))
+      ++end;
+    std::string flag = message.substr(at + 2, end - at - 2);
+    std::string keyword = flag;
+    for (char& c : keyword)
+      if (c == '-') c = '_';
+    for (const auto& [name, spelled] : kRenamed)
+      if (flag == name) keyword = spelled;
+    out += keyword;
+    at = end;
+  }
+  return out;
+}
+
 // Python classes of the library's errors, kept alive by the module that holds them.
 struct ErrorClasses {
   py::handle error, input, option, resource;
@@ -49,9 +87,9 @@ void translate_error(std::exception_ptr error) {
   } catch (const OptionError& e) {
     PyErr_SetString(g_errors.option.ptr(), e.render(keyword_of).c_str());
   } catch (const InputError& e) {
-    PyErr_SetString(g_errors.input.ptr(), e.what());
+    PyErr_SetString(g_errors.input.ptr(), with_keywords(e.what()).c_str());
   } catch (const ResourceError& e) {
-    PyErr_SetString(g_errors.resource.ptr(), e.what());
+    PyErr_SetString(g_errors.resource.ptr(), with_keywords(e.what()).c_str());
   } catch (const Error& e) {
     PyErr_SetString(g_errors.error.ptr(), e.what());
   }

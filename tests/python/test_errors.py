@@ -49,3 +49,17 @@ def test_missing_cells_follow_the_csv_reader():
     with pytest.raises(covey.InputError, match="missing"):
         covey.score(frame)
     assert covey.score(frame, drop_incomplete=True).info()["num_rows"] == 15
+
+
+def test_flags_in_library_messages_read_as_keywords(tmp_path):
+    """Messages that still name the CLI's flags ("--teleport-rate") name the keywords instead;
+    a path holding "--" stays as it is."""
+    table = covey.score(pd.DataFrame({"a": ["x", "y"] * 20, "b": ["u", "v", "v", "u"] * 10}))
+    with pytest.raises(covey.InputError, match=r"^teleport_rate must lie in \[0, 1\]$"):
+        covey.chain(table, tmp_path / "run.h5", steps=10, teleport_cover=1, teleport_rate=2)
+    with pytest.raises(covey.InputError, match="^give a stopping rule: steps N, max_time"):
+        covey.chain(table, tmp_path / "run.h5")
+    with pytest.raises(covey.ResourceError, match=r"\(raise memory_limit or max_seconds"):
+        covey.exact(table, memory_limit=16)
+    with pytest.raises(covey.InputError, match="/--odd/scores.h5: cannot open"):
+        covey.read_scores(tmp_path / "--odd" / "scores.h5")
