@@ -6,12 +6,12 @@ DEBIAN_PACKAGES := cmake g++ make pkg-config libeigen3-dev libboost-random-dev l
   libhdf5-dev hdf5-tools libcli11-dev nlohmann-json3-dev libgtest-dev libbenchmark-dev \
   python3 python3-numpy python3-scipy python3-h5py r-base-core r-cran-posterior r-cran-mass \
   libcairo2-dev graphviz libgraphviz-dev fonts-dejavu-core chromium clang \
-  openmpi-bin libopenmpi-dev
+  openmpi-bin libopenmpi-dev pybind11-dev python3-pybind11 python3-pandas python3-pytest
 JOBS ?= $(shell nproc 2>/dev/null || echo 2)
 SUDO := $(shell [ "$$(id -u)" -eq 0 ] || echo sudo)
 CMAKE_FLAGS ?=
 
-.PHONY: deps build build-asan check test unit-test asan-test fuzz-smoke fuzz demo bench format cli-docs install clean
+.PHONY: deps build build-asan check test unit-test asan-test fuzz-smoke fuzz demo bench format cli-docs install clean python
 
 deps:
 	@missing=$$(for p in $(DEBIAN_PACKAGES); do \
@@ -60,6 +60,13 @@ fuzz: build-asan
 	tests/fuzz/run_fuzz.sh build-asan $(FUZZ_SECONDS)
 
 test: unit-test asan-test fuzz-smoke
+
+# The Python module (python/) in build/python: PYTHONPATH=build/python /usr/bin/python3, then
+# `import covey`; its pytest suite (tests/python/) runs with the other tests (label python).
+python: deps
+	cmake -S . -B build -DCMAKE_BUILD_TYPE=Release $(CMAKE_FLAGS) >/dev/null
+	cmake --build build -j $(JOBS) --target covey covey_python
+	cd build && ctest --output-on-failure -L python
 
 demo: build
 	bash examples/run_demo.sh

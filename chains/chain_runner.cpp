@@ -304,6 +304,7 @@ class Runner {
       run_segment(len);
       const double took = seconds_since(t0);
       steps_ += len;
+      if (hooks_.on_segment) hooks_.on_segment(steps_, o_.steps);
       // Segment length for about kSegmentSeconds (does not affect the trajectories).
       const double factor = std::clamp(kSegmentSeconds / std::max(took, 1e-6), 0.25, 4.0);
       const auto next =

@@ -41,6 +41,9 @@ struct ChainRunHooks {
   ConvergenceCheck convergence;                   // for until_rhat / until_ess
   const std::atomic<int>* stop_signal = nullptr;  // nonzero: checkpoint now and stop
   bool progress = true;  // a progress line, shown only when stderr is a terminal
+  // Called on the run's main thread after every segment with the steps per chain so far and
+  // the step target (0: none): progress for front ends without a terminal (notebooks).
+  std::function<void(std::uint64_t steps, std::uint64_t target)> on_segment;
   std::string command_line;
 };
 

@@ -1,0 +1,285 @@
+// Chains from Python (`covey chain`) and run files opened as arrays. A chain runs on a worker
+// thread while the calling thread waits with the GIL held at intervals, so Ctrl-C
+// (KeyboardInterrupt) and a stop= callback reach the library's stop flag
+// (ChainRunHooks::stop_signal): the run then writes its checkpoint and ends, and resume=True
+// continues it bit for bit (docs/chains.md).
+#include <pybind11/numpy.h>
+#include <pybind11/stl.h>
+
+#include <chrono>
+#include <csignal>
+#include <optional>
+#include <thread>
+
+#include "bindings.hpp"
+#include "covey/chains/chain_run_file.hpp"
+#include "covey/chains/chain_runner.hpp"
+#include "covey/chains/chain_support.hpp"
+#include "covey/core/error.hpp"
+
+namespace covey::python {
+namespace {
+
+// The options fixed when a run is created, by keyword; None: the CLI's default (or, on resume,
+// the stored value).
+struct FixedArguments {
+  std::optional<int> chains;
+  std::optional<std::uint64_t> thin, burn_in, seed;
+  std::optional<int> teleport_cover;
+  std::optional<double> teleport_rate, rev_rate;
+  std::optional<int> cover_limit;
+  std::optional<std::string> start;
+  std::optional<int> block_size;
+  std::optional<double> block_rate;
+};
+
+// The CLI's defaults for options not given (`covey chain --help`).
+ChainRunOptions fixed_options_of(const FixedArguments& a) {
+  ChainRunOptions o;
+  o.chains = a.chains.value_or(4);
+  o.thin = a.thin.value_or(1000);
+  o.burn_in = a.burn_in.value_or(0);
+  o.seed = a.seed.value_or(1);
+  o.teleport_cover = a.teleport_cover.value_or(-1);
+  o.teleport_rate = a.teleport_rate.value_or(o.teleport_cover >= 0 ? 0.01 : 0.0);
+  o.rev_rate = a.rev_rate.value_or(1.0 / 15);
+  o.cover_limit = a.cover_limit.value_or(-1);
+  o.start = a.start.value_or(o.teleport_cover >= 0 ? "exact" : "greedy");
+  o.block_size = a.block_size.value_or(-1);
+  o.block_rate = a.block_rate.value_or(-1);
+  return o;
+}
+
+// On resume the stored options hold; an option given anew must repeat its stored value.
+ChainRunOptions resumed_options(const FixedArguments& a, const std::string& path) {
+  ChainRunOptions o;
+  const std::string first = run_member_files(path).front();
+  o.fixed_from_json(ChainRun::open(first).options(), first);
+  const nlohmann::json stored = o.fixed_to_json(), given = fixed_options_of(a).fixed_to_json();
+  const std::pair<const char*, bool> keys[] = {{"chains", bool(a.chains)},
+                                               {"thin", bool(a.thin)},
+                                               {"burn_in", bool(a.burn_in)},
+                                               {"seed", bool(a.seed)},
+                                               {"teleport_cover", bool(a.teleport_cover)},
+                                               {"teleport_rate", bool(a.teleport_rate)},
+                                               {"rev_rate", bool(a.rev_rate)},
+                                               {"cover_limit", bool(a.cover_limit)},
+                                               {"start", bool(a.start)},
+                                               {"block_size", bool(a.block_size)},
+                                               {"block_rate", bool(a.block_rate)}};
+  for (const auto& [key, is_given] : keys)
+    if (is_given && stored[key] != given[key])
+      throw InputError(std::string(key) +
+                       " cannot be changed on resume (the run was created with " +
+                       stored[key].dump() + ")");
+  return o;
+}
+
+// A duration: seconds as a number, or a text such as "90s", "10m", "2h".
+double seconds_of(const py::object& duration, const char* keyword) {
+  if (py::isinstance<py::str>(duration))
+    return parse_duration(duration.cast<std::string>(), keyword);
+  return duration.cast<double>();
+}
+
+// Runs the chains on a worker thread; every `poll` the calling thread takes the GIL to run
+// Python's signal handlers and the stop callback. A KeyboardInterrupt (or any exception from
+// them) stops the run at its next segment with a checkpoint and is raised afterwards.
+ChainRunSummary run_interruptible(const ScoreTable& table, const std::string& path,
+                                  const ChainRunOptions& options, ChainRunHooks hooks, bool resume,
+                                  const py::object& stop, const py::object& report) {
+  std::atomic<int> stop_flag{0};
+  std::atomic<bool> done{false};
+  std::atomic<std::uint64_t> steps{0}, target{0};
+  hooks.stop_signal = &stop_flag;
+  hooks.on_segment = [&](std::uint64_t now, std::uint64_t goal) {
+    steps = now;
+    target = goal;
+  };
+  const auto start = std::chrono::steady_clock::now();
+  auto last_report = start;
+  std::uint64_t reported = 0;
+  // Calls report(steps, target, seconds) about twice a second while the steps advance.
+  auto report_progress = [&](bool force) {
+    const auto now = std::chrono::steady_clock::now();
+    if (report.is_none() || steps == reported) return;
+    if (!force && now - last_report < std::chrono::milliseconds(500)) return;
+    reported = steps;
+    last_report = now;
+    report(reported, target.load(), std::chrono::duration<double>(now - start).count());
+  };
+  ChainRunSummary summary;
+  std::exception_ptr failure;
+  std::optional<py::error_already_set> interruption;
+  // Asked to stop before it starts: the run makes its first segment and checkpoints.
+  if (!stop.is_none() && py::bool_(stop())) stop_flag = SIGINT;
+  {
+    py::gil_scoped_release release;
+    std::thread worker([&] {
+      try {
+        summary = run_chains(table, path, options, hooks, resume);
+      } catch (...) {
+        failure = std::current_exception();
+      }
+      done = true;
+    });
+    while (!done) {
+      std::this_thread::sleep_for(std::chrono::milliseconds(50));
+      if (stop_flag.load() != 0) continue;
+      py::gil_scoped_acquire acquire;
+      try {
+        if (PyErr_CheckSignals() != 0) throw py::error_already_set();
+        if (!stop.is_none() && py::bool_(stop())) stop_flag = SIGINT;
+        report_progress(false);
+      } catch (py::error_already_set& e) {
+        interruption.emplace(std::move(e));
+        stop_flag = SIGINT;
+      }
+    }
+    worker.join();
+  }
+  if (failure) std::rethrow_exception(failure);
+  report_progress(true);
+  if (interruption) throw std::move(*interruption);
+  return summary;
+}
+
+py::object chain(const py::object& table_or_path, const std::string& path,
+                 const FixedArguments& fixed, std::optional<double> steps,
+                 const py::object& max_time, const py::object& checkpoint_every, double until_rhat,
+                 double until_ess, const std::string& teleport_sampler,
+                 const py::object& memory_limit, int threads, bool resume, bool progress,
+                 const py::object& stop, const py::object& report) {
+  const auto table = table_of(table_or_path);
+  ChainRunOptions o = resume ? resumed_options(fixed, path) : fixed_options_of(fixed);
+  if (steps) {
+    if (!(*steps >= 0) || *steps != std::floor(*steps) || *steps > 1e19)
+      throw OptionError("{steps} must be a whole number of steps (e.g. 1000000 or 1e6)");
+    o.steps = static_cast<std::uint64_t>(*steps);
+  }
+  if (!max_time.is_none()) o.max_seconds = seconds_of(max_time, "max_time");
+  o.checkpoint_every = seconds_of(checkpoint_every, "checkpoint_every");
+  o.until_rhat = until_rhat;
+  o.until_ess = until_ess;
+  const auto thread_ceiling = thread_limit(threads);
+  std::unique_ptr<ChainSupport> support;
+  {
+    py::gil_scoped_release release;
+    support =
+        std::make_unique<ChainSupport>(*table, o, teleport_sampler, memory_limit_of(memory_limit));
+  }
+  ChainRunHooks hooks = support->hooks();
+  hooks.progress = progress;
+  hooks.command_line = "python: covey.chain";
+  const ChainRunSummary summary = run_interruptible(*table, path, o, hooks, resume, stop, report);
+  return json_to_python(summary.to_json().dump());
+}
+
+// A run file (or the members of an MPI run) as arrays; chains side by side, cut to the
+// shortest member.
+class Run {
+ public:
+  explicit Run(const std::string& path) {
+    for (const std::string& member : run_member_files(path))
+      members_.push_back(ChainRun::open(member));
+    for (const ChainRun& run : members_) {
+      if (run.variables() != members_.front().variables())
+        throw InputError(run.path() + ": variables differ from " + members_.front().path());
+      draws_ = std::min(draws_, run.num_draws());
+      chains_ += run.num_chains();
+    }
+  }
+  int chains() const { return chains_; }
+  std::uint64_t num_draws() const { return draws_; }
+  const ChainRun& first() const { return members_.front(); }
+
+  // [chain, draw, from, to]: true when the draw holds the edge from -> to.
+  py::array_t<bool> edges() const {
+    const int n = first().num_variables(), words = first().words_per_node();
+    py::array_t<bool> out(
+        {py::ssize_t(chains_), py::ssize_t(draws_), py::ssize_t(n), py::ssize_t(n)});
+    auto a = out.mutable_unchecked<4>();
+    int c = 0;
+    for (const ChainRun& run : members_)
+      for (int local = 0; local < run.num_chains(); ++local, ++c) {
+        const std::vector<std::uint64_t> rows = run.draws(local);
+        const std::size_t stride = std::size_t(n) * words;
+        for (std::size_t t = 0; t < draws_; ++t)
+          for (int v = 0; v < n; ++v)
+            for (int u = 0; u < n; ++u)
+              a(c, t, u, v) =
+                  (rows[t * stride + std::size_t(v) * words + (u >> 6)] >> (u & 63)) & 1U;
+      }
+    return out;
+  }
+
+  // [chain, draw] of a per-draw series of the run file (log scores, steps).
+  template <class T, class Read>
+  py::array_t<T> series(Read read) const {
+    py::array_t<T> out({py::ssize_t(chains_), py::ssize_t(draws_)});
+    auto a = out.template mutable_unchecked<2>();
+    int c = 0;
+    for (const ChainRun& run : members_)
+      for (int local = 0; local < run.num_chains(); ++local, ++c) {
+        const auto values = read(run, local);
+        for (std::size_t t = 0; t < draws_; ++t) a(c, t) = values[t];
+      }
+    return out;
+  }
+
+ private:
+  std::vector<ChainRun> members_;
+  int chains_ = 0;
+  std::uint64_t draws_ = UINT64_MAX;
+};
+
+}  // namespace
+
+void bind_chains(py::module_& m) {
+  m.def(
+      "_chain",
+      [](const py::object& table, const std::string& path, std::optional<int> chains,
+         std::optional<double> steps, std::optional<std::uint64_t> thin,
+         std::optional<std::uint64_t> burn_in, std::optional<std::uint64_t> seed,
+         std::optional<int> teleport_cover, std::optional<double> teleport_rate,
+         std::optional<double> rev_rate, std::optional<int> cover_limit,
+         std::optional<std::string> start, std::optional<int> block_size,
+         std::optional<double> block_rate, const py::object& max_time,
+         const py::object& checkpoint_every, double until_rhat, double until_ess,
+         const std::string& teleport_sampler, const py::object& memory_limit, int threads,
+         bool resume, bool progress, const py::object& stop, const py::object& report) {
+        const FixedArguments fixed{chains,         thin,          burn_in,   seed,
+                                   teleport_cover, teleport_rate, rev_rate,  cover_limit,
+                                   start,          block_size,    block_rate};
+        return chain(table, path, fixed, steps, max_time, checkpoint_every, until_rhat, until_ess,
+                     teleport_sampler, memory_limit, threads, resume, progress, stop, report);
+      },
+      py::arg("table"), py::arg("path"), py::arg("chains"), py::arg("steps"), py::arg("thin"),
+      py::arg("burn_in"), py::arg("seed"), py::arg("teleport_cover"), py::arg("teleport_rate"),
+      py::arg("rev_rate"), py::arg("cover_limit"), py::arg("start"), py::arg("block_size"),
+      py::arg("block_rate"), py::arg("max_time"), py::arg("checkpoint_every"),
+      py::arg("until_rhat"), py::arg("until_ess"), py::arg("teleport_sampler"),
+      py::arg("memory_limit"), py::arg("threads"), py::arg("resume"), py::arg("progress"),
+      py::arg("stop"), py::arg("report"));
+
+  py::class_<Run>(m, "_Run")
+      .def(py::init<const std::string&>(), py::arg("path"))
+      .def_property_readonly("chains", &Run::chains)
+      .def_property_readonly("num_draws", &Run::num_draws)
+      .def_property_readonly("variables", [](const Run& r) { return r.first().variables(); })
+      .def_property_readonly("steps", [](const Run& r) { return r.first().steps(); })
+      .def_property_readonly(
+          "options", [](const Run& r) { return json_to_python(r.first().options().dump()); })
+      .def_property_readonly(
+          "attributes", [](const Run& r) { return json_to_python(r.first().attributes().dump()); })
+      .def("edges", &Run::edges)
+      .def("log_scores",
+           [](const Run& r) {
+             return r.series<double>([](const ChainRun& run, int c) { return run.log_scores(c); });
+           })
+      .def("draw_steps", [](const Run& r) {
+        return r.series<std::int64_t>([](const ChainRun& run, int c) { return run.draw_steps(c); });
+      });
+}
+
+}  // namespace covey::python
