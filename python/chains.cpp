@@ -33,29 +33,26 @@ struct FixedArguments {
   std::optional<double> block_rate;
 };
 
-// The CLI's defaults for options not given (`covey chain --help`).
+// The library's defaults (the CLI's too) for options not given.
 ChainRunOptions fixed_options_of(const FixedArguments& a) {
   ChainRunOptions o;
-  o.chains = a.chains.value_or(4);
-  o.thin = a.thin.value_or(1000);
-  o.burn_in = a.burn_in.value_or(0);
-  o.seed = a.seed.value_or(1);
-  o.teleport_cover = a.teleport_cover.value_or(-1);
-  o.teleport_rate = a.teleport_rate.value_or(o.teleport_cover >= 0 ? 0.01 : 0.0);
-  o.rev_rate = a.rev_rate.value_or(1.0 / 15);
-  o.cover_limit = a.cover_limit.value_or(-1);
-  o.start = a.start.value_or(o.teleport_cover >= 0 ? "exact" : "greedy");
-  o.block_size = a.block_size.value_or(-1);
-  o.block_rate = a.block_rate.value_or(-1);
+  if (a.chains) o.chains = *a.chains;
+  if (a.thin) o.thin = *a.thin;
+  if (a.burn_in) o.burn_in = *a.burn_in;
+  if (a.seed) o.seed = *a.seed;
+  if (a.teleport_cover) o.teleport_cover = *a.teleport_cover;
+  if (a.teleport_rate) o.teleport_rate = *a.teleport_rate;
+  if (a.rev_rate) o.rev_rate = *a.rev_rate;
+  if (a.cover_limit) o.cover_limit = *a.cover_limit;
+  if (a.start) o.start = *a.start;
+  if (a.block_size) o.block_size = *a.block_size;
+  if (a.block_rate) o.block_rate = *a.block_rate;
   return o;
 }
 
-// On resume the stored options hold; an option given anew must repeat its stored value.
-ChainRunOptions resumed_options(const FixedArguments& a, const std::string& path) {
-  ChainRunOptions o;
-  const std::string first = run_member_files(path).front();
-  o.fixed_from_json(ChainRun::open(first).options(), first);
-  const nlohmann::json stored = o.fixed_to_json(), given = fixed_options_of(a).fixed_to_json();
+// The fixed options given as keywords, by library field name (the resume rule checks them).
+std::vector<std::string> given_fields(const FixedArguments& a) {
+  std::vector<std::string> out;
   const std::pair<const char*, bool> keys[] = {{"chains", bool(a.chains)},
                                                {"thin", bool(a.thin)},
                                                {"burn_in", bool(a.burn_in)},
@@ -68,11 +65,70 @@ ChainRunOptions resumed_options(const FixedArguments& a, const std::string& path
                                                {"block_size", bool(a.block_size)},
                                                {"block_rate", bool(a.block_rate)}};
   for (const auto& [key, is_given] : keys)
-    if (is_given && stored[key] != given[key])
-      throw InputError(std::string(key) +
-                       " cannot be changed on resume (the run was created with " +
-                       stored[key].dump() + ")");
-  return o;
+    if (is_given) out.emplace_back(key);
+  return out;
+}
+
+py::dict options_dict(const ChainRunOptions& o) {
+  py::dict d;
+  d["chains"] = o.chains;
+  d["thin"] = o.thin;
+  d["burn_in"] = o.burn_in;
+  d["seed"] = o.seed;
+  d["rev_rate"] = o.rev_rate;
+  d["teleport_rate"] = o.teleport_rate;
+  d["teleport_cover"] = o.teleport_cover;
+  d["cover_limit"] = o.cover_limit;
+  d["start"] = o.start;
+  d["block_size"] = o.block_size;
+  d["block_rate"] = o.block_rate;
+  return d;
+}
+
+py::object attribute_value(const AttributeValue& v) {
+  return std::visit([](const auto& x) -> py::object { return py::cast(x); }, v);
+}
+
+py::dict summary_dict(const ChainRunSummary& s) {
+  py::dict proposals, accepted, acceptance;
+  for (int m = 0; m < kNumMoves; ++m) {
+    proposals[move_name(m)] = s.counts.proposed[m];
+    accepted[move_name(m)] = s.counts.accepted[m];
+    acceptance[move_name(m)] =
+        s.counts.proposed[m]
+            ? py::object(py::float_(double(s.counts.accepted[m]) / double(s.counts.proposed[m])))
+            : py::object(py::none());
+  }
+  py::dict d;
+  d["output"] = s.path;
+  d["chains"] = s.chains;
+  d["steps"] = s.steps;
+  d["session_steps"] = s.session_steps;
+  d["draws"] = s.draws;
+  d["checkpoints"] = s.checkpoints;
+  d["seconds"] = s.seconds;
+  d["checkpoint_seconds"] = s.checkpoint_seconds;
+  d["proposals_per_second"] = s.proposals_per_second();
+  d["acceptance"] = acceptance;
+  d["proposals"] = proposals;
+  d["accepted"] = accepted;
+  d["regenerations"] = s.total_regenerations();
+  d["regenerations_per_chain"] = s.regenerations;
+  d["stop_reason"] = s.stop_reason;
+  if (s.convergence_checked) {
+    py::dict c;
+    c["converged"] = s.convergence.converged;
+    c["max_rhat"] = s.convergence.max_rhat;
+    c["min_ess"] = s.convergence.min_ess;
+    c["features"] = s.convergence.features;
+    c["failing"] = s.convergence.failing;
+    c["undefined"] = s.convergence.undefined;
+    d["convergence"] = c;
+  }
+  if (!std::isnan(s.teleport_mass_bound_log10))
+    d["teleport_mass_bound_log10"] = s.teleport_mass_bound_log10;
+  if (!s.teleport_note.empty()) d["teleport_note"] = s.teleport_note;
+  return d;
 }
 
 // A duration: seconds as a number, or a text such as "90s", "10m", "2h".
@@ -148,10 +204,11 @@ py::object chain(const py::object& table_or_path, const std::string& path,
                  const FixedArguments& fixed, std::optional<double> steps,
                  const py::object& max_time, const py::object& checkpoint_every, double until_rhat,
                  double until_ess, const std::string& teleport_sampler,
-                 const py::object& memory_limit, int threads, bool resume, bool progress,
+                 const py::object& memory_limit, int threads, bool resume, bool force, bool progress,
                  const py::object& stop, const py::object& report) {
   const auto table = table_of(table_or_path);
-  ChainRunOptions o = resume ? resumed_options(fixed, path) : fixed_options_of(fixed);
+  ChainRunOptions o = fixed_options_of(fixed);
+  o.overwrite = force;
   if (steps) {
     if (!(*steps >= 0) || *steps != std::floor(*steps) || *steps > 1e19)
       throw OptionError("{steps} must be a whole number of steps (e.g. 1000000 or 1e6)");
@@ -161,6 +218,7 @@ py::object chain(const py::object& table_or_path, const std::string& path,
   o.checkpoint_every = seconds_of(checkpoint_every, "checkpoint_every");
   o.until_rhat = until_rhat;
   o.until_ess = until_ess;
+  o = resume ? resume_options(path, o, given_fields(fixed)) : with_default_choices(o);
   const auto thread_ceiling = thread_limit(threads);
   std::unique_ptr<ChainSupport> support;
   {
@@ -172,7 +230,7 @@ py::object chain(const py::object& table_or_path, const std::string& path,
   hooks.progress = progress;
   hooks.command_line = "python: covey.chain";
   const ChainRunSummary summary = run_interruptible(*table, path, o, hooks, resume, stop, report);
-  return json_to_python(summary.to_json().dump());
+  return summary_dict(summary);
 }
 
 // A run file (or the members of an MPI run) as arrays; chains side by side, cut to the
@@ -247,19 +305,21 @@ void bind_chains(py::module_& m) {
          std::optional<double> block_rate, const py::object& max_time,
          const py::object& checkpoint_every, double until_rhat, double until_ess,
          const std::string& teleport_sampler, const py::object& memory_limit, int threads,
-         bool resume, bool progress, const py::object& stop, const py::object& report) {
+         bool resume, bool force, bool progress, const py::object& stop,
+         const py::object& report) {
         const FixedArguments fixed{chains,         thin,          burn_in,   seed,
                                    teleport_cover, teleport_rate, rev_rate,  cover_limit,
                                    start,          block_size,    block_rate};
         return chain(table, path, fixed, steps, max_time, checkpoint_every, until_rhat, until_ess,
-                     teleport_sampler, memory_limit, threads, resume, progress, stop, report);
+                     teleport_sampler, memory_limit, threads, resume, force, progress, stop, report);
       },
       py::arg("table"), py::arg("path"), py::arg("chains"), py::arg("steps"), py::arg("thin"),
       py::arg("burn_in"), py::arg("seed"), py::arg("teleport_cover"), py::arg("teleport_rate"),
       py::arg("rev_rate"), py::arg("cover_limit"), py::arg("start"), py::arg("block_size"),
       py::arg("block_rate"), py::arg("max_time"), py::arg("checkpoint_every"),
       py::arg("until_rhat"), py::arg("until_ess"), py::arg("teleport_sampler"),
-      py::arg("memory_limit"), py::arg("threads"), py::arg("resume"), py::arg("progress"),
+      py::arg("memory_limit"), py::arg("threads"), py::arg("resume"), py::arg("force"),
+      py::arg("progress"),
       py::arg("stop"), py::arg("report"));
 
   py::class_<Run>(m, "_Run")
@@ -269,9 +329,18 @@ void bind_chains(py::module_& m) {
       .def_property_readonly("variables", [](const Run& r) { return r.first().variables(); })
       .def_property_readonly("steps", [](const Run& r) { return r.first().steps(); })
       .def_property_readonly(
-          "options", [](const Run& r) { return json_to_python(r.first().options().dump()); })
-      .def_property_readonly(
-          "attributes", [](const Run& r) { return json_to_python(r.first().attributes().dump()); })
+          "options", [](const Run& r) { return options_dict(r.first().options()); })
+      .def_property_readonly("sessions",
+                             [](const Run& r) {
+                               py::list out;
+                               for (const Attributes& session : r.first().sessions()) {
+                                 py::dict d;
+                                 for (const auto& [name, value] : session)
+                                   d[py::str(name)] = attribute_value(value);
+                                 out.append(d);
+                               }
+                               return out;
+                             })
       .def("edges", &Run::edges)
       .def("log_scores",
            [](const Run& r) {

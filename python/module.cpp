@@ -23,6 +23,8 @@ std::string keyword_of(const std::string& field) {
   static const std::pair<const char*, const char*> kRenamed[] = {
       {"ess", "equivalent_sample_size"},
       {"k", "cover"},
+      {"overwrite", "force"},
+      {"max_seconds", "max_time"},
   };
   for (const auto& [name, keyword] : kRenamed)
     if (field == name) return keyword;

@@ -44,7 +44,7 @@ struct ScoreArguments {
   std::string kind;
   bool drop_incomplete, allow_constant;
   std::optional<double> equivalent_sample_size, bge_alpha_mu, bge_alpha_w;
-  bool standardize;
+  bool raw_units;
   std::string prior;
   std::optional<double> edge_penalty;
   int max_indegree;
@@ -56,9 +56,9 @@ struct ScoreArguments {
 // The option combinations the CLI refuses (`covey score`), named by keyword.
 void check_score_kind(const ScoreArguments& a, const DataTable& data, const std::string& name) {
   const bool discrete = data.kind() == VariableKind::kDiscrete;
-  if (discrete && (a.bge_alpha_mu || a.bge_alpha_w || a.standardize))
+  if (discrete && (a.bge_alpha_mu || a.bge_alpha_w || a.raw_units))
     throw InputError(
-        "bge_alpha_mu, bge_alpha_w and standardize apply to Gaussian data (BGe), "
+        "bge_alpha_mu, bge_alpha_w and raw_units apply to Gaussian data (BGe), "
         "but " +
         name + " is discrete");
   if (!discrete && a.equivalent_sample_size)
@@ -84,7 +84,7 @@ ScoreTable score(const std::string& csv, bool is_path, const std::string& name,
   if (a.bge_alpha_mu) options.bge.alpha_mu = *a.bge_alpha_mu;
   if (a.bge_alpha_w) options.bge.alpha_w = *a.bge_alpha_w;
   if (a.edge_penalty) options.edge_penalty = *a.edge_penalty;
-  options.bge.standardize = a.standardize;
+  options.bge.standardize = !a.raw_units;
 
   DataTable data;
   {
@@ -174,19 +174,19 @@ void bind_tables(py::module_& m) {
       "_score",
       [](const std::string& csv, bool is_path, const std::string& name, std::string kind,
          bool drop_incomplete, bool allow_constant, std::optional<double> ess,
-         std::optional<double> alpha_mu, std::optional<double> alpha_w, bool standardize,
+         std::optional<double> alpha_mu, std::optional<double> alpha_w, bool raw_units,
          std::string prior, std::optional<double> edge_penalty, int max_indegree,
          std::optional<int> candidates, py::object forbid, py::object require,
          py::object memory_limit, int threads) {
         const ScoreArguments a{std::move(kind), drop_incomplete, allow_constant, ess,
-                               alpha_mu,        alpha_w,         standardize,    std::move(prior),
+                               alpha_mu,        alpha_w,         raw_units,      std::move(prior),
                                edge_penalty,    max_indegree,    candidates,     forbid,
                                require,         memory_limit,    threads};
         return score(csv, is_path, name, a);
       },
       py::arg("csv"), py::arg("is_path"), py::arg("name"), py::arg("kind"),
       py::arg("drop_incomplete"), py::arg("allow_constant"), py::arg("equivalent_sample_size"),
-      py::arg("bge_alpha_mu"), py::arg("bge_alpha_w"), py::arg("standardize"), py::arg("prior"),
+      py::arg("bge_alpha_mu"), py::arg("bge_alpha_w"), py::arg("raw_units"), py::arg("prior"),
       py::arg("edge_penalty"), py::arg("max_indegree"), py::arg("candidates"), py::arg("forbid"),
       py::arg("require"), py::arg("memory_limit"), py::arg("threads"));
 }

@@ -81,7 +81,7 @@ def _csv_of(data, columns):
 
 
 def score(data, *, columns=None, kind="infer", drop_incomplete=False, allow_constant=False,
-          equivalent_sample_size=None, bge_alpha_mu=None, bge_alpha_w=None, standardize=False,
+          equivalent_sample_size=None, bge_alpha_mu=None, bge_alpha_w=None, raw_units=False,
           prior="uniform", edge_penalty=None, max_indegree=3, candidates=None, forbid=None,
           require=None, memory_limit=None, threads=0):
     """Local scores from data, as ``covey score`` computes them: BDeu for discrete columns,
@@ -93,7 +93,8 @@ def score(data, *, columns=None, kind="infer", drop_incomplete=False, allow_cons
     None) are refused unless drop_incomplete=True. Defaults: equivalent_sample_size 1 (BDeu),
     bge_alpha_mu 1 and bge_alpha_w n+2 (BGe), prior "uniform" ("edge-penalty" with
     edge_penalty=1, "parent-count"), max_indegree 3, candidates all for n <= 20 variables else
-    20. forbid/require: an edge file or pairs [("from", "to"), ...].
+    20. Gaussian columns are standardized (scores do not depend on units) unless
+    raw_units=True. forbid/require: an edge file or pairs [("from", "to"), ...].
 
     >>> table = covey.score(pd.DataFrame({"a": ["x", "y"] * 50, "b": ["u", "v"] * 50}))
     >>> table.info()["score"]
@@ -101,7 +102,7 @@ def score(data, *, columns=None, kind="infer", drop_incomplete=False, allow_cons
     """
     csv, is_path, name = _csv_of(data, columns)
     return _covey._score(csv, is_path, name, kind, drop_incomplete, allow_constant,
-                         equivalent_sample_size, bge_alpha_mu, bge_alpha_w, standardize, prior,
+                         equivalent_sample_size, bge_alpha_mu, bge_alpha_w, raw_units, prior,
                          edge_penalty, max_indegree, candidates, forbid, require, memory_limit,
                          threads)
 
@@ -252,7 +253,7 @@ def chain(table, path, *, steps=None, chains=None, thin=None, burn_in=None, seed
           teleport_cover=None, teleport_rate=None, rev_rate=None, cover_limit=None, start=None,
           block_size=None, block_rate=None, max_time=None, checkpoint_every="5m",
           until_rhat=0.0, until_ess=0.0, teleport_sampler="", memory_limit=None, threads=0,
-          resume=False, progress=True, stop=None):
+          resume=False, force=False, progress=True, stop=None):
     """Structure MCMC chains written to the HDF5 run file `path` (``covey chain``); returns the
     run's summary (the dict of ``covey chain --json``).
 
@@ -260,7 +261,7 @@ def chain(table, path, *, steps=None, chains=None, thin=None, burn_in=None, seed
     seed 1, teleport_cover none, teleport_rate 0.01 with teleport_cover, rev_rate 1/15,
     cover_limit none, start "greedy" ("exact" with teleport_cover), block_size and block_rate
     chosen from the cost model. On resume=True they are read from the file (given anew, they
-    must repeat it). Stopping: steps (total per chain), max_time ("10m", or seconds),
+    must repeat it); an existing file at `path` is replaced only with force=True. Stopping: steps (total per chain), max_time ("10m", or seconds),
     until_rhat / until_ess. progress: True shows a progress line on a terminal and in Jupyter
     notebooks; a callable gets (steps per chain so far, step target or 0, seconds) about twice
     a second.
@@ -281,7 +282,7 @@ def chain(table, path, *, steps=None, chains=None, thin=None, burn_in=None, seed
                              teleport_rate, rev_rate, cover_limit, start, block_size, block_rate,
                              max_time, checkpoint_every, until_rhat, until_ess,
                              _os.fspath(teleport_sampler), memory_limit, threads, resume,
-                             terminal_line, _stop_callable(stop), report)
+                             force, terminal_line, _stop_callable(stop), report)
     except KeyboardInterrupt:
         raise KeyboardInterrupt(f"covey.chain stopped; checkpoint written to {path} "
                                 "(continue with resume=True)") from None

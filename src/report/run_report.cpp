@@ -43,8 +43,6 @@ RunFacts run_facts(const std::vector<ChainRun>& runs, const RunDiagnostics& d) {
   std::snprintf(buffer, sizeof buffer, "%.1f s", seconds);
   facts.extra.push_back({"sampling time (all files)", buffer});
   facts.extra.push_back({"run files", std::to_string(runs.size())});
-  // The options as people read them; a bound of -1 (off) is left out rather than shown as a
-  // raw value.
   const auto& o = runs.front().options();
   // The options that shaped the draws, in words; classes and moves that were off are left out.
   auto number = [](double x) {

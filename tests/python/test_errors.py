@@ -23,8 +23,8 @@ def test_option_errors_name_the_keyword(frame):
 
 
 def test_kind_specific_options_are_refused(frame):
-    with pytest.raises(covey.InputError, match="bge_alpha_mu, bge_alpha_w and standardize apply"):
-        covey.score(frame, standardize=True)
+    with pytest.raises(covey.InputError, match="bge_alpha_mu, bge_alpha_w and raw_units apply"):
+        covey.score(frame, raw_units=True)
     with pytest.raises(covey.InputError, match="edge_penalty needs prior='edge-penalty'"):
         covey.score(frame, edge_penalty=2.0)
 
