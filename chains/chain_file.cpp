@@ -253,7 +253,7 @@ void append_checkpoint(const std::string& path, const std::vector<ChainBlock>& b
   AtomicOutput out(path);
   std::error_code ec;
   const std::uintmax_t old_size = std::filesystem::file_size(path, ec);
-  if (ec) throw InputError(path + ": cannot read the run file: " + ec.message());
+  if (ec) throw FileError(path + ": cannot read the run file: " + ec.message());
   const std::uintmax_t need = old_size + checkpoint_growth_bound(blocks);
   if (const auto limit = file_size_limit(); limit && old_size > *limit)
     throw ResourceError(path + ": cannot copy the run file for a checkpoint: it is larger than " +

@@ -24,7 +24,7 @@ class CsvReader {
   explicit CsvReader(const std::string& path) : path_(path) {
     require_readable(path);
     std::ifstream in(path, std::ios::binary);
-    if (!in) throw InputError(path + ": cannot open for reading");
+    if (!in) throw FileError(path + ": cannot open for reading");
     text_.assign(std::istreambuf_iterator<char>(in), std::istreambuf_iterator<char>());
     char* const begin = text_.data();
     char* const end = begin + text_.size();

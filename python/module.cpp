@@ -71,7 +71,7 @@ std::string with_keywords(const std::string& message) {
 
 // Python classes of the library's errors, kept alive by the module that holds them.
 struct ErrorClasses {
-  py::handle error, input, option, resource;
+  py::handle error, input, option, file, resource;
 };
 ErrorClasses g_errors;
 
@@ -88,6 +88,8 @@ void translate_error(std::exception_ptr error) {
     if (error) std::rethrow_exception(error);
   } catch (const OptionError& e) {
     PyErr_SetString(g_errors.option.ptr(), e.render(keyword_of).c_str());
+  } catch (const FileError& e) {
+    PyErr_SetString(g_errors.file.ptr(), e.what());
   } catch (const InputError& e) {
     PyErr_SetString(g_errors.input.ptr(), with_keywords(e.what()).c_str());
   } catch (const ResourceError& e) {
@@ -106,6 +108,11 @@ void bind_errors(py::module_& m) {
                                  "Malformed input: a file's content or an argument's value.");
   g_errors.option = new_exception(m, "OptionError", g_errors.input,
                                   "A bad argument value; the message names the keyword.");
+  // Both bases: scripts that catch OSError for a missing file and those that catch covey's
+  // InputError for any bad input see it.
+  g_errors.file = new_exception(
+      m, "FileError", py::make_tuple(g_errors.input, py::handle(PyExc_OSError)).release(),
+      "A file that cannot be opened, read or written; an InputError and an OSError.");
   g_errors.resource =
       new_exception(m, "ResourceError", PyExc_MemoryError,
                     "The work would exceed the memory limit (memory_limit=) or the time limit.");

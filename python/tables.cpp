@@ -51,6 +51,8 @@ struct ScoreArguments {
   std::optional<int> candidates;
   py::object forbid, require, memory_limit;
   int threads;
+  std::vector<std::string> discrete_columns, bins;
+  std::string count_column, delimiter;
 };
 
 // The option combinations the CLI refuses (`covey score`), named by keyword.
@@ -75,6 +77,10 @@ ScoreTable score(const std::string& csv, bool is_path, const std::string& name,
   csv_options.drop_incomplete = a.drop_incomplete;
   csv_options.allow_constant = a.allow_constant;
   csv_options.memory_limit = memory_limit_of(a.memory_limit);
+  csv_options.delimiter = parse_delimiter(a.delimiter);
+  csv_options.discrete_columns = a.discrete_columns;
+  for (const std::string& bin : a.bins) csv_options.bins.push_back(parse_bin_spec(bin));
+  csv_options.count_column = a.count_column;
   ScoreOptions options;
   options.prior = prior_kind_from_string(a.prior);
   options.memory_limit = csv_options.memory_limit;
@@ -177,18 +183,26 @@ void bind_tables(py::module_& m) {
          std::optional<double> alpha_mu, std::optional<double> alpha_w, bool raw_units,
          std::string prior, std::optional<double> edge_penalty, int max_indegree,
          std::optional<int> candidates, py::object forbid, py::object require,
-         py::object memory_limit, int threads) {
-        const ScoreArguments a{std::move(kind), drop_incomplete, allow_constant, ess,
-                               alpha_mu,        alpha_w,         raw_units,      std::move(prior),
-                               edge_penalty,    max_indegree,    candidates,     forbid,
-                               require,         memory_limit,    threads};
+         py::object memory_limit, int threads, std::vector<std::string> discrete_columns,
+         std::vector<std::string> bins, std::string count_column, std::string delimiter) {
+        const ScoreArguments a{std::move(kind),   drop_incomplete,
+                               allow_constant,    ess,
+                               alpha_mu,          alpha_w,
+                               raw_units,         std::move(prior),
+                               edge_penalty,      max_indegree,
+                               candidates,        forbid,
+                               require,           memory_limit,
+                               threads,           std::move(discrete_columns),
+                               std::move(bins),   std::move(count_column),
+                               std::move(delimiter)};
         return score(csv, is_path, name, a);
       },
       py::arg("csv"), py::arg("is_path"), py::arg("name"), py::arg("kind"),
       py::arg("drop_incomplete"), py::arg("allow_constant"), py::arg("equivalent_sample_size"),
       py::arg("bge_alpha_mu"), py::arg("bge_alpha_w"), py::arg("raw_units"), py::arg("prior"),
       py::arg("edge_penalty"), py::arg("max_indegree"), py::arg("candidates"), py::arg("forbid"),
-      py::arg("require"), py::arg("memory_limit"), py::arg("threads"));
+      py::arg("require"), py::arg("memory_limit"), py::arg("threads"),
+      py::arg("discrete_columns"), py::arg("bins"), py::arg("count_column"), py::arg("delimiter"));
 }
 
 }  // namespace covey::python

@@ -22,6 +22,7 @@ import pandas as _pd
 
 from ._covey import (  # noqa: F401  (the public names of the compiled module)
     Error,
+    FileError,
     InputError,
     OptionError,
     ResourceError,
@@ -32,7 +33,7 @@ from ._covey import (  # noqa: F401  (the public names of the compiled module)
 from . import _covey
 
 __all__ = [
-    "Error", "InputError", "OptionError", "ResourceError", "ScoreTable", "read_scores", "score",
+    "Error", "FileError", "InputError", "OptionError", "ResourceError", "ScoreTable", "read_scores", "score",
     "best", "draw", "exact", "chain", "open_run", "check", "Best", "CoverDraws",
     "ExactPosterior", "Run", "Check", "compare", "Comparison",
 ]
@@ -83,7 +84,8 @@ def _csv_of(data, columns):
 def score(data, *, columns=None, kind="infer", drop_incomplete=False, allow_constant=False,
           equivalent_sample_size=None, bge_alpha_mu=None, bge_alpha_w=None, raw_units=False,
           prior="uniform", edge_penalty=None, max_indegree=3, candidates=None, forbid=None,
-          require=None, memory_limit=None, threads=0):
+          require=None, memory_limit=None, threads=0, discrete_columns=(), bins=(),
+          count_column="", delimiter=""):
     """Local scores from data, as ``covey score`` computes them: BDeu for discrete columns,
     BGe for Gaussian ones.
 
@@ -94,7 +96,10 @@ def score(data, *, columns=None, kind="infer", drop_incomplete=False, allow_cons
     bge_alpha_mu 1 and bge_alpha_w n+2 (BGe), prior "uniform" ("edge-penalty" with
     edge_penalty=1, "parent-count"), max_indegree 3, candidates all for n <= 20 variables else
     20. Gaussian columns are standardized (scores do not depend on units) unless
-    raw_units=True. forbid/require: an edge file or pairs [("from", "to"), ...].
+    raw_units=True. discrete_columns: columns read as labels even when they hold numbers;
+    bins: specs "NAME=quantile:K" or "NAME=edges:E1,E2,..." cutting numeric columns into
+    levels; count_column: a column of row counts (aggregated tables); delimiter: for a CSV
+    path, one character or "tab" (default: detected). forbid/require: an edge file or pairs [("from", "to"), ...].
 
     >>> table = covey.score(pd.DataFrame({"a": ["x", "y"] * 50, "b": ["u", "v"] * 50}))
     >>> table.info()["score"]
@@ -104,7 +109,7 @@ def score(data, *, columns=None, kind="infer", drop_incomplete=False, allow_cons
     return _covey._score(csv, is_path, name, kind, drop_incomplete, allow_constant,
                          equivalent_sample_size, bge_alpha_mu, bge_alpha_w, raw_units, prior,
                          edge_penalty, max_indegree, candidates, forbid, require, memory_limit,
-                         threads)
+                         threads, list(discrete_columns), list(bins), count_column, delimiter)
 
 
 class Best:

@@ -31,15 +31,6 @@ struct ScoreArgs {
   CLI::Option* edge_penalty = nullptr;
 };
 
-// ',' ';' or one other character; "tab" for a tab; empty: detect from the header.
-char parse_delimiter(const std::string& text) {
-  if (text.empty()) return 0;
-  if (text == "tab" || text == "\\t" || text == "\t") return '\t';
-  if (text.size() != 1 || text == "\"")
-    throw InputError("--delimiter '" + text + "': expected one character such as ';', or tab");
-  return text[0];
-}
-
 nlohmann::json columns_json(const DataTable& data) {
   nlohmann::json out = nlohmann::json::array();
   for (int v = 0; v < data.num_variables(); ++v)

@@ -41,8 +41,8 @@ void require_output_path(const std::string& path) {
   if (path.empty()) throw InputError("output path is empty");
   const std::filesystem::path dir = std::filesystem::path(path).parent_path();
   if (!dir.empty() && !std::filesystem::is_directory(dir))
-    throw InputError(path + ": output directory '" + dir.string() + "' does not exist");
-  if (std::filesystem::is_directory(path)) throw InputError(path + ": output path is a directory");
+    throw FileError(path + ": output directory '" + dir.string() + "' does not exist");
+  if (std::filesystem::is_directory(path)) throw FileError(path + ": output path is a directory");
 }
 
 void require_new_output(const std::string& path, bool overwrite) {
@@ -68,7 +68,7 @@ AtomicOutput::~AtomicOutput() {
 void AtomicOutput::commit() {
   fsync_path(temp_);
   if (std::rename(temp_.c_str(), target_.c_str()) != 0)
-    throw Error(target_ + ": cannot write output: " + std::strerror(errno));
+    throw FileError(target_ + ": cannot write output: " + std::strerror(errno));
   committed_ = true;
 }
 
@@ -78,12 +78,13 @@ AtomicDirectory::AtomicDirectory(std::string target) : target_(std::move(target)
   const std::filesystem::path path(target_);
   const std::filesystem::path dir = path.parent_path();
   if (!dir.empty() && !std::filesystem::is_directory(dir))
-    throw InputError(target_ + ": parent folder '" + dir.string() + "' does not exist");
+    throw FileError(target_ + ": parent folder '" + dir.string() + "' does not exist");
   if (std::filesystem::exists(path) && !std::filesystem::is_directory(path))
     throw InputError(target_ + ": exists and is not a folder");
   std::string templ = (dir / ("." + path.filename().string() + ".tmp-XXXXXX")).string();
   if (!::mkdtemp(templ.data()))
-    throw Error(target_ + ": cannot create a temporary folder beside it: " + std::strerror(errno));
+    throw FileError(target_ +
+                    ": cannot create a temporary folder beside it: " + std::strerror(errno));
   temp_ = templ;
   // mkdtemp makes the folder private (0700); give it the permissions of a plain mkdir.
   const mode_t mask = ::umask(0);
@@ -100,7 +101,7 @@ void AtomicDirectory::commit() {
   const std::string parent = std::filesystem::path(target_).parent_path().string();
   if (!std::filesystem::exists(target_)) {
     if (std::rename(temp_.c_str(), target_.c_str()) != 0)
-      throw Error(target_ + ": cannot write output folder: " + std::strerror(errno));
+      throw FileError(target_ + ": cannot write output folder: " + std::strerror(errno));
   } else if (::renameat2(AT_FDCWD, temp_.c_str(), AT_FDCWD, target_.c_str(), RENAME_EXCHANGE) ==
              0) {
     // The old folder now sits at the temporary name.
@@ -132,15 +133,15 @@ void write_text_file_atomically(const std::string& path, const std::string& text
     std::ofstream file(out.temp_path(), std::ios::binary);
     file << text;
     file.flush();
-    if (!file) throw Error(path + ": cannot write output (disk full or not writable?)");
+    if (!file) throw FileError(path + ": cannot write output (disk full or not writable?)");
   }
   out.commit();
 }
 
 void require_readable(const std::string& path) {
   std::ifstream in(path, std::ios::binary);
-  if (!in) throw InputError(path + ": cannot open for reading: " + std::strerror(errno));
-  if (std::filesystem::is_directory(path)) throw InputError(path + ": is a directory, not a file");
+  if (!in) throw FileError(path + ": cannot open for reading: " + std::strerror(errno));
+  if (std::filesystem::is_directory(path)) throw FileError(path + ": is a directory, not a file");
 }
 
 }  // namespace covey

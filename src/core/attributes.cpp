@@ -36,8 +36,11 @@ std::optional<double> attribute_number(const Attributes& attributes, std::string
 
 nlohmann::json attributes_to_json(const Attributes& attributes) {
   nlohmann::json out = nlohmann::json::object();
-  for (const auto& [key, value] : attributes)
-    std::visit([&out, &key](const auto& v) { out[key] = v; }, value);
+  // A named loop variable, not a structured binding: clang before 16 cannot capture bindings.
+  for (const auto& entry : attributes) {
+    const std::string& key = entry.first;
+    std::visit([&out, &key](const auto& v) { out[key] = v; }, entry.second);
+  }
   return out;
 }
 

@@ -155,7 +155,7 @@ H5::H5File open_read(const std::string& path) {
   quiet();
   {
     std::ifstream probe(path, std::ios::binary);
-    if (!probe) throw InputError(path + ": cannot open for reading");
+    if (!probe) throw FileError(path + ": cannot open for reading");
   }
   if (!is_hdf5(path)) throw InputError(path + ": not an HDF5 file (or truncated)");
   return guard(path, [&] { return H5::H5File(path, H5F_ACC_RDONLY); });

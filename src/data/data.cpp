@@ -571,6 +571,14 @@ DataTable build_table(std::vector<Column>& columns, Shape shape,
 
 }  // namespace
 
+char parse_delimiter(const std::string& text) {
+  if (text.empty()) return 0;
+  if (text == "tab" || text == "\\t" || text == "\t") return '\t';
+  if (text.size() != 1 || text == "\"" || text == "{" || text == "}")
+    throw OptionError("{delimiter} '" + text + "': expected one character such as ';', or tab");
+  return text[0];
+}
+
 BinSpec parse_bin_spec(const std::string& text) {
   const std::size_t eq = text.rfind('=');
   const std::size_t colon = eq == std::string::npos ? eq : text.find(':', eq);
@@ -709,7 +717,7 @@ double csv_load_bytes(double file_bytes) {
 DataTable read_csv(const std::string& path, const CsvOptions& options) {
   require_readable(path);
   std::unique_ptr<std::FILE, int (*)(std::FILE*)> file(std::fopen(path.c_str(), "rb"), std::fclose);
-  if (!file) throw InputError(path + ": cannot open for reading");
+  if (!file) throw FileError(path + ": cannot open for reading");
   std::string text;
   char chunk[1 << 16];
   std::fseek(file.get(), 0, SEEK_END);

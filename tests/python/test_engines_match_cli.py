@@ -98,3 +98,28 @@ def test_saved_table_reads_back(tmp_path, demo_scores):
     assert again.variables == table.variables
     assert again.total_parent_sets == table.total_parent_sets
     assert covey.exact(again).log_z == pytest.approx(covey.exact(table).log_z, abs=1e-9)
+
+
+def test_bins_and_column_kinds_give_the_cli_table(tmp_path, sensors_csv):
+    """Binning, columns named discrete and a semicolon file: the same table as `covey score`
+    with --bin, --discrete-columns and --delimiter (one reader, in the library)."""
+    frame = pd.read_csv(sensors_csv)
+    frame["spray_litres"] = frame["spray_litres"].round()
+    semicolon = tmp_path / "sensors.csv"
+    frame.to_csv(semicolon, sep=";", index=False)
+    out = tmp_path / "binned.h5"
+    run_covey("score", semicolon, "-o", out, "--delimiter", ";", "--max-indegree", 2,
+              "--bin", "air_temp_c=quantile:3", "--bin", "sugar_brix=edges:12,13",
+              "--discrete-columns", "spray_litres")
+    cli_table = covey.read_scores(out)
+    assert cli_table.info()["score"] == "cg"
+    table = covey.score(frame, max_indegree=2, bins=["air_temp_c=quantile:3",
+                                                     "sugar_brix=edges:12,13"],
+                        discrete_columns=["spray_litres"])
+    assert table.fingerprint == cli_table.fingerprint
+    by_path = covey.score(semicolon, max_indegree=2, delimiter=";",
+                          bins=["air_temp_c=quantile:3", "sugar_brix=edges:12,13"],
+                          discrete_columns=["spray_litres"])
+    assert by_path.fingerprint == cli_table.fingerprint
+    with pytest.raises(covey.OptionError, match="delimiter"):
+        covey.score(semicolon, delimiter=";;")

@@ -39,6 +39,10 @@ def test_bad_input_names_the_file(tmp_path):
     path = tmp_path / "missing.h5"
     with pytest.raises(covey.InputError, match="missing.h5"):
         covey.read_scores(path)
+    # A file that cannot be read is an OSError too, as Python's own readers raise.
+    with pytest.raises(OSError, match="missing.h5: cannot open for reading"):
+        covey.read_scores(path)
+    assert issubclass(covey.FileError, covey.InputError)
     with pytest.raises(covey.InputError, match=r"forbid\[0\]"):
         covey.score(pd.DataFrame({"a": [1.0, 2.0, 3.0], "b": [2.0, 1.0, 0.5]}),
                     forbid=[("a", "nope")])

@@ -18,6 +18,14 @@ class InputError : public Error {
   using Error::Error;
 };
 
+// A file that cannot be opened, read or written: missing, unreadable, a folder, or a write that
+// failed. A kind of InputError so that callers catching bad input still catch it; the Python
+// module raises it as an OSError too.
+class FileError : public InputError {
+ public:
+  using InputError::InputError;
+};
+
 // A size or memory estimate exceeds what the user allowed or the machine has.
 class ResourceError : public Error {
  public:

@@ -35,6 +35,9 @@ struct BinSpec {
 // Parses "NAME=quantile:K" or "NAME=edges:E1,E2,..." (the text of --bin); throws OptionError
 // naming {bin}.
 BinSpec parse_bin_spec(const std::string& text);
+// The field delimiter as users type it: ',' ';' or one other character, "tab" for a tab; empty:
+// 0 (detect from the header). Throws OptionError naming {delimiter}.
+char parse_delimiter(const std::string& text);
 
 struct CsvOptions {
   ColumnKindChoice kind = ColumnKindChoice::kInfer;
