@@ -35,17 +35,23 @@ RunFeatures::RunFeatures(const std::vector<ChainRun>& runs, bool with_ancestors)
     iterations_ = std::min<std::size_t>(iterations_, run.num_draws());
     total_chains += std::size_t(run.num_chains());
   }
-  rows_.reserve(total_chains * iterations_ * stride_);
-  log_scores_.reserve(total_chains * iterations_);
-  steps_.reserve(total_chains * iterations_);
+  total_ = total_chains * iterations_;
+  columns_.assign(total_ * stride_, 0);
+  log_scores_.reserve(total_);
+  steps_.reserve(total_);
   for (const ChainRun& run : runs) append(run);
   if (with_ancestors) compute_ancestors();
 }
 
 void RunFeatures::append(const ChainRun& run) {
   for (int c = 0; c < run.num_chains(); ++c) {
+    // Transposed into the node-major columns: draw t of this chain is row chains_ * iterations_ +
+    // t.
     const auto rows = run.draws(c);
-    rows_.insert(rows_.end(), rows.begin(), rows.begin() + std::ptrdiff_t(iterations_ * stride_));
+    const std::size_t first_row = std::size_t(chains_) * iterations_;
+    for (std::size_t t = 0; t < iterations_; ++t)
+      for (std::size_t w = 0; w < stride_; ++w)
+        columns_[w * total_ + first_row + t] = rows[t * stride_ + w];
     const auto scores = run.log_scores(c);
     log_scores_.insert(log_scores_.end(), scores.begin(),
                        scores.begin() + std::ptrdiff_t(iterations_));
@@ -67,23 +73,24 @@ void RunFeatures::append(const ChainRun& run) {
 }
 
 // Ancestor sets by a fixed point per draw: anc(v) = pa(v) | union of anc(u) over u in anc(v).
-// Sweeping the nodes repeatedly converges within the length of the longest path.
+// Sweeping the nodes repeatedly converges within the length of the longest path. Each draw is
+// gathered from the columns into a row, closed, and scattered back.
 void RunFeatures::compute_ancestors() {
-  const std::size_t draws = std::size_t(chains_) * iterations_;
-  ancestors_ = rows_;
-  tbb::parallel_for(tbb::blocked_range<std::size_t>(0, draws), [&](const auto& range) {
+  ancestors_.assign(columns_.size(), 0);
+  tbb::parallel_for(tbb::blocked_range<std::size_t>(0, total_), [&](const auto& range) {
+    std::vector<std::uint64_t> anc(stride_);
     std::vector<std::uint64_t> merged(static_cast<std::size_t>(words_));
     for (std::size_t r = range.begin(); r != range.end(); ++r) {
-      std::uint64_t* anc = ancestors_.data() + r * stride_;
+      for (std::size_t w = 0; w < stride_; ++w) anc[w] = columns_[w * total_ + r];
       for (bool changed = true; changed;) {
         changed = false;
         for (int v = 0; v < n_; ++v) {
-          std::uint64_t* own = anc + std::size_t(v) * words_;
+          std::uint64_t* own = anc.data() + std::size_t(v) * words_;
           std::copy(own, own + words_, merged.begin());
           for (int w = 0; w < words_; ++w)
             for (std::uint64_t m = own[w]; m; m &= m - 1) {
               const int u = w * 64 + std::countr_zero(m);
-              const std::uint64_t* theirs = anc + std::size_t(u) * words_;
+              const std::uint64_t* theirs = anc.data() + std::size_t(u) * words_;
               for (int x = 0; x < words_; ++x) merged[std::size_t(x)] |= theirs[x];
             }
           if (!std::equal(merged.begin(), merged.end(), own)) {
@@ -92,15 +99,15 @@ void RunFeatures::compute_ancestors() {
           }
         }
       }
+      for (std::size_t w = 0; w < stride_; ++w) ancestors_[w * total_ + r] = anc[w];
     }
   });
 }
 
 std::vector<std::pair<int, int>> RunFeatures::edges_seen() const {
   std::vector<std::uint64_t> any(stride_, 0);
-  const std::size_t total = std::size_t(chains_) * iterations_;
-  for (std::size_t r = 0; r < total; ++r)
-    for (std::size_t w = 0; w < stride_; ++w) any[w] |= rows_[r * stride_ + w];
+  for (std::size_t w = 0; w < stride_; ++w)
+    for (std::size_t r = 0; r < total_; ++r) any[w] |= columns_[w * total_ + r];
   std::vector<std::pair<int, int>> out;
   for (int to = 0; to < n_; ++to)
     for (int w = 0; w < words_; ++w)
@@ -116,24 +123,30 @@ void check_output_size(std::span<double> out, std::size_t expected) {
 }
 }  // namespace
 
+// Each indicator reads one column (the parent words of `to` holding `from`) from start to end.
 void RunFeatures::edge(int from, int to, std::span<double> out) const {
-  const std::size_t total = std::size_t(chains_) * iterations_;
-  check_output_size(out, total);
-  for (std::size_t r = 0; r < total; ++r) out[r] = has_edge(r, from, to) ? 1.0 : 0.0;
+  check_output_size(out, total_);
+  const std::uint64_t* column = parent_column(columns_, from, to);
+  const int bit = from & 63;
+  for (std::size_t r = 0; r < total_; ++r) out[r] = static_cast<double>((column[r] >> bit) & 1U);
 }
 
 void RunFeatures::adjacency(int a, int b, std::span<double> out) const {
-  const std::size_t total = std::size_t(chains_) * iterations_;
-  check_output_size(out, total);
-  for (std::size_t r = 0; r < total; ++r)
-    out[r] = (has_edge(r, a, b) || has_edge(r, b, a)) ? 1.0 : 0.0;
+  check_output_size(out, total_);
+  const std::uint64_t* ab = parent_column(columns_, a, b);
+  const std::uint64_t* ba = parent_column(columns_, b, a);
+  const int bit_a = a & 63, bit_b = b & 63;
+  for (std::size_t r = 0; r < total_; ++r)
+    out[r] = static_cast<double>(((ab[r] >> bit_a) | (ba[r] >> bit_b)) & 1U);
 }
 
 void RunFeatures::ancestor(int from, int to, std::span<double> out) const {
-  if (ancestors_.empty() && !rows_.empty()) throw Error("RunFeatures: built without ancestor sets");
-  const std::size_t total = std::size_t(chains_) * iterations_;
-  check_output_size(out, total);
-  for (std::size_t r = 0; r < total; ++r) out[r] = has_path(r, from, to) ? 1.0 : 0.0;
+  if (ancestors_.empty() && !columns_.empty())
+    throw Error("RunFeatures: built without ancestor sets");
+  check_output_size(out, total_);
+  const std::uint64_t* column = parent_column(ancestors_, from, to);
+  const int bit = from & 63;
+  for (std::size_t r = 0; r < total_; ++r) out[r] = static_cast<double>((column[r] >> bit) & 1U);
 }
 
 void RunFeatures::log_score(std::span<double> out) const {
@@ -145,13 +158,11 @@ void RunFeatures::in_cover_class(int k, std::span<double> out) const {
   if (n_ > 64 || words_ != 1)
     throw InputError("membership in D_k is tested for at most 64 variables, the run has " +
                      std::to_string(n_));
-  const std::size_t total = std::size_t(chains_) * iterations_;
-  check_output_size(out, total);
-  tbb::parallel_for(tbb::blocked_range<std::size_t>(0, total), [&](const auto& range) {
+  check_output_size(out, total_);
+  tbb::parallel_for(tbb::blocked_range<std::size_t>(0, total_), [&](const auto& range) {
     Dag dag(n_);
     for (std::size_t r = range.begin(); r != range.end(); ++r) {
-      std::copy(rows_.begin() + std::ptrdiff_t(r * stride_),
-                rows_.begin() + std::ptrdiff_t((r + 1) * stride_), dag.parents.begin());
+      for (std::size_t w = 0; w < stride_; ++w) dag.parents[w] = columns_[w * total_ + r];
       out[r] = covey::in_cover_class(dag, k) ? 1.0 : 0.0;
     }
   });

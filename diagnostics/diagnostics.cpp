@@ -281,6 +281,106 @@ double rhat_from_moments(const ChainMoments& m, int iterations) {
   return std::sqrt((var_between / var_within + n - 1) / n);
 }
 
+namespace {
+
+// A 0/1 chain as its runs of ones, [begin, end) each.
+struct OnesRun {
+  long begin, end;
+};
+
+void runs_of_ones(std::span<const double> x, std::vector<OnesRun>& runs) {
+  runs.clear();
+  const long n = static_cast<long>(x.size());
+  for (long t = 0; t < n;) {
+    if (x[static_cast<std::size_t>(t)] == 0) {
+      ++t;
+      continue;
+    }
+    const long begin = t;
+    while (t < n && x[static_cast<std::size_t>(t)] != 0) ++t;
+    runs.push_back({begin, t});
+  }
+}
+
+// Adds to `raw` (lags 0..n-1) the raw lag sums sum_t (x_t - m)(x_{t+k} - m) of one 0/1 chain,
+// exactly, from its runs of ones. The count of t with x_t = x_{t+k} = 1 is a sum over ordered
+// pairs of runs A = [a0, a1), B = [b0, b1) (B not before A) of |A ∩ (B - k)|, the correlation of
+// two boxes: r(k - (b0 - a1)) - r(k - (b0 - a0)) - r(k - (b1 - a1)) + r(k - (b1 - a0)) with
+// r(x) = max(0, x). The ramps are accumulated as slope changes and integrated once; the
+// centring terms come from prefix counts. Integer arithmetic up to the centring, so the result
+// is the FFT's up to its rounding.
+void add_binary_lag_sums(std::span<const double> x, double m, const std::vector<OnesRun>& runs,
+                         std::vector<long long>& slope_change, std::vector<double>& raw) {
+  const long n = static_cast<long>(x.size());
+  slope_change.assign(static_cast<std::size_t>(n) + 1, 0);
+  long long value = 0, slope = 0;
+  const auto ramp = [&](long long coefficient, long start) {
+    if (start < 0) {
+      value += coefficient * -start;
+      slope += coefficient;
+    } else if (start < n) {
+      slope_change[static_cast<std::size_t>(start)] += coefficient;
+    }
+  };
+  for (std::size_t i = 0; i < runs.size(); ++i)
+    for (std::size_t j = i; j < runs.size(); ++j) {
+      const OnesRun& a = runs[i];
+      const OnesRun& b = runs[j];
+      ramp(+1, b.begin - a.end);
+      ramp(-1, b.begin - a.begin);
+      ramp(-1, b.end - a.end);
+      ramp(+1, b.end - a.begin);
+    }
+  // prefix[t] = ones among x_0 .. x_{t-1}, from the runs.
+  std::vector<long long> prefix(static_cast<std::size_t>(n) + 1, 0);
+  for (const OnesRun& r : runs)
+    for (long t = r.begin; t < r.end; ++t) prefix[static_cast<std::size_t>(t) + 1] = 1;
+  for (long t = 0; t < n; ++t)
+    prefix[static_cast<std::size_t>(t) + 1] += prefix[static_cast<std::size_t>(t)];
+  const long long total = prefix[static_cast<std::size_t>(n)];
+  for (long k = 0; k < n; ++k) {
+    slope += slope_change[static_cast<std::size_t>(k)];
+    // Ones among the first n - k draws plus ones among the last n - k draws.
+    const long long ends =
+        prefix[static_cast<std::size_t>(n - k)] + (total - prefix[static_cast<std::size_t>(k)]);
+    raw[static_cast<std::size_t>(k)] += static_cast<double>(value) - m * static_cast<double>(ends) +
+                                        m * m * static_cast<double>(n - k);
+    value += slope;
+  }
+}
+
+}  // namespace
+
+std::optional<double> binary_ess_given_means(DrawsView draws,
+                                             const std::vector<double>& chain_means) {
+  // Pair work grows as runs^2; the FFT costs about n log n per chain. Beyond this budget the
+  // FFT path is cheaper (measured with bench/diagnostics_bench.cpp).
+  constexpr double kPairsPerDraw = 16;
+  FftWorkspace& ws = workspace();
+  const std::size_t n = static_cast<std::size_t>(draws.iterations);
+  std::vector<std::vector<OnesRun>> runs(static_cast<std::size_t>(draws.chains));
+  double pairs = 0;
+  for (int c = 0; c < draws.chains; ++c) {
+    runs_of_ones(draws.chain(c), runs[static_cast<std::size_t>(c)]);
+    const auto r = static_cast<double>(runs[static_cast<std::size_t>(c)].size());
+    pairs += r * r / 2;
+    if (pairs > kPairsPerDraw * static_cast<double>(n) * draws.chains) return std::nullopt;
+  }
+  ws.acov.assign(n, 0.0);
+  std::vector<long long> slope_change;
+  for (int c = 0; c < draws.chains; ++c) {
+    if (all_equal(draws.chain(c))) continue;  // a constant chain adds zeros, as on the FFT path
+    add_binary_lag_sums(draws.chain(c), chain_means[static_cast<std::size_t>(c)],
+                        runs[static_cast<std::size_t>(c)], slope_change, ws.acov);
+  }
+  const double scale = 1 / (static_cast<double>(n) * draws.chains);
+  for (double& a : ws.acov) a *= scale;
+  const double var_chain_means =
+      draws.chains > 1 ? r_variance(chain_means, r_mean(chain_means)) : 0.0;
+  return ess_from_autocovariance(ws.acov, static_cast<long>(n), draws.chains, var_chain_means,
+                                 ws.rho);
+}
+
 double ess_given_means(DrawsView draws, const std::vector<double>& chain_means) {
   FftWorkspace& ws = workspace();
   const double var_chain_means =

@@ -3,6 +3,7 @@
 #include <cmath>
 #include <cstddef>
 #include <limits>
+#include <optional>
 #include <span>
 #include <vector>
 
@@ -69,6 +70,11 @@ ChainMoments chain_moments(DrawsView draws);
 // R-hat from the chain moments, and the ESS given the chain means (iterations >= 3).
 double rhat_from_moments(const ChainMoments& moments, int iterations);
 double ess_given_means(DrawsView draws, const std::vector<double>& chain_means);
+// The same ESS for chains of 0/1 values, from their runs of ones with exact lag sums: much
+// cheaper than the FFT when the chains switch rarely (most edge features); nothing when the
+// runs are too many for that to pay (then call ess_given_means).
+std::optional<double> binary_ess_given_means(DrawsView draws,
+                                             const std::vector<double>& chain_means);
 
 // Steps of posterior's rhat, ess_quantile and ess_tail, shared by the single diagnostics and
 // summarize().

@@ -78,7 +78,8 @@ std::optional<FeatureSummary> summarize_two_valued(DrawsView draws, const TwoVal
   }
   if (ones == 0 || ones == b.values.size()) return std::nullopt;
   const double rhat_b = rhat_from_moments(moments, half);
-  const double ess_b = ess_given_means(b.view(), moments.mean);
+  const std::optional<double> from_runs = binary_ess_given_means(b.view(), moments.mean);
+  const double ess_b = from_runs ? *from_runs : ess_given_means(b.view(), moments.mean);
 
   const std::size_t n = draws.values.size();
   const auto sorted = [&](std::size_t k) { return k <= two.n_lo ? two.lo : two.hi; };

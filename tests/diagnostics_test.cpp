@@ -393,6 +393,19 @@ TEST(Diagnostics, ParallelSummariesDoNotDependOnThreadCount) {
   }
 }
 
+// summarize() takes the ESS of a 0/1 feature from exact lag sums over its runs of ones when the
+// chains switch rarely, and from the FFT otherwise; the general functions always use the FFT.
+// Both must agree to rounding, from chains that switch every 1000 steps to every other step.
+TEST(Diagnostics, EssFromRunsOfOnesEqualsTheFftPath) {
+  Rng rng = make_stream(2026, 12);
+  for (const double p : {0.0005, 0.003, 0.02, 0.2, 0.6}) {
+    const Draws d = make_draws(4, 20001, [&](int) { return sticky_binary(rng, p, p, 20001); });
+    const FeatureSummary s = summarize(d.view());
+    EXPECT_NEAR(s.ess_bulk, ess_bulk(d.view()), 1e-9 * ess_bulk(d.view())) << "switch rate " << p;
+    EXPECT_NEAR(s.ess_mean, ess_mean(d.view()), 1e-9 * ess_mean(d.view())) << "switch rate " << p;
+  }
+}
+
 TEST(Diagnostics, WorstFirstAndVerdict) {
   const Thresholds t;  // R-hat < 1.01, ESS > 400
   const std::vector<FeatureSummary> s = {

@@ -155,16 +155,18 @@ class RunFeatures {
  private:
   void append(const ChainRun& run);
   void compute_ancestors();
-  bool has_edge(std::size_t row, int from, int to) const {
-    return (rows_[row * stride_ + std::size_t(to) * words_ + (from >> 6)] >> (from & 63)) & 1U;
-  }
-  bool has_path(std::size_t row, int from, int to) const {
-    return (ancestors_[row * stride_ + std::size_t(to) * words_ + (from >> 6)] >> (from & 63)) & 1U;
+  // The column of parent (or ancestor) words of `to` that holds the bit of `from`, one word per
+  // draw.
+  const std::uint64_t* parent_column(const std::vector<std::uint64_t>& sets, int from,
+                                     int to) const {
+    return sets.data() + (std::size_t(to) * words_ + std::size_t(from >> 6)) * total_;
   }
   int chains_ = 0, n_ = 0, words_ = 0;
-  std::size_t iterations_ = 0, stride_ = 0;
-  std::vector<std::uint64_t> rows_;       // all chains' draws, chain-major
-  std::vector<std::uint64_t> ancestors_;  // per draw and node: its ancestors (with_ancestors)
+  std::size_t iterations_ = 0, stride_ = 0, total_ = 0;  // total_ = chains_ * iterations_
+  // All chains' draws node-major: parent word w (of stride_ per draw) of draw r at
+  // [w * total_ + r], draws chain-major; one feature's series is then one contiguous column.
+  std::vector<std::uint64_t> columns_;
+  std::vector<std::uint64_t> ancestors_;  // per node its ancestors, same layout (with_ancestors)
   std::vector<double> log_scores_;
   std::vector<std::int64_t> steps_;  // step number of every kept draw, chain-major
   std::vector<std::vector<std::size_t>> tour_starts_;
