@@ -7,11 +7,13 @@
 #include <pybind11/stl.h>
 
 #include <chrono>
+#include <cmath>
 #include <csignal>
 #include <optional>
 #include <thread>
 
 #include "bindings.hpp"
+#include "covey/analysis/check.hpp"
 #include "covey/chains/chain_run_file.hpp"
 #include "covey/chains/chain_runner.hpp"
 #include "covey/chains/chain_support.hpp"
@@ -80,6 +82,7 @@ py::dict options_dict(const ChainRunOptions& o) {
   d["teleport_cover"] = o.teleport_cover;
   d["cover_limit"] = o.cover_limit;
   d["start"] = o.start;
+  d["start_cover"] = o.start_cover;
   d["block_size"] = o.block_size;
   d["block_rate"] = o.block_rate;
   return d;
@@ -116,13 +119,33 @@ py::dict summary_dict(const ChainRunSummary& s) {
   d["regenerations_per_chain"] = s.regenerations;
   d["stop_reason"] = s.stop_reason;
   if (s.convergence_checked) {
+    // The keys of the CLI's --json summary (cmd_chain.cpp) and of `check`'s verdict.
+    const Verdict& v = s.convergence;
+    const auto counts = [](const Verdict::Counts& n) {
+      py::dict out;
+      out["passing"] = n.passing;
+      out["failing"] = n.failing;
+      out["undefined"] = n.undefined;
+      return out;
+    };
+    const VerdictText text = stopping_verdict_text(s);
     py::dict c;
-    c["converged"] = s.convergence.converged;
-    c["max_rhat"] = s.convergence.max_rhat;
-    c["min_ess"] = s.convergence.min_ess;
-    c["features"] = s.convergence.features;
-    c["failing"] = s.convergence.failing;
-    c["undefined"] = s.convergence.undefined;
+    c["converged"] = v.converged();
+    c["state"] = to_string(v.state);
+    c["max_rhat"] = v.max_rhat;
+    c["min_ess"] = std::fmin(v.min_ess_bulk, v.min_ess_tail);
+    c["min_ess_bulk"] = v.min_ess_bulk;
+    c["min_ess_tail"] = v.min_ess_tail;
+    c["features"] = v.features;
+    c["passing"] = v.passing;
+    c["failing"] = v.failing;
+    c["undefined"] = v.undefined;
+    c["rhat"] = counts(v.rhat);
+    c["ess_bulk"] = counts(v.ess_bulk);
+    c["ess_tail"] = counts(v.ess_tail);
+    c["checks"] = s.convergence_checks;
+    c["text"] = text.outcome;
+    c["caveats"] = text.caveats;
     d["convergence"] = c;
   }
   if (!std::isnan(s.teleport_mass_bound_log10))
@@ -204,8 +227,8 @@ py::object chain(const py::object& table_or_path, const std::string& path,
                  const FixedArguments& fixed, std::optional<double> steps,
                  const py::object& max_time, const py::object& checkpoint_every, double until_rhat,
                  double until_ess, const std::string& teleport_sampler,
-                 const py::object& memory_limit, int threads, bool resume, bool force, bool progress,
-                 const py::object& stop, const py::object& report) {
+                 const py::object& memory_limit, int threads, bool resume, bool force,
+                 bool progress, const py::object& stop, const py::object& report) {
   const auto table = table_of(table_or_path);
   ChainRunOptions o = fixed_options_of(fixed);
   o.overwrite = force;
@@ -305,13 +328,13 @@ void bind_chains(py::module_& m) {
          std::optional<double> block_rate, const py::object& max_time,
          const py::object& checkpoint_every, double until_rhat, double until_ess,
          const std::string& teleport_sampler, const py::object& memory_limit, int threads,
-         bool resume, bool force, bool progress, const py::object& stop,
-         const py::object& report) {
+         bool resume, bool force, bool progress, const py::object& stop, const py::object& report) {
         const FixedArguments fixed{chains,         thin,          burn_in,   seed,
                                    teleport_cover, teleport_rate, rev_rate,  cover_limit,
                                    start,          block_size,    block_rate};
         return chain(table, path, fixed, steps, max_time, checkpoint_every, until_rhat, until_ess,
-                     teleport_sampler, memory_limit, threads, resume, force, progress, stop, report);
+                     teleport_sampler, memory_limit, threads, resume, force, progress, stop,
+                     report);
       },
       py::arg("table"), py::arg("path"), py::arg("chains"), py::arg("steps"), py::arg("thin"),
       py::arg("burn_in"), py::arg("seed"), py::arg("teleport_cover"), py::arg("teleport_rate"),
@@ -319,8 +342,7 @@ void bind_chains(py::module_& m) {
       py::arg("block_rate"), py::arg("max_time"), py::arg("checkpoint_every"),
       py::arg("until_rhat"), py::arg("until_ess"), py::arg("teleport_sampler"),
       py::arg("memory_limit"), py::arg("threads"), py::arg("resume"), py::arg("force"),
-      py::arg("progress"),
-      py::arg("stop"), py::arg("report"));
+      py::arg("progress"), py::arg("stop"), py::arg("report"));
 
   py::class_<Run>(m, "_Run")
       .def(py::init<const std::string&>(), py::arg("path"))
@@ -328,8 +350,8 @@ void bind_chains(py::module_& m) {
       .def_property_readonly("num_draws", &Run::num_draws)
       .def_property_readonly("variables", [](const Run& r) { return r.first().variables(); })
       .def_property_readonly("steps", [](const Run& r) { return r.first().steps(); })
-      .def_property_readonly(
-          "options", [](const Run& r) { return options_dict(r.first().options()); })
+      .def_property_readonly("options",
+                             [](const Run& r) { return options_dict(r.first().options()); })
       .def_property_readonly("sessions",
                              [](const Run& r) {
                                py::list out;
