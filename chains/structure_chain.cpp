@@ -68,7 +68,7 @@ StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& confi
     : table_(&table),
       config_(config),
       faults_(faults ? std::make_unique<const ChainFaults>(*faults) : nullptr),
-      drop_hastings_(faults ? faults->drop_hastings : 0),
+      faulty_moves_(faults ? faults->drop_hastings : 0),
       n_(table.num_variables()),
       words_((n_ + 63) / 64) {
   if (config.rev_rate < 0 || config.teleport_rate < 0 || config.block_rate < 0 ||

@@ -173,7 +173,7 @@ class StructureChain {
   void rev_move(Rng& rng);
   bool teleport(Rng& rng);
   bool block_move(Rng& rng);  // chains/block_move.cpp
-  bool dropped(Move move) const { return (drop_hastings_ >> int(move)) & 1U; }
+  bool dropped(Move move) const { return (faulty_moves_ >> int(move)) & 1U; }
   bool in_restriction(const Dag& dag) const;
 
   void load_state(const std::vector<ParentMask>& local, const std::string& what);
@@ -198,7 +198,7 @@ class StructureChain {
   const ScoreTable* table_;
   ChainConfig config_;
   std::unique_ptr<const ChainFaults> faults_;  // the tests' faults, or none
-  unsigned drop_hastings_ = 0;                 // faults_->drop_hastings, read on every move
+  unsigned faulty_moves_ = 0;                  // bit m: move m drops its Hastings factor (faults_)
   int n_ = 0;
   int words_ = 0;
   std::uint64_t rev_threshold_ = 0;       // rng() below this: REV
