@@ -139,6 +139,10 @@ py::dict summary_dict(const ChainRunSummary& s) {
     c["min_ess"] = std::fmin(v.min_ess_bulk, v.min_ess_tail);
     c["min_ess_bulk"] = v.min_ess_bulk;
     c["min_ess_tail"] = v.min_ess_tail;
+    py::dict thresholds;
+    thresholds["rhat"] = s.convergence_thresholds.max_rhat;
+    thresholds["ess"] = s.convergence_thresholds.min_ess;
+    c["thresholds"] = thresholds;
     c["features"] = v.features;
     c["passing"] = v.passing;
     c["failing"] = v.failing;

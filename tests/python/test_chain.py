@@ -135,6 +135,6 @@ def test_stopping_rule_and_exact_start_equal_cli_json(tmp_path, sensors_scores):
     assert summary["stop_reason"] == cli["stop_reason"] == "converged"
     assert summary["steps"] % 40000 == 0  # at a tenth of the steps
     for key in ("converged", "state", "features", "passing", "failing", "undefined", "rhat",
-                "ess_bulk", "ess_tail", "text", "caveats", "checks"):
+                "ess_bulk", "ess_tail", "text", "caveats", "checks", "thresholds"):
         assert summary["convergence"][key] == cli["convergence"][key], key
     assert summary["convergence"]["text"].startswith("converged: ")
