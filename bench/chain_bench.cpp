@@ -11,6 +11,7 @@
 #include <functional>
 #include <vector>
 
+#include "../chains/chain_testing.hpp"
 #include "covey/chains/structure_chain.hpp"
 #include "covey/core/random.hpp"
 #include "covey/scores/score_table.hpp"
@@ -29,8 +30,8 @@ void run_chain(benchmark::State& state, int n, int num_candidates, double rev_ra
   const covey::ScoreTable table = make_table(n, num_candidates, 3, 1.0);
   covey::ChainConfig config;
   config.rev_rate = rev_rate;
-  config.exact_local_moves_for_testing = !screen;
-  covey::StructureChain chain(table, config);
+  covey::StructureChain chain =
+      covey::make_faulty_chain(table, config, {.exact_local_moves = !screen});
   covey::Rng rng = covey::make_stream(1, 0);
   for (int s = 0; s < 200000; ++s) chain.step(rng);  // reach a typical state first
   constexpr int kBatch = 1000;

@@ -31,12 +31,12 @@ ExactOptions block_engine_options(bool draws) {
 
 }  // namespace
 
-BlockMove::BlockMove(const ScoreTable& table, const ChainConfig& config)
+BlockMove::BlockMove(const ScoreTable& table, const ChainConfig& config, BlockFault fault)
     : table_(&table),
       n_(table.num_variables()),
       block_size_(config.block_size),
       family_(config.block_family),
-      fault_(config.block_fault_for_testing) {
+      fault_(fault) {
   if (block_size_ < 0 || block_size_ > std::min(n_, kMaxBlockSize))
     throw InputError("--block-size: " + std::to_string(block_size_) + " is not between 1 and " +
                      std::to_string(std::min(n_, kMaxBlockSize)));
@@ -190,8 +190,9 @@ void BlockMove::draw(Rng& rng, std::vector<ParentMask>& next) const {
   }
 }
 
-std::unique_ptr<BlockMove> make_block_move(const ScoreTable& table, const ChainConfig& config) {
-  return std::make_unique<BlockMove>(table, config);
+std::unique_ptr<BlockMove> make_block_move(const ScoreTable& table, const ChainConfig& config,
+                                           BlockFault fault) {
+  return std::make_unique<BlockMove>(table, config, fault);
 }
 
 // ---- The chain's step ----------------------------------------------------------------------
@@ -201,12 +202,11 @@ bool StructureChain::block_move(Rng& rng) {
   const bool accepted = block_move_on(block, rng);
   // Over all nodes the draw is exact from the whole posterior (restricted: accepted exactly in
   // the class, with a probability that does not depend on the state): a regeneration.
-  return accepted && int(block.size()) == n_ &&
-         config_.block_fault_for_testing == BlockFault::kNone;
+  return accepted && int(block.size()) == n_ && block_fault_of(faults_.get()) == BlockFault::kNone;
 }
 
 bool StructureChain::block_move_on(std::span<const int> block, Rng& rng) {
-  if (!block_) block_ = make_block_move(*table_, config_);
+  if (!block_) block_ = make_block_move(*table_, config_, block_fault_of(faults_.get()));
   ++counts_.proposed[int(Move::kBlock)];
   block_->derive(local_, block);
   std::vector<ParentMask> next;
@@ -233,7 +233,7 @@ bool StructureChain::block_move_on(std::span<const int> block, Rng& rng) {
 }
 
 double StructureChain::block_log_normaliser(std::span<const int> block) {
-  if (!block_) block_ = make_block_move(*table_, config_);
+  if (!block_) block_ = make_block_move(*table_, config_, block_fault_of(faults_.get()));
   block_->derive(local_, block);
   return block_->log_normaliser();
 }

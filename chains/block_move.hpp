@@ -15,6 +15,7 @@
 #include <span>
 #include <vector>
 
+#include "chain_testing.hpp"
 #include "covey/chains/chain_runner.hpp"
 #include "covey/chains/structure_chain.hpp"
 #include "covey/core/random.hpp"
@@ -29,7 +30,8 @@ inline constexpr int kMaxBlockSize = 20;
 
 class BlockMove {
  public:
-  BlockMove(const ScoreTable& table, const ChainConfig& config);
+  BlockMove(const ScoreTable& table, const ChainConfig& config,
+            BlockFault fault = BlockFault::kNone);
 
   // A block from the move's fixed distribution (it never looks at the state), sorted.
   const std::vector<int>& draw_block(Rng& rng);
@@ -71,7 +73,8 @@ class BlockMove {
   mutable std::unique_ptr<ExactEngine> whole_engine_;
 };
 
-std::unique_ptr<BlockMove> make_block_move(const ScoreTable& table, const ChainConfig& config);
+std::unique_ptr<BlockMove> make_block_move(const ScoreTable& table, const ChainConfig& config,
+                                           BlockFault fault = BlockFault::kNone);
 
 // Blocks of m nodes fixed before a run (chains/block_settings.cpp): each node with its m - 1
 // strongest partners by the pairwise screen (the gain of the single-parent set over the empty

@@ -15,15 +15,24 @@ namespace {
 // Teleport probability per step when a teleport class is given and no rate (docs/chains.md).
 constexpr double kDefaultTeleportRate = 0.01;
 
-constexpr std::array<const char*, 11> kFixedFields = {
-    "chains",         "thin",        "burn_in", "seed",       "rev_rate",  "teleport_rate",
-    "teleport_cover", "cover_limit", "start",   "block_size", "block_rate"};
+constexpr std::array<const char*, 12> kFixedFields = {
+    "chains",         "thin",        "burn_in", "seed",        "rev_rate",   "teleport_rate",
+    "teleport_cover", "cover_limit", "start",   "start_cover", "block_size", "block_rate"};
 
 }  // namespace
+
+Thresholds stopping_thresholds(const ChainRunOptions& options) {
+  Thresholds thresholds;
+  if (options.until_rhat > 0) thresholds.max_rhat = options.until_rhat;
+  if (options.until_ess > 0) thresholds.min_ess = options.until_ess;
+  return thresholds;
+}
 
 ChainRunOptions with_default_choices(ChainRunOptions o) {
   if (o.teleport_rate < 0) o.teleport_rate = o.teleport_cover >= 0 ? kDefaultTeleportRate : 0.0;
   if (o.start.empty()) o.start = o.teleport_cover >= 0 ? "exact" : "greedy";
+  if (o.start == "exact" && o.start_cover < 0)
+    o.start_cover = o.teleport_cover >= 0 ? o.teleport_cover : kDefaultStartCover;
   return o;
 }
 
@@ -41,6 +50,7 @@ nlohmann::json fixed_options_to_json(const ChainRunOptions& o) {
           {"teleport_cover", o.teleport_cover},
           {"cover_limit", o.cover_limit},
           {"start", o.start},
+          {"start_cover", o.start_cover},
           {"block_size", o.block_size},
           {"block_rate", o.block_rate}};
 }
@@ -57,6 +67,8 @@ ChainRunOptions fixed_options_from_json(const nlohmann::json& s, const std::stri
     o.teleport_cover = s.at("teleport_cover").get<int>();
     o.cover_limit = s.at("cover_limit").get<int>();
     o.start = s.at("start").get<std::string>();
+    // Runs made before start_cover drew their exact starts from the teleports' D_k.
+    o.start_cover = s.value("start_cover", o.start == "exact" ? o.teleport_cover : -1);
     o.block_size = s.value("block_size", 0);  // runs made before block moves have none
     o.block_rate = s.value("block_rate", 0.0);
   } catch (const nlohmann::json::exception& e) {
@@ -83,6 +95,7 @@ ChainRunOptions resume_options(const std::string& run_path, const ChainRunOption
   out.until_rhat = given.until_rhat;
   out.until_ess = given.until_ess;
   out.checkpoint_every = given.checkpoint_every;
+  out.check_every = given.check_every;
   out.overwrite = given.overwrite;
   return out;
 }

@@ -40,6 +40,12 @@ constexpr std::size_t kMaxPendingBytes = std::size_t{256} << 20;
 // A checkpoint copies the whole file: it is spaced so that writing takes at most 1/20 of the
 // time (a floor on the interval for large files).
 constexpr double kMaxCheckpointShare = 0.05;
+// The automatic spacing of the stopping rule's checks (docs/chains.md, "Stopping rules"): this
+// share of the run's time so far, at least kMinCheckSeconds and at most the checkpoint interval;
+// with a step limit also at every kCheckMilestones-th of the steps.
+constexpr double kCheckShare = 0.1;
+constexpr double kMinCheckSeconds = 10;
+constexpr std::uint64_t kCheckMilestones = 10;
 // Teleports into a class holding at most this share of the posterior (log10) are called useless.
 constexpr double kNegligibleMassLog10 = -6;
 // The stream of the greedy ascent that judges teleports: past any chain's id.
@@ -53,6 +59,25 @@ struct Slot {
   chain_file::ChainBlock pending;  // rows since the last checkpoint
 };
 
+// The exact start draws from D_k, k = start_cover: a class of the cover engines (n <= 64,
+// 0 <= k < n) that lies inside the target's D_k' under cover_limit.
+void check_start_cover(const ChainRunOptions& o, const ScoreTable& table) {
+  const int n = table.num_variables();
+  if (n > 64)
+    throw OptionError(
+        "{start} exact draws from a cover-bounded class, which supports at most 64 "
+        "variables; the table has " +
+        std::to_string(n) + " (use {start} greedy)");
+  if (o.start_cover < 0 || o.start_cover >= n)
+    throw OptionError("{start_cover} " + std::to_string(o.start_cover) +
+                      " of {start} exact must be at least 0 and below the number of variables (" +
+                      std::to_string(n) + ")");
+  if (o.cover_limit >= 0 && o.start_cover > o.cover_limit)
+    throw OptionError(
+        "{start_cover} K must not exceed {cover_limit} K' (the start must lie in "
+        "D_K')");
+}
+
 void check_options(const ChainRunOptions& o, const ChainRunHooks& hooks, const ScoreTable& table,
                    bool resume) {
   if (o.chains < 1) throw OptionError("{chains} must be at least 1");
@@ -64,17 +89,18 @@ void check_options(const ChainRunOptions& o, const ChainRunHooks& hooks, const S
     throw OptionError("{rev_rate} plus {teleport_rate} must be at most 1");
   if (o.teleport_rate > 0 && o.teleport_cover < 0)
     throw OptionError("{teleport_rate} needs {teleport_cover} K (the class of the exact sampler)");
-  if (o.start == "exact" && o.teleport_cover < 0)
-    throw OptionError("{start} exact needs {teleport_cover} K (the class D_K to draw from)");
-  if ((o.teleport_rate > 0 || (o.start == "exact" && !resume)) && !hooks.teleport)
-    throw Error("run_chains: no teleport sampler given");
+  if (o.start == "exact") check_start_cover(o, table);
+  if (o.teleport_rate > 0 && !hooks.teleport) throw Error("run_chains: no teleport sampler given");
+  if (o.start == "exact" && !resume && !hooks.start_sampler &&
+      !(hooks.teleport && o.start_cover == o.teleport_cover))
+    throw Error("run_chains: no sampler for the exact start given");
   if (o.cover_limit >= 0 && !hooks.restriction) throw Error("run_chains: no class given");
   if (o.teleport_cover >= 0 && o.cover_limit >= 0 && o.teleport_cover > o.cover_limit)
     throw OptionError("{teleport_cover} K must not exceed {cover_limit} K' (D_K must lie in D_K')");
   if ((o.teleport_cover >= 0 || o.cover_limit >= 0) && table.num_variables() > 64)
     throw OptionError(
-        "{teleport_cover}, {cover_limit} and {start} exact support at most 64 variables; the "
-        "table has " +
+        "{teleport_cover} and {cover_limit} support at most 64 variables; the table "
+        "has " +
         std::to_string(table.num_variables()));
   if (o.until_rhat < 0 || o.until_ess < 0)
     throw OptionError("{until_rhat} and {until_ess} must be positive");
@@ -86,7 +112,37 @@ void check_options(const ChainRunOptions& o, const ChainRunHooks& hooks, const S
     throw OptionError("{burn_in} " + std::to_string(o.burn_in) + " leaves no draws of {steps} " +
                       std::to_string(o.steps) + " (the burn-in must be shorter than the run)");
   if (o.checkpoint_every < 0) throw OptionError("{checkpoint_every} must be >= 0");
+  if (o.check_every < 0) throw OptionError("{check_every} must be >= 0");
   check_block_options(o, table);
+}
+
+// A verdict as numbers, to send it from rank 0 to every rank, and back.
+std::vector<double> verdict_numbers(const Verdict& v) {
+  std::vector<double> out = {double(v.features), double(v.passing), double(v.failing),
+                             double(v.undefined)};
+  for (const Verdict::Counts* c : {&v.rhat, &v.ess_bulk, &v.ess_tail})
+    out.insert(out.end(), {double(c->passing), double(c->failing), double(c->undefined)});
+  out.insert(out.end(), {v.max_rhat, v.min_ess_bulk, v.min_ess_tail, double(int(v.state))});
+  return out;
+}
+
+Verdict verdict_of_numbers(const std::vector<double>& x) {
+  const auto count = [&](std::size_t i) { return static_cast<std::size_t>(x[i]); };
+  Verdict v;
+  v.features = count(0);
+  v.passing = count(1);
+  v.failing = count(2);
+  v.undefined = count(3);
+  std::size_t i = 4;
+  for (Verdict::Counts* c : {&v.rhat, &v.ess_bulk, &v.ess_tail}) {
+    *c = {count(i), count(i + 1), count(i + 2)};
+    i += 3;
+  }
+  v.max_rhat = x[i];
+  v.min_ess_bulk = x[i + 1];
+  v.min_ess_tail = x[i + 2];
+  v.state = static_cast<Verdict::State>(static_cast<int>(x[i + 3]));
+  return v;
 }
 
 std::string percent(std::uint64_t a, std::uint64_t p) {
@@ -146,6 +202,9 @@ class Runner {
     std::vector<std::uint64_t> file_start;
     if (o_.start != "empty" && o_.start != "exact" && o_.start != "greedy")
       file_start = read_start_dag(o_.start, table_);
+    const TeleportSource* exact_start = nullptr;
+    if (o_.start == "exact")
+      exact_start = hooks_.start_sampler ? &hooks_.start_sampler() : hooks_.teleport;
     for (int c = 0; c < local_; ++c) {
       auto slot = std::make_unique<Slot>(table_, config_);
       // The stream of the global chain: the trace does not depend on which rank runs it.
@@ -159,11 +218,14 @@ class Runner {
         // From the chain's own stream: every chain climbs from its own random node order.
         slot->chain.set_parents(greedy_start(table_, slot->rng), "greedy start");
       } else if (o_.start == "exact") {
-        // The chain's own stream makes its first state an exact draw from D_k: a regeneration
-        // at step 0.
-        slot->chain.set_dag(hooks_.teleport->draw(slot->rng), "exact start draw");
-        slot->pending.regenerations.push_back(0);
-        slot->regenerations = 1;
+        // The chain's own stream makes its first state an exact draw from D_k. From the
+        // teleports' class it is a regeneration at step 0 (the state every accepted teleport
+        // leaves: an independent draw of w restricted to D_k).
+        slot->chain.set_dag(exact_start->draw(slot->rng), "exact start draw");
+        if (o_.start_cover == o_.teleport_cover) {
+          slot->pending.regenerations.push_back(0);
+          slot->regenerations = 1;
+        }
       } else {
         slot->chain.set_parents(file_start, o_.start);
       }
@@ -294,12 +356,29 @@ class Runner {
     std::uint64_t segment = 1000;
     auto last_checkpoint = Clock::now();
     double interval = o_.checkpoint_every;
+    // The stopping rule has its own schedule (check_interval, step milestones) besides the
+    // checkpoints. A check first writes a checkpoint: the diagnostics judge every draw of the
+    // run, most of which are only in the file (and over MPI in other ranks' files, which rank 0
+    // reads), and a checkpoint never changes a chain's trajectory.
+    auto last_check = Clock::now();
+    double check_every = check_interval(prior_elapsed_, 0);
+    std::uint64_t milestone = next_milestone();
+    std::uint64_t draws_checked = 0;
     std::string reason;
     ChainRunSummary summary;
+    summary.convergence_thresholds = stopping_thresholds(o_);
+    const auto judge_draws = [&] {
+      summary.convergence = check_convergence();
+      summary.convergence_checked = true;
+      ++summary.convergence_checks;
+      draws_checked = draws_;
+    };
 
     if (o_.steps > 0 && steps_ >= o_.steps) reason = "steps";
     while (reason.empty()) {
-      const std::uint64_t len = o_.steps > 0 ? std::min(segment, o_.steps - steps_) : segment;
+      std::uint64_t len = o_.steps > 0 ? std::min(segment, o_.steps - steps_) : segment;
+      // Segments end on the milestones, so that a run checks at the same steps every time.
+      if (milestone > steps_) len = std::min(len, milestone - steps_);
       const auto t0 = Clock::now();
       run_segment(len);
       const double took = seconds_since(t0);
@@ -318,7 +397,7 @@ class Runner {
           seconds_since(session_start),
           seconds_since(last_checkpoint) >= interval || pending_bytes() > kMaxPendingBytes ? 1.0
                                                                                            : 0.0,
-          -double(next)};
+          -double(next), check_due(last_check, check_every, milestone) ? 1.0 : 0.0};
       mpi::allreduce_max(shared);
       segment = static_cast<std::uint64_t>(-shared[3]);
       if (shared[0] != 0) {
@@ -329,7 +408,10 @@ class Runner {
       } else if (o_.max_seconds > 0 && shared[1] >= o_.max_seconds) {
         reason = "max-time";
       }
-      const bool due = shared[2] != 0;
+      // The rule is checked on its own schedule and after every checkpoint.
+      const bool check = o_.until_enabled() && reason.empty() && (shared[4] != 0 || shared[2] != 0);
+      const bool due = shared[2] != 0 || check;
+      double cost = 0;  // of this checkpoint and check
       if (due || !reason.empty()) {
         const auto tc = Clock::now();
         write_checkpoint(prior_elapsed_ + seconds_since(session_start));
@@ -340,19 +422,24 @@ class Runner {
         mpi::allreduce_max(slowest);
         interval = std::max(o_.checkpoint_every, slowest[0] / kMaxCheckpointShare);
         last_checkpoint = Clock::now();
-        if (reason.empty() && o_.until_enabled()) {
-          summary.convergence = check_convergence();
-          summary.convergence_checked = true;
-          if (summary.convergence.converged) reason = "converged";
-        }
+        cost = slowest[0];
+      }
+      if (check) {
+        const auto tj = Clock::now();
+        judge_draws();
+        if (summary.convergence.converged()) reason = "converged";
+        check_every =
+            check_interval(prior_elapsed_ + seconds_since(session_start), cost + seconds_since(tj));
+        last_check = Clock::now();
+        milestone = next_milestone();
       }
       if (hooks_.progress) show_progress(progress, session_start, steps_at_start);
     }
     progress.finish();
-    if (o_.until_enabled() && !summary.convergence_checked && draws_ > 0) {
-      summary.convergence = check_convergence();
-      summary.convergence_checked = true;
-    }
+    // The summary judges every draw: once more when draws came after the last check (not when
+    // a signal asks to stop quickly).
+    if (o_.until_enabled() && draws_ > draws_checked && (reason != "signal" || draws_checked == 0))
+      judge_draws();
 
     summary.path = path_;
     summary.chains = o_.chains;
@@ -460,32 +547,46 @@ class Runner {
     clear_pending();
   }
 
+  // Seconds to the next check of the stopping rule after one that took `cost` seconds (with its
+  // checkpoint), `run_seconds` into the run: check_every, or kCheckShare of the run so far within
+  // [kMinCheckSeconds, checkpoint_every]; never so often that checks take more than
+  // kMaxCheckpointShare of the time.
+  double check_interval(double run_seconds, double cost) const {
+    const double automatic = std::clamp(kCheckShare * run_seconds, kMinCheckSeconds,
+                                        std::max(kMinCheckSeconds, o_.checkpoint_every));
+    return std::max(o_.check_every > 0 ? o_.check_every : automatic, cost / kMaxCheckpointShare);
+  }
+
+  // The next step milestone after steps_ at which the stopping rule is checked (every
+  // kCheckMilestones-th of the step limit); 0: none (no step limit or no stopping rule).
+  std::uint64_t next_milestone() const {
+    if (!o_.until_enabled() || o_.steps == 0) return 0;
+    const std::uint64_t spacing = std::max<std::uint64_t>(1, o_.steps / kCheckMilestones);
+    const std::uint64_t next = (steps_ / spacing + 1) * spacing;
+    return next < o_.steps ? next : 0;  // the last check comes with the stop at o_.steps
+  }
+
+  bool check_due(Clock::time_point last_check, double check_every, std::uint64_t milestone) const {
+    if (!o_.until_enabled()) return false;
+    return seconds_since(last_check) >= check_every || (milestone > 0 && steps_ >= milestone);
+  }
+
   // Collective over MPI: after every rank's checkpoint, rank 0 reads all members (the files
   // are on a folder every rank can reach, as the manifest requires), judges all chains' draws
   // together exactly as one process would, and sends the verdict to every rank.
-  ConvergenceStatus check_convergence() {
-    const double rhat = o_.until_rhat > 0 ? o_.until_rhat : 1.01;
-    const double ess = o_.until_ess > 0 ? o_.until_ess : 400;
-    if (ranks_ == 1) return hooks_.convergence(RunFeatures(ChainRun::open(path_)), rhat, ess);
+  Verdict check_convergence() {
+    const Thresholds thresholds = stopping_thresholds(o_);
+    if (ranks_ == 1) return hooks_.convergence(RunFeatures(ChainRun::open(path_)), thresholds);
     mpi::barrier();
-    std::vector<double> verdict(6, 0.0);
+    std::vector<double> numbers = verdict_numbers(Verdict{});
     if (rank_ == 0) {
       std::vector<ChainRun> runs;
       for (int r = 0; r < ranks_; ++r)
         runs.push_back(ChainRun::open(chain_file::member_path(path_, r)));
-      const ConvergenceStatus s = hooks_.convergence(RunFeatures(runs), rhat, ess);
-      verdict = {s.converged ? 1.0 : 0.0, s.max_rhat,        s.min_ess,
-                 double(s.features),      double(s.failing), double(s.undefined)};
+      numbers = verdict_numbers(hooks_.convergence(RunFeatures(runs), thresholds));
     }
-    mpi::broadcast(verdict);
-    ConvergenceStatus s;
-    s.converged = verdict[0] != 0;
-    s.max_rhat = verdict[1];
-    s.min_ess = verdict[2];
-    s.features = static_cast<std::size_t>(verdict[3]);
-    s.failing = static_cast<std::size_t>(verdict[4]);
-    s.undefined = static_cast<std::size_t>(verdict[5]);
-    return s;
+    mpi::broadcast(numbers);
+    return verdict_of_numbers(numbers);
   }
 
   void show_progress(Progress& progress, Clock::time_point start, std::uint64_t steps_at_start) {

@@ -3,32 +3,21 @@
 #include <cmath>
 
 #include "covey/core/error.hpp"
+#include "covey/core/memory.hpp"
 #include "covey/diagnostics/diagnostics.hpp"
 #include "covey/exact/cover_sampler.hpp"
 #include "covey/graph/cover_class.hpp"
 
 namespace covey {
 
-ConvergenceStatus edge_convergence(const RunFeatures& features, double max_rhat, double min_ess) {
-  ConvergenceStatus status;
-  if (features.iterations() < kMinDrawsPerChain) return status;  // too few to judge
+Verdict edge_convergence(const RunFeatures& features, const Thresholds& thresholds) {
+  if (features.iterations() < kMinDrawsPerChain) return {};  // too few to judge
   const auto edges = features.edges_seen();
-  status.features = edges.size();
-  if (edges.empty()) return status;
   const auto summaries = summarize_features(edges.size(), features.chains(), features.iterations(),
                                             [&](std::size_t i, std::span<double> out) {
                                               features.edge(edges[i].first, edges[i].second, out);
                                             });
-  Thresholds thresholds;
-  thresholds.max_rhat = max_rhat;
-  thresholds.min_ess = min_ess;
-  const Verdict verdict = judge(summaries, thresholds);
-  status.converged = verdict.converged();
-  status.failing = verdict.failing;
-  status.undefined = verdict.undefined;
-  status.max_rhat = verdict.max_rhat;
-  status.min_ess = std::fmin(verdict.min_ess_bulk, verdict.min_ess_tail);
-  return status;
+  return judge(summaries, thresholds);
 }
 
 namespace {
@@ -51,6 +40,7 @@ class CoverTeleport : public TeleportSource {
   explicit CoverTeleport(CoverSampler sampler)
       : sampler_(std::move(sampler)), support_(sampler_.cover_bound()) {}
   const DagClass& support() const override { return support_; }
+  int support_bound() const { return sampler_.cover_bound(); }
   Dag draw(Rng& rng) const override { return sampler_.draw(rng); }
   double log_class_weight_bound() const override { return sampler_.log_upper_bound(); }
 
@@ -65,6 +55,27 @@ struct ChainSupport::Impl {
   ChainRunHooks hooks;
   std::unique_ptr<CoverTeleport> teleport;
   std::unique_ptr<CoverBoundedClass> restriction;
+  std::unique_ptr<CoverTeleport> start;  // the sampler of start "exact" alone, once built
+
+  // The sampler of the exact starts, built on the first call (a new run; a resume never asks):
+  // the teleports' one when its class is D_{start_cover}, else one of its own within the memory
+  // limit.
+  const TeleportSource& start_sampler(const ScoreTable& table, int k, std::uint64_t memory_limit) {
+    if (teleport && teleport->support_bound() == k) return *teleport;
+    if (!start) {
+      const double bytes = CoverSampler::estimate_memory_bytes(table.num_variables(), k);
+      const std::uint64_t limit = memory_limit > 0 ? memory_limit : default_memory_limit();
+      if (bytes > double(limit))
+        throw OptionError(
+            "{start} exact: the exact sampler of D_" + std::to_string(k) + " needs about " +
+            format_bytes(bytes) + ", more than the memory limit of " + format_bytes(double(limit)) +
+            "; give a smaller {start_cover}, a larger {memory_limit} or {start} greedy");
+      CoverSamplerOptions options;
+      options.memory_limit_bytes = memory_limit;
+      start = std::make_unique<CoverTeleport>(CoverSampler::build(table, k, options));
+    }
+    return *start;
+  }
 };
 
 ChainSupport::ChainSupport(const ScoreTable& table, const ChainRunOptions& options,
@@ -94,6 +105,15 @@ ChainSupport::ChainSupport(const ScoreTable& table, const ChainRunOptions& optio
     impl_->hooks.restriction = impl_->restriction.get();
   }
   if (options.until_enabled()) impl_->hooks.convergence = edge_convergence;
+  const ChainRunOptions chosen = with_default_choices(options);
+  if (chosen.start == "exact") {
+    // The table and this object outlive the hooks (ChainSupport's contract).
+    Impl* impl = impl_.get();
+    const int k = chosen.start_cover;
+    impl_->hooks.start_sampler = [impl, &table, k, memory_limit]() -> const TeleportSource& {
+      return impl->start_sampler(table, k, memory_limit);
+    };
+  }
 }
 
 ChainSupport::~ChainSupport() = default;

@@ -6,6 +6,7 @@
 #include <numbers>
 
 #include "block_move.hpp"
+#include "chain_testing.hpp"
 #include "covey/core/error.hpp"
 #include "move_kernels.hpp"
 
@@ -55,7 +56,21 @@ MoveCounts& MoveCounts::operator+=(const MoveCounts& other) {
 }
 
 StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& config)
-    : table_(&table), config_(config), n_(table.num_variables()), words_((n_ + 63) / 64) {
+    : StructureChain(table, config, nullptr) {}
+
+StructureChain make_faulty_chain(const ScoreTable& table, const ChainConfig& config,
+                                 const ChainFaults& faults) {
+  return StructureChain(table, config, &faults);
+}
+
+StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& config,
+                               const ChainFaults* faults)
+    : table_(&table),
+      config_(config),
+      faults_(faults ? std::make_unique<const ChainFaults>(*faults) : nullptr),
+      faulty_moves_(faults ? faults->drop_hastings : 0),
+      n_(table.num_variables()),
+      words_((n_ + 63) / 64) {
   if (config.rev_rate < 0 || config.teleport_rate < 0 || config.block_rate < 0 ||
       config.rev_rate + config.teleport_rate + config.block_rate > 1)
     throw InputError(
@@ -71,9 +86,10 @@ StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& confi
   block_threshold_ =
       probability_threshold(config.rev_rate + config.teleport_rate + config.block_rate);
   mixed_kernels_ = config.rev_rate > 0 || config.teleport_rate > 0 || config.block_rate > 0;
-  if (config.block_rate > 0 || config.block_size > 0) block_ = make_block_move(table, config);
+  if (config.block_rate > 0 || config.block_size > 0)
+    block_ = make_block_move(table, config, block_fault_of(faults_.get()));
   if (config.rev_rate > 0) rev_ = std::make_unique<RevTables>(table);
-  if (!config.exact_local_moves_for_testing) {
+  if (!faults_ || !faults_->exact_local_moves) {
     screen_ = std::make_unique<ScreenScores>(table);
     if (!screen_->usable()) screen_.reset();
   }

@@ -7,11 +7,13 @@
 #include <pybind11/stl.h>
 
 #include <chrono>
+#include <cmath>
 #include <csignal>
 #include <optional>
 #include <thread>
 
 #include "bindings.hpp"
+#include "covey/analysis/check.hpp"
 #include "covey/chains/chain_run_file.hpp"
 #include "covey/chains/chain_runner.hpp"
 #include "covey/chains/chain_support.hpp"
@@ -29,6 +31,7 @@ struct FixedArguments {
   std::optional<double> teleport_rate, rev_rate;
   std::optional<int> cover_limit;
   std::optional<std::string> start;
+  std::optional<int> start_cover;
   std::optional<int> block_size;
   std::optional<double> block_rate;
 };
@@ -45,6 +48,7 @@ ChainRunOptions fixed_options_of(const FixedArguments& a) {
   if (a.rev_rate) o.rev_rate = *a.rev_rate;
   if (a.cover_limit) o.cover_limit = *a.cover_limit;
   if (a.start) o.start = *a.start;
+  if (a.start_cover) o.start_cover = *a.start_cover;
   if (a.block_size) o.block_size = *a.block_size;
   if (a.block_rate) o.block_rate = *a.block_rate;
   return o;
@@ -62,6 +66,7 @@ std::vector<std::string> given_fields(const FixedArguments& a) {
                                                {"rev_rate", bool(a.rev_rate)},
                                                {"cover_limit", bool(a.cover_limit)},
                                                {"start", bool(a.start)},
+                                               {"start_cover", bool(a.start_cover)},
                                                {"block_size", bool(a.block_size)},
                                                {"block_rate", bool(a.block_rate)}};
   for (const auto& [key, is_given] : keys)
@@ -80,6 +85,7 @@ py::dict options_dict(const ChainRunOptions& o) {
   d["teleport_cover"] = o.teleport_cover;
   d["cover_limit"] = o.cover_limit;
   d["start"] = o.start;
+  d["start_cover"] = o.start_cover;
   d["block_size"] = o.block_size;
   d["block_rate"] = o.block_rate;
   return d;
@@ -116,13 +122,37 @@ py::dict summary_dict(const ChainRunSummary& s) {
   d["regenerations_per_chain"] = s.regenerations;
   d["stop_reason"] = s.stop_reason;
   if (s.convergence_checked) {
+    // The keys of the CLI's --json summary (cmd_chain.cpp) and of `check`'s verdict.
+    const Verdict& v = s.convergence;
+    const auto counts = [](const Verdict::Counts& n) {
+      py::dict out;
+      out["passing"] = n.passing;
+      out["failing"] = n.failing;
+      out["undefined"] = n.undefined;
+      return out;
+    };
+    const VerdictText text = stopping_verdict_text(s);
     py::dict c;
-    c["converged"] = s.convergence.converged;
-    c["max_rhat"] = s.convergence.max_rhat;
-    c["min_ess"] = s.convergence.min_ess;
-    c["features"] = s.convergence.features;
-    c["failing"] = s.convergence.failing;
-    c["undefined"] = s.convergence.undefined;
+    c["converged"] = v.converged();
+    c["state"] = to_string(v.state);
+    c["max_rhat"] = v.max_rhat;
+    c["min_ess"] = std::fmin(v.min_ess_bulk, v.min_ess_tail);
+    c["min_ess_bulk"] = v.min_ess_bulk;
+    c["min_ess_tail"] = v.min_ess_tail;
+    py::dict thresholds;
+    thresholds["rhat"] = s.convergence_thresholds.max_rhat;
+    thresholds["ess"] = s.convergence_thresholds.min_ess;
+    c["thresholds"] = thresholds;
+    c["features"] = v.features;
+    c["passing"] = v.passing;
+    c["failing"] = v.failing;
+    c["undefined"] = v.undefined;
+    c["rhat"] = counts(v.rhat);
+    c["ess_bulk"] = counts(v.ess_bulk);
+    c["ess_tail"] = counts(v.ess_tail);
+    c["checks"] = s.convergence_checks;
+    c["text"] = text.outcome;
+    c["caveats"] = text.caveats;
     d["convergence"] = c;
   }
   if (!std::isnan(s.teleport_mass_bound_log10))
@@ -202,10 +232,11 @@ ChainRunSummary run_interruptible(const ScoreTable& table, const std::string& pa
 
 py::object chain(const py::object& table_or_path, const std::string& path,
                  const FixedArguments& fixed, std::optional<double> steps,
-                 const py::object& max_time, const py::object& checkpoint_every, double until_rhat,
-                 double until_ess, const std::string& teleport_sampler,
-                 const py::object& memory_limit, int threads, bool resume, bool force, bool progress,
-                 const py::object& stop, const py::object& report) {
+                 const py::object& max_time, const py::object& checkpoint_every,
+                 const py::object& check_every, double until_rhat, double until_ess,
+                 const std::string& teleport_sampler, const py::object& memory_limit, int threads,
+                 bool resume, bool force, bool progress, const py::object& stop,
+                 const py::object& report) {
   const auto table = table_of(table_or_path);
   ChainRunOptions o = fixed_options_of(fixed);
   o.overwrite = force;
@@ -216,6 +247,7 @@ py::object chain(const py::object& table_or_path, const std::string& path,
   }
   if (!max_time.is_none()) o.max_seconds = seconds_of(max_time, "max_time");
   o.checkpoint_every = seconds_of(checkpoint_every, "checkpoint_every");
+  if (!check_every.is_none()) o.check_every = seconds_of(check_every, "check_every");
   o.until_rhat = until_rhat;
   o.until_ess = until_ess;
   o = resume ? resume_options(path, o, given_fields(fixed)) : with_default_choices(o);
@@ -301,26 +333,27 @@ void bind_chains(py::module_& m) {
          std::optional<std::uint64_t> burn_in, std::optional<std::uint64_t> seed,
          std::optional<int> teleport_cover, std::optional<double> teleport_rate,
          std::optional<double> rev_rate, std::optional<int> cover_limit,
-         std::optional<std::string> start, std::optional<int> block_size,
-         std::optional<double> block_rate, const py::object& max_time,
-         const py::object& checkpoint_every, double until_rhat, double until_ess,
+         std::optional<std::string> start, std::optional<int> start_cover,
+         std::optional<int> block_size, std::optional<double> block_rate,
+         const py::object& max_time, const py::object& checkpoint_every,
+         const py::object& check_every, double until_rhat, double until_ess,
          const std::string& teleport_sampler, const py::object& memory_limit, int threads,
-         bool resume, bool force, bool progress, const py::object& stop,
-         const py::object& report) {
-        const FixedArguments fixed{chains,         thin,          burn_in,   seed,
-                                   teleport_cover, teleport_rate, rev_rate,  cover_limit,
-                                   start,          block_size,    block_rate};
-        return chain(table, path, fixed, steps, max_time, checkpoint_every, until_rhat, until_ess,
-                     teleport_sampler, memory_limit, threads, resume, force, progress, stop, report);
+         bool resume, bool force, bool progress, const py::object& stop, const py::object& report) {
+        const FixedArguments fixed{chains,         thin,          burn_in,    seed,
+                                   teleport_cover, teleport_rate, rev_rate,   cover_limit,
+                                   start,          start_cover,   block_size, block_rate};
+        return chain(table, path, fixed, steps, max_time, checkpoint_every, check_every, until_rhat,
+                     until_ess, teleport_sampler, memory_limit, threads, resume, force, progress,
+                     stop, report);
       },
       py::arg("table"), py::arg("path"), py::arg("chains"), py::arg("steps"), py::arg("thin"),
       py::arg("burn_in"), py::arg("seed"), py::arg("teleport_cover"), py::arg("teleport_rate"),
-      py::arg("rev_rate"), py::arg("cover_limit"), py::arg("start"), py::arg("block_size"),
-      py::arg("block_rate"), py::arg("max_time"), py::arg("checkpoint_every"),
-      py::arg("until_rhat"), py::arg("until_ess"), py::arg("teleport_sampler"),
-      py::arg("memory_limit"), py::arg("threads"), py::arg("resume"), py::arg("force"),
-      py::arg("progress"),
-      py::arg("stop"), py::arg("report"));
+      py::arg("rev_rate"), py::arg("cover_limit"), py::arg("start"), py::arg("start_cover"),
+      py::arg("block_size"), py::arg("block_rate"), py::arg("max_time"),
+      py::arg("checkpoint_every"), py::arg("check_every"), py::arg("until_rhat"),
+      py::arg("until_ess"), py::arg("teleport_sampler"), py::arg("memory_limit"),
+      py::arg("threads"), py::arg("resume"), py::arg("force"), py::arg("progress"), py::arg("stop"),
+      py::arg("report"));
 
   py::class_<Run>(m, "_Run")
       .def(py::init<const std::string&>(), py::arg("path"))
@@ -328,8 +361,8 @@ void bind_chains(py::module_& m) {
       .def_property_readonly("num_draws", &Run::num_draws)
       .def_property_readonly("variables", [](const Run& r) { return r.first().variables(); })
       .def_property_readonly("steps", [](const Run& r) { return r.first().steps(); })
-      .def_property_readonly(
-          "options", [](const Run& r) { return options_dict(r.first().options()); })
+      .def_property_readonly("options",
+                             [](const Run& r) { return options_dict(r.first().options()); })
       .def_property_readonly("sessions",
                              [](const Run& r) {
                                py::list out;

@@ -10,6 +10,7 @@
 #include <cmath>
 #include <vector>
 
+#include "../chains/chain_testing.hpp"
 #include "covey/chains/structure_chain.hpp"
 #include "covey/core/logmath.hpp"
 #include "covey/exact/exact_posterior.hpp"
@@ -78,9 +79,8 @@ std::vector<double> brute_log_normalisers(const ScoreTable& table, const AllDags
 double worst_normaliser_error(const ScoreTable& table, const AllDags& all, std::size_t stride,
                               BlockFault fault) {
   const int n = table.num_variables();
-  ChainConfig config;
-  config.block_fault_for_testing = fault;
-  StructureChain chain(table, config);
+  const ChainConfig config;
+  StructureChain chain = make_faulty_chain(table, config, ChainFaults{.block = fault});
   double worst = 0;
   for (std::size_t s = 0; s < all.dags.size(); s += stride) {
     chain.set_dag(all.dags[s]);
@@ -121,9 +121,8 @@ double one_step_p_value(const ScoreTable& table, const AllDags& all, const Dag& 
     }
   for (std::size_t g : agree)
     conditional.probability[all.dags[g].parents] = std::exp(all.log_weight[g] - z.value());
-  ChainConfig config;
-  config.block_fault_for_testing = fault;
-  StructureChain chain(table, config);
+  const ChainConfig config;
+  StructureChain chain = make_faulty_chain(table, config, ChainFaults{.block = fault});
   Rng rng = make_stream(seed, 0);
   const std::vector<int> block = members(block_mask);
   std::vector<Dag> draws;
@@ -173,8 +172,7 @@ double worst_edge_z(const ScoreTable& table, const ExactPosterior& exact, BlockF
   config.block_size = 5;
   // The broken twin can leave cycles behind, which REV's descendant bookkeeping cannot walk.
   config.rev_rate = fault == BlockFault::kNone ? 0.1 : 0.0;
-  config.block_fault_for_testing = fault;
-  StructureChain chain(table, config);
+  StructureChain chain = make_faulty_chain(table, config, ChainFaults{.block = fault});
   Rng rng = make_stream(44, 0);
   for (int s = 0; s < 2000; ++s) chain.step(rng);
   constexpr int kBatches = 40, kBatchSteps = 2500;

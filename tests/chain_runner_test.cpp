@@ -18,6 +18,7 @@
 
 #include "chain_oracles.hpp"
 #include "core/h5.hpp"
+#include "covey/analysis/check.hpp"
 #include "covey/chains/chain_run_file.hpp"
 #include "covey/chains/chain_runner.hpp"
 #include "covey/chains/chain_support.hpp"
@@ -249,9 +250,9 @@ TEST(ChainRunner, StopsWhenEveryEdgeConverges) {
   EXPECT_EQ(s.stop_reason, "converged");
   EXPECT_LT(s.steps, o.steps);
   ASSERT_TRUE(s.convergence_checked);
-  EXPECT_TRUE(s.convergence.converged);
+  EXPECT_TRUE(s.convergence.converged());
   EXPECT_LT(s.convergence.max_rhat, 1.02);
-  EXPECT_GT(s.convergence.min_ess, 300);
+  EXPECT_GT(std::fmin(s.convergence.min_ess_bulk, s.convergence.min_ess_tail), 300);
   // Recomputed from the file, feature by feature, with the diagnostics library directly.
   const ChainRun run = ChainRun::open(dir.file("run.h5"));
   const RunFeatures f(run);
@@ -272,7 +273,140 @@ TEST(ChainRunner, StopsWhenEveryEdgeConverges) {
   o.until_ess = 1e9;
   const ChainRunSummary capped = run_chains(table, dir.file("capped.h5"), o, hooks, false);
   EXPECT_EQ(capped.stop_reason, "steps");
-  EXPECT_FALSE(capped.convergence.converged);
+  EXPECT_FALSE(capped.convergence.converged());
+}
+
+// The stopping rule has its own schedule, not the checkpoints': with checkpoints an hour apart
+// and a step limit, it is checked at every tenth of the steps (segments end there, so the stop
+// step is the same on every machine) and stops the run at the first tenth where every edge
+// passes. The checks write checkpoints but never change a trajectory: the draws equal those of
+// a run of the same seed straight to that step without any stopping rule.
+TEST(ChainRunner, StoppingRuleIsCheckedBetweenCheckpoints) {
+  const ScoreTable table = testing_util::random_full_table(5, 2, 27);
+  TempDir dir;
+  ChainRunOptions o;
+  o.chains = 4;
+  o.thin = 20;
+  o.steps = 4'000'000;  // milestones every 400000 steps
+  o.until_rhat = 1.02;
+  o.until_ess = 300;
+  o.checkpoint_every = 3600;
+  ChainRunHooks hooks = quiet_hooks();
+  hooks.convergence = edge_convergence;
+  const ChainRunSummary s = run_chains(table, dir.file("run.h5"), o, hooks, false);
+  EXPECT_EQ(s.stop_reason, "converged");
+  EXPECT_LT(s.steps, o.steps);
+  EXPECT_EQ(s.steps % (o.steps / 10), 0u);
+  EXPECT_EQ(s.convergence_checks, s.steps / (o.steps / 10));
+  EXPECT_TRUE(s.convergence.converged());
+  // The file made at creation, then one checkpoint per check (the last one is the stop's).
+  EXPECT_EQ(s.checkpoints, 1 + s.convergence_checks);
+  ChainRunOptions straight = o;
+  straight.steps = s.steps;
+  straight.until_rhat = straight.until_ess = 0;
+  run_chains(table, dir.file("straight.h5"), straight, quiet_hooks(), false);
+  expect_same_traces(ChainRun::open(dir.file("run.h5")), ChainRun::open(dir.file("straight.h5")));
+  // The same rule on its own clock (check_every), with no step limit: the run still stops
+  // converged long before the checkpoint interval (max_seconds only guards the test).
+  ChainRunOptions timed = o;
+  timed.steps = 0;
+  timed.check_every = 1e-3;
+  timed.max_seconds = 600;
+  const ChainRunSummary t = run_chains(table, dir.file("timed.h5"), timed, hooks, false);
+  EXPECT_EQ(t.stop_reason, "converged");
+  // No checkpoint was due and there are no milestones: the clock of check_every made the checks.
+  EXPECT_GE(t.convergence_checks, 1u);
+  EXPECT_EQ(t.checkpoints, 1 + t.convergence_checks);
+  // A bad interval names its option.
+  timed.check_every = -1;
+  EXPECT_THROW(run_chains(table, dir.file("bad.h5"), timed, hooks, false), OptionError);
+}
+
+// The chain's stopping rule is the verdict of `check` (diagnostics.hpp's judge): over the same
+// file and thresholds both count the same passing and failing edges per measure. `check` also
+// lists the edges absent from every draw (undefined), which the chain does not judge.
+TEST(ChainRunner, StoppingRuleVerdictEqualsCheck) {
+  const ScoreTable table = testing_util::random_full_table(5, 2, 28);
+  TempDir dir;
+  ChainRunOptions o = small_options();
+  o.chains = 4;
+  o.until_rhat = 1.05;
+  o.until_ess = 100;
+  ChainRunHooks hooks = quiet_hooks();
+  hooks.convergence = edge_convergence;
+  const ChainRunSummary s = run_chains(table, dir.file("run.h5"), o, hooks, false);
+  ASSERT_TRUE(s.convergence_checked);
+  const FeatureKinds edges{true, false, false, false};
+  const CheckResult c = check_chain_runs({dir.file("run.h5")}, edges, stopping_thresholds(o));
+  const Verdict& v = s.convergence;
+  EXPECT_EQ(v.passing, c.verdict.passing);
+  EXPECT_EQ(v.failing, c.verdict.failing);
+  EXPECT_EQ(v.rhat.passing, c.verdict.rhat.passing);
+  EXPECT_EQ(v.ess_bulk.failing, c.verdict.ess_bulk.failing);
+  EXPECT_EQ(v.ess_tail.passing, c.verdict.ess_tail.passing);
+  EXPECT_EQ(v.state, c.verdict.state);
+  EXPECT_DOUBLE_EQ(v.max_rhat, c.verdict.max_rhat);
+  EXPECT_GT(v.passing + v.failing, 5u);
+}
+
+// start "exact" without teleports: the chains start from exact D_k draws of a sampler built for
+// the starts alone, the same draws (each chain's own stream) as the former way through a
+// teleport sampler with teleport_rate 0; a start_cover outside the target class, or a sampler
+// beyond the memory limit, is an OptionError naming start_cover.
+TEST(ChainRunner, ExactStartWithoutTeleports) {
+  const ScoreTable table = testing_util::random_full_table(6, 3, 29);
+  TempDir dir;
+  ChainRunOptions o = small_options();
+  o.steps = 2000;
+  o.start = "exact";
+  o.start_cover = 2;
+  o.block_size = 0;  // whole-set block moves would add regenerations of their own
+  const ChainRunOptions direct = with_default_choices(o);
+  ASSERT_EQ(direct.teleport_rate, 0.0);
+  const ChainSupport support(table, direct);
+  ChainRunHooks hooks = support.hooks();
+  hooks.progress = false;
+  ASSERT_EQ(hooks.teleport, nullptr);
+  run_chains(table, dir.file("direct.h5"), direct, hooks, false);
+  ChainRunOptions trick = o;
+  trick.teleport_cover = 2;
+  trick.teleport_rate = 0;
+  trick = with_default_choices(trick);
+  const ChainSupport trick_support(table, trick);
+  ChainRunHooks trick_hooks = trick_support.hooks();
+  trick_hooks.progress = false;
+  run_chains(table, dir.file("trick.h5"), trick, trick_hooks, false);
+  const ChainRun a = ChainRun::open(dir.file("direct.h5")),
+                 b = ChainRun::open(dir.file("trick.h5"));
+  EXPECT_EQ(a.options().start_cover, 2);
+  EXPECT_EQ(a.options().teleport_cover, -1);
+  for (int c = 0; c < a.num_chains(); ++c) {
+    EXPECT_EQ(a.draws(c), b.draws(c)) << "chain " << c;
+    // Without teleports the start is no regeneration (no tour of the teleports' kind follows).
+    EXPECT_TRUE(a.regenerations(c).empty()) << "chain " << c;
+    EXPECT_EQ(b.regenerations(c), std::vector<std::int64_t>{0}) << "chain " << c;
+  }
+  // The default bound without teleports.
+  o.start_cover = -1;
+  EXPECT_EQ(with_default_choices(o).start_cover, kDefaultStartCover);
+  // Out of the target class D_1, and beyond a memory limit of 1 KiB.
+  ChainRunOptions outside = direct;
+  outside.cover_limit = 1;
+  const ChainSupport outside_support(table, outside);
+  try {
+    run_chains(table, dir.file("outside.h5"), outside, outside_support.hooks(), false);
+    ADD_FAILURE() << "no error";
+  } catch (const OptionError& e) {
+    EXPECT_NE(std::string(e.what()).find("start_cover"), std::string::npos) << e.what();
+  }
+  const ChainSupport small(table, direct, "", 1024);
+  try {
+    run_chains(table, dir.file("small.h5"), direct, small.hooks(), false);
+    ADD_FAILURE() << "no error";
+  } catch (const OptionError& e) {
+    EXPECT_NE(std::string(e.what()).find("memory_limit"), std::string::npos) << e.what();
+  }
+  EXPECT_FALSE(std::filesystem::exists(dir.file("small.h5")));
 }
 
 // ---- Through the CLI ----------------------------------------------------------------------
@@ -638,7 +772,6 @@ TEST(Duration, ParsesUnits) {
   EXPECT_THROW(parse_duration("-1m", "--x"), InputError);
   EXPECT_THROW(parse_duration("m", "--x"), InputError);
 }
-
 
 // A user's run is never replaced unasked (issue: `chain -o EXISTING` lost a converged run), and a
 // resume cannot change how the run was made; both are library rules the CLI only spells.

@@ -209,21 +209,27 @@ TEST(VerdictText, CheckCountsUnreliableMcseOfProbabilitiesOnly) {
   EXPECT_EQ(verdict_text(r).outcome.rfind("not converged: 1 of 3 quantities fail", 0), 0u);
 }
 
-TEST(VerdictText, StoppingRuleStatesItsThresholdsWithoutMeasureCounts) {
-  ConvergenceStatus status;
-  status.features = 10;
-  status.failing = 0;
-  status.undefined = 3;
-  status.converged = true;
+// The chain's stopping rule judges with the one verdict of the diagnostics (judge), so its
+// summary has the wording and the per-measure counts of `check`.
+TEST(VerdictText, StoppingRuleStatesItsThresholdsAndMeasureCounts) {
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  std::vector<FeatureSummary> summaries(7, FeatureSummary{0.5, 1.001, 900, 800, 900, 0.01});
+  summaries.resize(10, FeatureSummary{1.0, nan, nan, nan, nan, nan});  // constant edges
   ChainRunOptions options;
   options.until_ess = 250;
-  const VerdictText text = stopping_verdict_text(status, options, 1);
+  ChainRunSummary summary;
+  summary.chains = 1;
+  summary.convergence_thresholds = stopping_thresholds(options);
+  summary.convergence = judge(summaries, summary.convergence_thresholds);
+  const VerdictText text = stopping_verdict_text(summary);
   EXPECT_EQ(text.outcome.rfind("converged: 7 of 10 edge features pass (R-hat < 1.01, bulk ESS > "
                                "250",
                                0),
             0u)
       << text.outcome;
-  EXPECT_TRUE(text.measures.empty());
+  EXPECT_EQ(text.measures,
+            "R-hat: 7 pass, 0 fail, 3 undefined; bulk ESS: 7 pass, 0 fail, 3 undefined; tail "
+            "ESS: 7 pass, 0 fail, 3 undefined");
   ASSERT_EQ(text.caveats.size(), 1u);  // one chain
 }
 

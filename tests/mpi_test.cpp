@@ -256,11 +256,13 @@ TEST(MpiChain, ConvergenceStopIsCollective) {
   }
   EXPECT_LT(runs[0].steps(), 200'000'000u);
   // Judging all members' chains together here gives rank 0's verdict.
-  const ConvergenceStatus again = edge_convergence(RunFeatures(runs), 1.05, 200);
-  EXPECT_TRUE(again.converged);
+  const Verdict again = edge_convergence(RunFeatures(runs), Thresholds{1.05, 200});
+  EXPECT_TRUE(again.converged());
   EXPECT_EQ(again.features, j["convergence"]["features"].get<std::size_t>());
+  EXPECT_EQ(again.rhat.undefined, j["convergence"]["rhat"]["undefined"].get<std::size_t>());
   EXPECT_DOUBLE_EQ(again.max_rhat, j["convergence"]["max_rhat"].get<double>());
-  EXPECT_DOUBLE_EQ(again.min_ess, j["convergence"]["min_ess"].get<double>());
+  EXPECT_DOUBLE_EQ(std::fmin(again.min_ess_bulk, again.min_ess_tail),
+                   j["convergence"]["min_ess"].get<double>());
 }
 
 TEST(MpiChain, MaxTimeStopsEveryRankAtOneStep) {

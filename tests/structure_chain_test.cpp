@@ -7,10 +7,14 @@
 
 #include <bit>
 #include <cmath>
+#include <filesystem>
+#include <fstream>
 #include <functional>
+#include <iterator>
 #include <map>
 #include <string>
 
+#include "../chains/chain_testing.hpp"
 #include "../chains/move_kernels.hpp"
 #include "chain_oracles.hpp"
 #include "covey/chains/structure_chain.hpp"
@@ -33,11 +37,19 @@ struct Comparison {
 
 constexpr int kBatches = 50;
 
-Comparison run_and_compare(const ScoreTable& table, const ChainConfig& config,
+// A chain's configuration with the tests' deliberate faults (chains/chain_testing.hpp).
+struct FaultyConfig {
+  FaultyConfig(const ChainConfig& config = {}, const ChainFaults& faults = {})  // NOLINT
+      : config(config), faults(faults) {}
+  ChainConfig config;
+  ChainFaults faults;
+};
+
+Comparison run_and_compare(const ScoreTable& table, const FaultyConfig& setup,
                            const ExactPosterior& exact, std::uint64_t steps, std::uint64_t seed,
                            const Dag* start = nullptr, bool valid_states = true) {
   const int n = table.num_variables();
-  StructureChain chain(table, config);
+  StructureChain chain = make_faulty_chain(table, setup.config, setup.faults);
   if (start) chain.set_dag(*start);
   Rng rng = make_stream(seed, 0);
   for (int s = 0; s < 10000; ++s) chain.step(rng);  // burn-in
@@ -175,9 +187,9 @@ TEST(StructureChain, ScreenedLocalMovesFollowTheExactChain) {
     const ScoreTable table(base.variables(), nodes);
     ChainConfig config;
     config.rev_rate = 0.05;
-    ChainConfig exact = config;
-    exact.exact_local_moves_for_testing = true;
-    StructureChain screened_chain(table, config), exact_chain(table, exact);
+    StructureChain screened_chain(table, config);
+    StructureChain exact_chain =
+        make_faulty_chain(table, config, ChainFaults{.exact_local_moves = true});
     ASSERT_TRUE(screened_chain.screens_local_moves());
     ASSERT_FALSE(exact_chain.screens_local_moves());
     Rng rng_a = make_stream(3, 0), rng_b = make_stream(3, 0);
@@ -192,6 +204,36 @@ TEST(StructureChain, ScreenedLocalMovesFollowTheExactChain) {
     EXPECT_TRUE(screened_chain.check_invariants());
     EXPECT_GT(screened_chain.counts().accepted[int(Move::kAdd)], 1000u);
   }
+}
+
+// The tests' deliberate faults live in the private chains/chain_testing.hpp: no public header
+// of the chains layer (so no ChainConfig, option or run-file field) carries them.
+TEST(StructureChain, PublicHeadersCarryNoTestFaults) {
+  const std::filesystem::path folder =
+      std::filesystem::path(COVEY_SOURCE_DIR) / "include" / "covey" / "chains";
+  std::size_t headers = 0;
+  for (const auto& entry : std::filesystem::directory_iterator(folder)) {
+    std::ifstream in(entry.path());
+    const std::string text((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+    for (const char* word : {"for_testing", "BlockFault", "drop_hastings"})
+      EXPECT_EQ(text.find(word), std::string::npos) << entry.path() << " mentions " << word;
+    ++headers;
+  }
+  EXPECT_GE(headers, 5u);
+  // A faulty chain is still made through the private header, and a fault-free one equals the
+  // public constructor's chain step for step.
+  const ScoreTable table = testing_util::random_full_table(5, 2, 12);
+  ChainConfig config;
+  config.rev_rate = 0.2;
+  StructureChain plain(table, config);
+  StructureChain same = make_faulty_chain(table, config, ChainFaults{});
+  Rng a = make_stream(5, 0), b = make_stream(5, 0);
+  for (int s = 0; s < 20000; ++s) {
+    plain.step(a);
+    same.step(b);
+  }
+  EXPECT_EQ(plain.parents_words(), same.parents_words());
+  EXPECT_EQ(plain.counts(), same.counts());
 }
 
 TEST(StructureChain, RejectsInvalidStartStates) {
@@ -329,8 +371,8 @@ TEST(StructureChainStationarity, LocalMovesN4) {
   ASSERT_EQ(exact.dags.size(), 543u);  // OEIS A003024
   const Comparison ok = run_and_compare(table, {}, exact, kSteps, 1);
   EXPECT_TRUE(passes(ok)) << describe(ok);
-  ChainConfig wrong;
-  wrong.drop_hastings_for_testing = (1u << int(Move::kAdd)) | (1u << int(Move::kDelete));
+  FaultyConfig wrong;
+  wrong.faults.drop_hastings = (1u << int(Move::kAdd)) | (1u << int(Move::kDelete));
   const Comparison bad = run_and_compare(table, wrong, exact, kSteps, 1);
   EXPECT_FALSE(passes(bad)) << "dropping the add/delete Hastings factors went unnoticed: "
                             << describe(bad);
@@ -344,8 +386,8 @@ TEST(StructureChainStationarity, RevN4) {
   config.rev_rate = 0.4;
   const Comparison ok = run_and_compare(table, config, exact, kSteps, 2);
   EXPECT_TRUE(passes(ok)) << describe(ok);
-  ChainConfig wrong = config;
-  wrong.drop_hastings_for_testing = 1u << int(Move::kRev);
+  FaultyConfig wrong{config};
+  wrong.faults.drop_hastings = 1u << int(Move::kRev);
   const Comparison bad = run_and_compare(table, wrong, exact, kSteps, 2);
   EXPECT_FALSE(passes(bad)) << "dropping the REV Hastings ratio went unnoticed: " << describe(bad);
 }
@@ -358,8 +400,8 @@ TEST(StructureChainStationarity, RevN5) {
   config.rev_rate = 0.2;
   const Comparison ok = run_and_compare(table, config, exact, kSteps, 3);
   EXPECT_TRUE(passes(ok)) << describe(ok);
-  ChainConfig wrong = config;
-  wrong.drop_hastings_for_testing = 1u << int(Move::kRev);
+  FaultyConfig wrong{config};
+  wrong.faults.drop_hastings = 1u << int(Move::kRev);
   const Comparison bad = run_and_compare(table, wrong, exact, kSteps, 3);
   EXPECT_FALSE(passes(bad)) << describe(bad);
 }
@@ -374,8 +416,8 @@ TEST(StructureChainStationarity, RestrictedToCoverClass) {
   config.rev_rate = 0.2;
   const Comparison ok4 = run_and_compare(t4, config, exact4, kSteps, 4);
   EXPECT_TRUE(passes(ok4)) << describe(ok4);
-  ChainConfig wrong = config;
-  wrong.drop_hastings_for_testing = (1u << int(Move::kAdd)) | (1u << int(Move::kDelete));
+  FaultyConfig wrong{config};
+  wrong.faults.drop_hastings = (1u << int(Move::kAdd)) | (1u << int(Move::kDelete));
   const Comparison bad = run_and_compare(t4, wrong, exact4, kSteps, 4);
   EXPECT_FALSE(passes(bad)) << describe(bad);
 
@@ -399,8 +441,8 @@ TEST(StructureChainStationarity, TeleportsFromExactSampler) {
   const Comparison ok = run_and_compare(t4, config, exact4, kSteps, 6);
   EXPECT_TRUE(passes(ok)) << describe(ok);
   EXPECT_GT(ok.regenerations, kSteps / 50);
-  ChainConfig wrong = config;
-  wrong.drop_hastings_for_testing = 1u << int(Move::kTeleport);
+  FaultyConfig wrong{config};
+  wrong.faults.drop_hastings = 1u << int(Move::kTeleport);
   const Comparison bad = run_and_compare(t4, wrong, exact4, kSteps, 6);
   EXPECT_FALSE(passes(bad)) << describe(bad);
 
@@ -430,10 +472,10 @@ TEST(StructureChainStationarity, BlockMovesAloneN5) {
     const Comparison ok = run_and_compare(table, config, exact, kBlockSteps, 20 + m);
     EXPECT_TRUE(passes(ok)) << "m = " << m << ": " << describe(ok);
   }
-  ChainConfig wrong;
-  wrong.block_rate = 1.0;
-  wrong.block_size = 3;
-  wrong.block_fault_for_testing = BlockFault::kIgnoreOutsidePaths;
+  FaultyConfig wrong;
+  wrong.config.block_rate = 1.0;
+  wrong.config.block_size = 3;
+  wrong.faults.block = BlockFault::kIgnoreOutsidePaths;
   const Comparison bad = run_and_compare(table, wrong, exact, kBlockSteps, 23, nullptr, false);
   EXPECT_FALSE(passes(bad)) << "ignoring outside paths went unnoticed: " << describe(bad);
 }
@@ -471,9 +513,9 @@ TEST(StructureChainStationarity, BlockMovesWithLocalMoves) {
   config.block_family = {{0, 1, 2}, {2, 3, 4}};
   const Comparison ok5 = run_and_compare(t5, config, exact5, kSteps / 2, 25);
   EXPECT_TRUE(passes(ok5)) << describe(ok5);
-  ChainConfig wrong = config;
-  wrong.block_fault_for_testing = BlockFault::kIgnoreOutsidePaths;
-  wrong.rev_rate = 0;  // its cycles would derail REV's descendant bookkeeping
+  FaultyConfig wrong{config};
+  wrong.faults.block = BlockFault::kIgnoreOutsidePaths;
+  wrong.config.rev_rate = 0;  // its cycles would derail REV's descendant bookkeeping
   const Comparison bad = run_and_compare(t5, wrong, exact5, kSteps / 2, 25, nullptr, false);
   EXPECT_FALSE(passes(bad)) << describe(bad);
 }

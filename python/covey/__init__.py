@@ -256,20 +256,24 @@ def _progress_of(progress):
 
 def chain(table, path, *, steps=None, chains=None, thin=None, burn_in=None, seed=None,
           teleport_cover=None, teleport_rate=None, rev_rate=None, cover_limit=None, start=None,
-          block_size=None, block_rate=None, max_time=None, checkpoint_every="5m",
-          until_rhat=0.0, until_ess=0.0, teleport_sampler="", memory_limit=None, threads=0,
-          resume=False, force=False, progress=True, stop=None):
+          start_cover=None, block_size=None, block_rate=None, max_time=None,
+          checkpoint_every="5m", check_every=None, until_rhat=0.0, until_ess=0.0,
+          teleport_sampler="", memory_limit=None, threads=0, resume=False, force=False,
+          progress=True, stop=None):
     """Structure MCMC chains written to the HDF5 run file `path` (``covey chain``); returns the
     run's summary (the dict of ``covey chain --json``).
 
     Options fixed at creation, None meaning the CLI's default: chains 4, thin 1000, burn_in 0,
     seed 1, teleport_cover none, teleport_rate 0.01 with teleport_cover, rev_rate 1/15,
-    cover_limit none, start "greedy" ("exact" with teleport_cover), block_size and block_rate
-    chosen from the cost model. On resume=True they are read from the file (given anew, they
-    must repeat it); an existing file at `path` is replaced only with force=True. Stopping: steps (total per chain), max_time ("10m", or seconds),
-    until_rhat / until_ess. progress: True shows a progress line on a terminal and in Jupyter
-    notebooks; a callable gets (steps per chain so far, step target or 0, seconds) about twice
-    a second.
+    cover_limit none, start "greedy" ("exact" with teleport_cover), start_cover (k of the class
+    D_k of the exact start) teleport_cover or else 2, block_size and block_rate chosen from the
+    cost model. On resume=True they are read from the file (given anew, they must repeat it); an
+    existing file at `path` is replaced only with force=True. Stopping: steps (total per chain),
+    max_time ("10m", or seconds), until_rhat / until_ess, checked every check_every ("30s", or
+    seconds; None: 10% of the run time so far, 10 s to checkpoint_every), after every checkpoint
+    and at every tenth of steps. progress: True shows a progress line on a terminal and in
+    Jupyter notebooks; a callable gets (steps per chain so far, step target or 0, seconds) about
+    twice a second.
 
     Ctrl-C (KeyboardInterrupt) or stop (a callable returning True, or a threading.Event)
     ends the run at its next segment with a checkpoint; chain(..., resume=True) continues it
@@ -284,8 +288,9 @@ def chain(table, path, *, steps=None, chains=None, thin=None, burn_in=None, seed
     try:
         return _covey._chain(table, path, chains, steps, thin, burn_in,
                              None if seed is None else _seed(seed), teleport_cover,
-                             teleport_rate, rev_rate, cover_limit, start, block_size, block_rate,
-                             max_time, checkpoint_every, until_rhat, until_ess,
+                             teleport_rate, rev_rate, cover_limit, start, start_cover, block_size,
+                             block_rate, max_time, checkpoint_every, check_every, until_rhat,
+                             until_ess,
                              _os.fspath(teleport_sampler), memory_limit, threads, resume,
                              force, terminal_line, _stop_callable(stop), report)
     except KeyboardInterrupt:

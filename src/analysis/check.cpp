@@ -57,22 +57,11 @@ VerdictText verdict_text(const CheckResult& result) {
   return verdict_text(result.verdict, result.thresholds, result.context);
 }
 
-VerdictText stopping_verdict_text(const ConvergenceStatus& status, const ChainRunOptions& options,
-                                  int chains) {
-  Thresholds thresholds;  // the stopping rule's defaults (chain_runner.cpp) are these
-  if (options.until_rhat > 0) thresholds.max_rhat = options.until_rhat;
-  if (options.until_ess > 0) thresholds.min_ess = options.until_ess;
-  Verdict v;
-  v.features = status.features;
-  v.failing = status.failing;
-  v.undefined = status.undefined;
-  v.passing = status.features - std::min(status.features, status.failing + status.undefined);
-  v.max_rhat = status.max_rhat;
-  v.state = verdict_state(v.passing, v.failing);
+VerdictText stopping_verdict_text(const ChainRunSummary& summary) {
   VerdictContext context;
-  context.chains = chains;
+  context.chains = summary.chains;
   context.noun = "edge features";
-  return verdict_text(v, thresholds, context);
+  return verdict_text(summary.convergence, summary.convergence_thresholds, context);
 }
 
 CheckResult check_chain_runs(const std::vector<std::string>& files, const FeatureKinds& kinds,

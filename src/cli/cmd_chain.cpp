@@ -1,6 +1,7 @@
 // `covey chain`: the hybrid structure MCMC (local moves, REV, teleports from the exact
 // cover-bounded sampler), several chains in parallel, traces in one HDF5 run file with
 // checkpoints and bit-for-bit resume (docs/chains.md, docs/file-formats.md "Chain runs").
+#include <cmath>
 #include <csignal>
 #include <cstdio>
 #include <iostream>
@@ -29,9 +30,11 @@ struct ChainArgs {
   double rev_rate = 1.0 / 15;
   int cover_limit = -1;
   std::string start;       // default: exact with --teleport-cover, else greedy
+  int start_cover = -1;    // k of --start exact; -1: --teleport-cover, else kDefaultStartCover
   int block_size = -1;     // -1: chosen from the cost model when the run is created
   double block_rate = -1;  // -1: chosen so block steps take about half the time
   std::string checkpoint_every = "5m";
+  std::string check_every;  // "": automatic
   std::string max_time;
   double until_rhat = 0, until_ess = 0;
   std::string sampler;       // saved cover sampler for --teleport-cover
@@ -79,13 +82,34 @@ std::uint64_t parse_count(const std::string& text, const std::string& option) {
   return static_cast<std::uint64_t>(value);
 }
 
-nlohmann::json convergence_json(const ConvergenceStatus& c) {
-  return {{"converged", c.converged},
-          {"max_rhat", json_number(c.max_rhat)},
-          {"min_ess", json_number(c.min_ess)},
-          {"features", c.features},
-          {"failing", c.failing},
-          {"undefined", c.undefined}};
+// The stopping rule's verdict with the counts and wording of `check`'s (cmd_check.cpp); min_ess
+// is the smaller of the bulk and tail minima.
+nlohmann::json convergence_json(const ChainRunSummary& s) {
+  const Verdict& v = s.convergence;
+  const auto counts = [](const Verdict::Counts& c) {
+    return nlohmann::json{
+        {"passing", c.passing}, {"failing", c.failing}, {"undefined", c.undefined}};
+  };
+  const VerdictText text = stopping_verdict_text(s);
+  return {
+      {"converged", v.converged()},
+      {"state", to_string(v.state)},
+      {"max_rhat", json_number(v.max_rhat)},
+      {"min_ess", json_number(std::fmin(v.min_ess_bulk, v.min_ess_tail))},
+      {"min_ess_bulk", json_number(v.min_ess_bulk)},
+      {"min_ess_tail", json_number(v.min_ess_tail)},
+      {"thresholds",
+       {{"rhat", s.convergence_thresholds.max_rhat}, {"ess", s.convergence_thresholds.min_ess}}},
+      {"features", v.features},
+      {"passing", v.passing},
+      {"failing", v.failing},
+      {"undefined", v.undefined},
+      {"rhat", counts(v.rhat)},
+      {"ess_bulk", counts(v.ess_bulk)},
+      {"ess_tail", counts(v.ess_tail)},
+      {"checks", s.convergence_checks},
+      {"text", text.outcome},
+      {"caveats", text.caveats}};
 }
 
 // The summary for --json (docs/cli.md lists the fields).
@@ -116,14 +140,14 @@ nlohmann::json summary_json(const ChainRunSummary& s) {
                         {"regenerations", s.total_regenerations()},
                         {"regenerations_per_chain", s.regenerations},
                         {"stop_reason", s.stop_reason}};
-  if (s.convergence_checked) out["convergence"] = convergence_json(s.convergence);
+  if (s.convergence_checked) out["convergence"] = convergence_json(s);
   if (!std::isnan(s.teleport_mass_bound_log10))
     out["teleport_mass_bound_log10"] = s.teleport_mass_bound_log10;
   if (!s.teleport_note.empty()) out["teleport_note"] = s.teleport_note;
   return out;
 }
 
-void print_text(const ChainRunSummary& s, const ChainRunOptions& o) {
+void print_text(const ChainRunSummary& s) {
   char line[256];
   std::snprintf(line, sizeof line,
                 "%s: %d chains, %llu steps each (%llu this session, %.1f s, %.3g proposals/s)\n",
@@ -144,8 +168,9 @@ void print_text(const ChainRunSummary& s, const ChainRunOptions& o) {
   if (s.counts.proposed[int(Move::kTeleport)] || s.total_regenerations())
     std::cout << "regenerations: " << s.total_regenerations() << "\n";
   if (s.convergence_checked) {
-    const VerdictText text = stopping_verdict_text(s.convergence, o, s.chains);
+    const VerdictText text = stopping_verdict_text(s);
     std::cout << "convergence: " << text.outcome << "\n";
+    if (!text.measures.empty()) std::cout << "  " << text.measures << "\n";
     for (const std::string& caveat : text.caveats) std::cout << "  caveat: " << caveat << "\n";
   }
 }
@@ -162,6 +187,7 @@ ChainRunOptions fixed_options_of(const ChainArgs& a) {
   o.rev_rate = a.rev_rate;
   o.cover_limit = a.cover_limit;
   o.start = a.start;
+  o.start_cover = a.start_cover;
   o.block_size = a.block_size;
   o.block_rate = a.block_rate;
   return o;
@@ -173,6 +199,7 @@ void run_chain_command(CLI::App* cmd, const ChainArgs& a) {
   if (!a.max_time.empty()) o.max_seconds = parse_duration(a.max_time, "--max-time");
   o.checkpoint_every =
       a.checkpoint_every == "0" ? 0.0 : parse_duration(a.checkpoint_every, "--checkpoint-every");
+  if (!a.check_every.empty()) o.check_every = parse_duration(a.check_every, "--check-every");
   o.until_rhat = a.until_rhat;
   o.until_ess = a.until_ess;
   o.overwrite = a.force;
@@ -207,7 +234,7 @@ void run_chain_command(CLI::App* cmd, const ChainArgs& a) {
   if (a.json)
     print_json(summary_json(summary));
   else
-    print_text(summary, o);
+    print_text(summary);
 }
 
 void setup_chain(CLI::App& app) {
@@ -250,8 +277,14 @@ void setup_chain(CLI::App& app) {
                   "half the run time; stored in the run file)");
   cmd->add_option("--start", a->start,
                   "greedy (each chain the best DAG of its own random node order; the default), "
-                  "empty, exact (a D_k draw per chain; default with --teleport-cover) or a DAG "
-                  "FILE of from<TAB>to edge lines");
+                  "empty, exact (an exact draw from D_k per chain, k = --start-cover; default "
+                  "with --teleport-cover) or a DAG FILE of from<TAB>to edge lines");
+  cmd->add_option("--start-cover", a->start_cover,
+                  "k of the class D_k that --start exact draws from (default: --teleport-cover, "
+                  "else " +
+                      std::to_string(kDefaultStartCover) +
+                      "; without teleports from D_k its sampler is built for the starts alone, "
+                      "within --memory-limit)");
   cmd->add_option("--checkpoint-every", a->checkpoint_every,
                   "time between checkpoints, e.g. 90s, 10m (default 5m)");
   cmd->add_flag("--resume", a->resume, "continue the run in -o FILE from its last checkpoint");
@@ -260,6 +293,10 @@ void setup_chain(CLI::App& app) {
                   "stop when every edge feature has R-hat below R (default 1.01 with --until-ess)");
   cmd->add_option("--until-ess", a->until_ess,
                   "... and bulk and tail ESS above E (default 400 with --until-rhat)");
+  cmd->add_option("--check-every", a->check_every,
+                  "time between checks of --until-rhat/--until-ess, e.g. 30s, 2m (default: 10% "
+                  "of the run time so far, at least 10s and at most --checkpoint-every; also "
+                  "after every checkpoint and, with --steps, at every tenth of the steps)");
   cmd->add_option("--max-time", a->max_time, "stop after this wall time, e.g. 90s, 10m, 2h");
   cmd->add_flag("--json", a->json, "print the summary as JSON");
   cmd->callback([cmd, a] {

@@ -118,3 +118,23 @@ def test_notebook_progress_line(tmp_path, sensors_scores, monkeypatch, capsys):
     covey.chain(sensors_scores, tmp_path / "run.h5", steps=20000, **OPTIONS)
     err = capsys.readouterr().err
     assert "\rchain: 20,000 of 20,000 steps per chain (100%)" in err and err.endswith("\n")
+
+
+def test_stopping_rule_and_exact_start_equal_cli_json(tmp_path, sensors_scores):
+    """start="exact" without teleports (its own D_2 sampler) and the stopping rule's verdict
+    with check's keys: the module's summary equals `covey chain --json` of the same run."""
+    args = dict(chains=2, thin=20, seed=5, steps=400000, start="exact", start_cover=2,
+                until_rhat=1.05, until_ess=100, checkpoint_every="1h", check_every="1h")
+    cli = run_covey("chain", sensors_scores, "-o", tmp_path / "cli.h5", "--chains", 2, "--thin",
+                    20, "--seed", 5, "--steps", 400000, "--start", "exact", "--start-cover", 2,
+                    "--until-rhat", 1.05, "--until-ess", 100, "--checkpoint-every", "1h",
+                    "--check-every", "1h", "--json")
+    summary = covey.chain(sensors_scores, tmp_path / "py.h5", **args)
+    same_run(tmp_path / "cli.h5", tmp_path / "py.h5")
+    assert covey.open_run(tmp_path / "py.h5").options["start_cover"] == 2
+    assert summary["stop_reason"] == cli["stop_reason"] == "converged"
+    assert summary["steps"] % 40000 == 0  # at a tenth of the steps
+    for key in ("converged", "state", "features", "passing", "failing", "undefined", "rhat",
+                "ess_bulk", "ess_tail", "text", "caveats", "checks", "thresholds"):
+        assert summary["convergence"][key] == cli["convergence"][key], key
+    assert summary["convergence"]["text"].startswith("converged: ")

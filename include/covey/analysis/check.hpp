@@ -41,10 +41,9 @@ struct CheckResult {
 // The verdict in the one wording of covey (diagnostics.hpp's verdict_text).
 VerdictText verdict_text(const CheckResult& result);
 // The stopping rule's verdict of `covey chain` (edge features of the run, judged with
-// until_rhat / until_ess or the defaults of Thresholds) in the same wording. The status holds
-// feature counts only, so the per-measure counts are left out.
-VerdictText stopping_verdict_text(const ConvergenceStatus& status, const ChainRunOptions& options,
-                                  int chains);
+// until_rhat / until_ess or the defaults of Thresholds: stopping_thresholds) in the same
+// wording, per-measure counts included.
+VerdictText stopping_verdict_text(const ChainRunSummary& summary);
 
 // Throws OptionError ("<context>: {max_rhat} must exceed 1, ...") unless max_rhat > 1.
 void check_thresholds(const Thresholds& thresholds, const std::string& context = "check");

@@ -20,23 +20,21 @@
 #include "covey/chains/chain_options.hpp"
 #include "covey/chains/chain_run_file.hpp"
 #include "covey/chains/structure_chain.hpp"
+#include "covey/diagnostics/diagnostics.hpp"
 #include "covey/scores/score_table.hpp"
 
 namespace covey {
 
-// Result of a convergence check over a run file's draws.
-struct ConvergenceStatus {
-  bool converged = false;
-  double max_rhat = NAN;  // over the assessed features
-  double min_ess = NAN;   // smallest bulk or tail ESS
-  std::size_t features = 0, failing = 0, undefined = 0;
-};
-// Judges the draws of all chains (over MPI: of every rank's chains, read by rank 0).
+// The stopping rule's judge: the verdict of diagnostics.hpp (the one rule of `check` and the
+// report) over the draws of all chains (over MPI: of every rank's chains, read by rank 0).
 using ConvergenceCheck =
-    std::function<ConvergenceStatus(const RunFeatures& run, double max_rhat, double min_ess)>;
+    std::function<Verdict(const RunFeatures& run, const Thresholds& thresholds)>;
 
 struct ChainRunHooks {
-  const TeleportSource* teleport = nullptr;       // exact D_k sampler: teleports and start "exact"
+  const TeleportSource* teleport = nullptr;  // exact D_k sampler of the teleports
+  // The exact sampler of D_{start_cover} for start "exact", asked for only when a run is
+  // created (ChainSupport builds it then, unless it is the teleports'); none: `teleport`.
+  std::function<const TeleportSource&()> start_sampler;
   const DagClass* restriction = nullptr;          // D_k' for cover_limit
   ConvergenceCheck convergence;                   // for until_rhat / until_ess
   const std::atomic<int>* stop_signal = nullptr;  // nonzero: checkpoint now and stop
@@ -62,14 +60,18 @@ struct ChainRunSummary {
   std::string stop_reason;                   // "steps", "max-time", "converged", "signal"
   int stop_signal = 0;
   bool convergence_checked = false;
-  ConvergenceStatus convergence;
+  Verdict convergence;  // of the last check, against convergence_thresholds
+  Thresholds convergence_thresholds;
+  std::size_t convergence_checks = 0;  // this session
   // With teleports asked for: log10 of an upper bound of the posterior mass of their class D_k
   // (the cover engine's U against the best start score; NaN otherwise), and a note when that
   // bound is negligible (teleports will rarely or never be accepted).
   double teleport_mass_bound_log10 = std::numeric_limits<double>::quiet_NaN();
   std::string teleport_note;
   // All chains' proposals per second of this session (0 before any time passed).
-  double proposals_per_second() const { return seconds > 0 ? double(session_proposals) / seconds : 0.0; }
+  double proposals_per_second() const {
+    return seconds > 0 ? double(session_proposals) / seconds : 0.0;
+  }
   std::uint64_t total_regenerations() const;
 };
 

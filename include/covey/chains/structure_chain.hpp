@@ -81,11 +81,6 @@ class TeleportSource {
   virtual double log_class_weight_bound() const { return std::numeric_limits<double>::infinity(); }
 };
 
-// Deliberate errors of the block move (tests only): paths through the nodes outside the block
-// ignored when deriving g (R(o) taken empty: draws may close cycles through them), or each
-// parent set drawn uniformly among those with the drawn block parent set instead of by f_v.
-enum class BlockFault { kNone, kIgnoreOutsidePaths, kUniformWithinBlockParentSet };
-
 struct ChainConfig {
   double rev_rate = 0.0;       // probability of a REV step
   double teleport_rate = 0.0;  // probability of a teleport step (needs `teleport`)
@@ -97,19 +92,10 @@ struct ChainConfig {
   // them (uniformly) with probability block_family_share, else a uniform m-subset.
   std::vector<std::vector<int>> block_family;
   double block_family_share = 0.5;
-  // Test-only switch (no option, not in run files): a deliberately wrong block move, for the
-  // tests to show that their checks catch it.
-  BlockFault block_fault_for_testing = BlockFault::kNone;
-  // Test-only hook: bit m set makes move m accept with the bare weight ratio min(1, w(G')/w(G)),
-  // dropping its Hastings factor (for teleports also the 1[G in D_k] factor). The chain then
-  // targets the wrong distribution; the tests use it to show that their checks can fail.
-  unsigned drop_hastings_for_testing = 0;
-  // Test-only switch: local moves decided on the exact scores alone, without the float screen
-  // (which gives the same trajectory; the tests compare the two).
-  bool exact_local_moves_for_testing = false;
 };
 
 class BlockMove;     // chains/block_move.hpp
+struct ChainFaults;  // chains/chain_testing.hpp (the tests' deliberate faults)
 class RevTables;     // chains/move_kernels.hpp
 class ScreenScores;  // chains/move_kernels.hpp
 
@@ -163,6 +149,11 @@ class StructureChain {
   bool check_invariants() const;
 
  private:
+  friend StructureChain make_faulty_chain(const ScoreTable& table, const ChainConfig& config,
+                                          const ChainFaults& faults);
+  // `faults`: none (nullptr) in every chain but the tests' (chains/chain_testing.hpp).
+  StructureChain(const ScoreTable& table, const ChainConfig& config, const ChainFaults* faults);
+
   struct Pair {
     std::int32_t from, to;
     std::int8_t pos_in_to;    // position of `from` in to's candidate list
@@ -182,7 +173,7 @@ class StructureChain {
   void rev_move(Rng& rng);
   bool teleport(Rng& rng);
   bool block_move(Rng& rng);  // chains/block_move.cpp
-  bool dropped(Move move) const { return (config_.drop_hastings_for_testing >> int(move)) & 1U; }
+  bool dropped(Move move) const { return (faulty_moves_ >> int(move)) & 1U; }
   bool in_restriction(const Dag& dag) const;
 
   void load_state(const std::vector<ParentMask>& local, const std::string& what);
@@ -206,6 +197,8 @@ class StructureChain {
 
   const ScoreTable* table_;
   ChainConfig config_;
+  std::unique_ptr<const ChainFaults> faults_;  // the tests' faults, or none
+  unsigned faulty_moves_ = 0;                  // bit m: move m drops its Hastings factor (faults_)
   int n_ = 0;
   int words_ = 0;
   std::uint64_t rev_threshold_ = 0;       // rng() below this: REV
