@@ -55,21 +55,6 @@ struct ScoreArguments {
   std::string count_column, delimiter;
 };
 
-// The option combinations the CLI refuses (`covey score`), named by keyword.
-void check_score_kind(const ScoreArguments& a, const DataTable& data, const std::string& name) {
-  const bool discrete = data.kind() == VariableKind::kDiscrete;
-  if (discrete && (a.bge_alpha_mu || a.bge_alpha_w || a.raw_units))
-    throw InputError(
-        "bge_alpha_mu, bge_alpha_w and raw_units apply to Gaussian data (BGe), "
-        "but " +
-        name + " is discrete");
-  if (!discrete && a.equivalent_sample_size)
-    throw InputError("equivalent_sample_size applies to discrete data (BDeu), but " + name +
-                     " is Gaussian");
-  if (a.edge_penalty && a.prior != "edge-penalty")
-    throw InputError("edge_penalty needs prior='edge-penalty'");
-}
-
 ScoreTable score(const std::string& csv, bool is_path, const std::string& name,
                  const ScoreArguments& a) {
   CsvOptions csv_options;
@@ -97,7 +82,13 @@ ScoreTable score(const std::string& csv, bool is_path, const std::string& name,
     py::gil_scoped_release release;
     data = is_path ? read_csv(csv, csv_options) : parse_csv(csv, name, csv_options);
   }
-  check_score_kind(a, data, name);
+  ScoreParametersGiven given;
+  given.equivalent_sample_size = a.equivalent_sample_size.has_value();
+  given.bge_alpha_mu = a.bge_alpha_mu.has_value();
+  given.bge_alpha_w = a.bge_alpha_w.has_value();
+  given.raw_units = a.raw_units;
+  given.edge_penalty = a.edge_penalty.has_value();
+  check_score_parameters(given, options, data, name);
   options.constraints.forbidden = edges_of(a.forbid, "forbid", data.variables());
   options.constraints.required = edges_of(a.require, "require", data.variables());
   check_edge_constraints(options.constraints, data.variables());
@@ -185,15 +176,24 @@ void bind_tables(py::module_& m) {
          std::optional<int> candidates, py::object forbid, py::object require,
          py::object memory_limit, int threads, std::vector<std::string> discrete_columns,
          std::vector<std::string> bins, std::string count_column, std::string delimiter) {
-        const ScoreArguments a{std::move(kind),   drop_incomplete,
-                               allow_constant,    ess,
-                               alpha_mu,          alpha_w,
-                               raw_units,         std::move(prior),
-                               edge_penalty,      max_indegree,
-                               candidates,        forbid,
-                               require,           memory_limit,
-                               threads,           std::move(discrete_columns),
-                               std::move(bins),   std::move(count_column),
+        const ScoreArguments a{std::move(kind),
+                               drop_incomplete,
+                               allow_constant,
+                               ess,
+                               alpha_mu,
+                               alpha_w,
+                               raw_units,
+                               std::move(prior),
+                               edge_penalty,
+                               max_indegree,
+                               candidates,
+                               forbid,
+                               require,
+                               memory_limit,
+                               threads,
+                               std::move(discrete_columns),
+                               std::move(bins),
+                               std::move(count_column),
                                std::move(delimiter)};
         return score(csv, is_path, name, a);
       },
@@ -201,8 +201,8 @@ void bind_tables(py::module_& m) {
       py::arg("drop_incomplete"), py::arg("allow_constant"), py::arg("equivalent_sample_size"),
       py::arg("bge_alpha_mu"), py::arg("bge_alpha_w"), py::arg("raw_units"), py::arg("prior"),
       py::arg("edge_penalty"), py::arg("max_indegree"), py::arg("candidates"), py::arg("forbid"),
-      py::arg("require"), py::arg("memory_limit"), py::arg("threads"),
-      py::arg("discrete_columns"), py::arg("bins"), py::arg("count_column"), py::arg("delimiter"));
+      py::arg("require"), py::arg("memory_limit"), py::arg("threads"), py::arg("discrete_columns"),
+      py::arg("bins"), py::arg("count_column"), py::arg("delimiter"));
 }
 
 }  // namespace covey::python

@@ -326,4 +326,22 @@ ScoreTable score_data(const DataTable& data, const ScoreOptions& options) {
   return compute_scores(*score, data.variables(), data.num_rows(), scoring, std::move(meta));
 }
 
+void check_score_parameters(const ScoreParametersGiven& given, const ScoreOptions& options,
+                            const DataTable& data, const std::string& data_name) {
+  if (given.edge_penalty && options.prior != PriorKind::kEdgePenalty)
+    throw OptionError("{edge_penalty} needs {prior} edge-penalty");
+  if (data.is_mixed()) return;
+  const bool discrete = data.kind() == VariableKind::kDiscrete;
+  const std::pair<bool, const char*> gaussian_only[] = {{given.bge_alpha_mu, "bge_alpha_mu"},
+                                                        {given.bge_alpha_w, "bge_alpha_w"},
+                                                        {given.raw_units, "raw_units"}};
+  for (const auto& [set, field] : gaussian_only)
+    if (discrete && set)
+      throw OptionError("{" + std::string(field) + "} applies to Gaussian data (BGe), but " +
+                        data_name + " is discrete");
+  if (!discrete && given.equivalent_sample_size)
+    throw OptionError("{equivalent_sample_size} applies to discrete data (BDeu), but " + data_name +
+                      " is Gaussian");
+}
+
 }  // namespace covey

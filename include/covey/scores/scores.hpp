@@ -138,4 +138,15 @@ ScoreTable compute_scores(const LocalScore& score, const std::vector<Variable>& 
 // column became on reading; command line left to callers).
 ScoreTable score_data(const DataTable& data, const ScoreOptions& options);
 
+// Which of the score's parameters a caller set explicitly (rather than left at the default).
+struct ScoreParametersGiven {
+  bool equivalent_sample_size = false, bge_alpha_mu = false, bge_alpha_w = false, raw_units = false,
+       edge_penalty = false;
+};
+// Refuses parameters that the data or the prior cannot use, by field name (OptionError): BGe's
+// parameters and raw units on purely discrete data, the BDeu sample size on purely Gaussian
+// data, an edge penalty with another prior. Mixed tables use both scores and accept both.
+void check_score_parameters(const ScoreParametersGiven& given, const ScoreOptions& options,
+                            const DataTable& data, const std::string& data_name);
+
 }  // namespace covey
