@@ -108,7 +108,7 @@ TEST(ExactCli, BadInputLeavesOutputUntouched) {
       {"exact " + dir.file("t.h5") + " --route nonsense --draws 5 -o " + out, "--route", 1},
       {"exact " + dir.file("t.h5") + " --route signed --draws 5 -o " + out, "layered route", 1},
       {"exact " + dir.file("t.h5") + " --draws 0 -o " + out, "--draws", 2},
-      {"exact " + dir.file("t.h5") + " --max-seconds 1e-12 --draws 5 -o " + out,
+      {"exact " + dir.file("t.h5") + " --max-time 0.000001s --draws 5 -o " + out,
        "beyond the limits", 3},
   };
   for (const Case& c : cases) {

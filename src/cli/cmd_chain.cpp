@@ -223,24 +223,27 @@ void setup_chain(CLI::App& app) {
       ->required();
   cmd->add_option("--chains", a->chains, "number of chains (default 4)");
   cmd->add_option("--steps", a->steps,
-                  "total steps per chain (e.g. 1e7); on --resume, the new total");
+                  "total steps per chain (e.g. 1e7); on --resume, the new total (default: none; "
+                  "a run needs --steps, --max-time or --until-rhat/--until-ess)");
   cmd->add_option("--thin", a->thin, "keep every t-th state (default 1000)");
   cmd->add_option("--burn-in", a->burn_in, "steps discarded at the start (default 0)");
   cmd->add_option("--seed", a->seed, "seed; chain c uses stream (seed, c) (default 1)");
   add_memory_limit_option(*cmd, a->memory_limit);
   add_threads_option(*cmd, a->threads);
   cmd->add_option("--teleport-cover", a->teleport_cover,
-                  "k: teleport from the exact sampler of the cover-bounded class D_k");
+                  "k: teleport from the exact sampler of the cover-bounded class D_k (default: "
+                  "none, no teleports)");
   cmd->add_option("--teleport-rate", a->teleport_rate,
                   "teleport probability per step (default 0.01 with --teleport-cover)");
   cmd->add_option("--teleport-sampler", a->sampler,
                   "load the D_k sampler from FILE (saved by `covey draw --save-sampler`) instead "
-                  "of building it");
+                  "of building it (default: build it)");
   cmd->add_option("--rev-rate", a->rev_rate,
                   "probability per step of a REV move, the edge reversal with parent resampling "
                   "(default 1/15)");
   cmd->add_option("--cover-limit", a->cover_limit,
-                  "k': restrict the target to the cover-bounded class D_k' (k' >= k)");
+                  "k': restrict the target to the cover-bounded class D_k' (k' >= k; default: "
+                  "none, all DAGs)");
   cmd->add_option("--block-size", a->block_size,
                   "m: nodes per exact block move, whose parent sets are redrawn jointly from "
                   "their exact conditional (default: the largest m whose step the cost model "
@@ -260,7 +263,8 @@ void setup_chain(CLI::App& app) {
                   "stop when every edge feature has R-hat below R (default 1.01 with --until-ess)");
   cmd->add_option("--until-ess", a->until_ess,
                   "... and bulk and tail ESS above E (default 400 with --until-rhat)");
-  cmd->add_option("--max-time", a->max_time, "stop after this wall time, e.g. 90s, 10m, 2h");
+  cmd->add_option("--max-time", a->max_time,
+                  "stop after this wall time (a duration such as 90s, 10m, 2h; default: none)");
   cmd->add_flag("--json", a->json, "print the summary as JSON");
   cmd->callback([cmd, a] {
     // Under mpirun every rank runs this command (docs/cluster.md); without a launcher the
