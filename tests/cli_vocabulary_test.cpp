@@ -64,7 +64,9 @@ const std::map<std::string, std::string> kUnitExamples = {
 
 // Where an option of a shared name has another default on purpose, and why.
 const std::map<std::string, std::map<std::string, std::string>> kOwnDefault = {
-    {"features", {{"compare", "the log score is not compared (its scale differs by class)"}}},
+    {"features",
+     {{"compare", "the log score is not compared (its scale differs by class)"},
+      {"export", "the file holds probabilities of indicators; the log score is none"}}},
     {"cover", {{"compare", "the bound comes from the compared results"}}},
     {"max-time", {{"chain", "a stop after wall time, none by default (exact: a refusal)"}}},
 };

@@ -11,7 +11,7 @@ namespace {
 
 struct ExportOptions {
   ExportRequest request;
-  std::string features = "edges,adjacencies,ancestors,score";
+  std::string features = "edges,adjacencies,ancestors";
   int threads = 0;
 };
 
