@@ -639,6 +639,7 @@ TEST(Duration, ParsesUnits) {
   EXPECT_THROW(parse_duration("m", "--x"), InputError);
 }
 
+
 // A user's run is never replaced unasked (issue: `chain -o EXISTING` lost a converged run), and a
 // resume cannot change how the run was made; both are library rules the CLI only spells.
 TEST(ChainRunner, RefusesToReplaceARunAndToChangeFixedOptionsOnResume) {

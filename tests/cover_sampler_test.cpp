@@ -9,8 +9,8 @@
 #include <bit>
 #include <cmath>
 
-#include "core/h5.hpp"
 #include "cover_test_util.hpp"
+#include "core/h5.hpp"
 #include "covey/core/error.hpp"
 #include "covey/core/logmath.hpp"
 #include "covey/exact/cover_draws.hpp"
