@@ -173,7 +173,7 @@ TEST(Report, PageStatesVerdictCautionAndWorstFeatures) {
   EXPECT_EQ(html.find("https://"), std::string::npos);
   EXPECT_EQ(html.find("<link"), std::string::npos);
 
-  write_report(synthetic_report_data({.converged = true}), tmp.file("r"));
+  write_report(synthetic_report_data({.converged = true}), tmp.file("r"), true);  // replaces it
   const std::string ok = read_file(tmp.file("r") + "/index.html");
   EXPECT_NE(ok.find("\u2713 Converged"), std::string::npos);
   EXPECT_EQ(ok.find("Not converged"), std::string::npos);
