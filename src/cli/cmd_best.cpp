@@ -41,8 +41,9 @@ void setup_best(CLI::App& app) {
   add_force_option(*cmd, o->force);
   cmd->callback([o] {
     const auto threads = apply_threads(o->threads);
-    if (!o->dot.empty()) require_new_output(o->dot, o->force);
     const ScoreTable table = load_scores(o->scores);
+    // The table read: refuse an existing file before the search.
+    if (!o->dot.empty()) require_new_output(o->dot, o->force);
     const CoverBestResult best = best_dag_in_cover_class(table, o->cover);
     if (!o->dot.empty())
       write_text_file_atomically(o->dot, to_dot(best.dag, table.variables(), "best"));

@@ -29,11 +29,12 @@ struct DrawOptions {
 
 void run_draw(const DrawOptions& o) {
   const auto threads = apply_threads(o.threads);
-  // Refuse a bad or existing output path before the long work (the writers check again).
-  for (const std::string& path : {o.output, o.save_sampler})
-    if (!path.empty()) require_new_output(path, o.force);
   const std::uint64_t limit = memory_limit(o.memory_limit);
   const ScoreTable table = load_scores(o.scores);
+  // The inputs read: refuse a bad or existing output path before the long work (the writers
+  // check again).
+  for (const std::string& path : {o.output, o.save_sampler})
+    if (!path.empty()) require_new_output(path, o.force);
   require_draws_memory(static_cast<double>(o.count), table.num_variables(), "--draws", limit);
   CoverSampler sampler;
   CoverSamplerOptions options;

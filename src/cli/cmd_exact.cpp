@@ -107,11 +107,11 @@ void run_exact(const ExactArgs& a) {
   ExactOptions options;
   options.route = exact_route_from_string(a.route);
   options.limits = limits_of(a);
-  // An existing file is refused before the work (write_exact_draws checks again).
-  if (!a.output.empty()) require_new_output(a.output, a.force);
   const auto thread_limit = apply_threads(a.threads);
 
   const ScoreTable table = load_scores(a.scores);
+  // The table read: an existing file is refused before the work (write_exact_draws checks again).
+  if (!a.output.empty()) require_new_output(a.output, a.force);
   // The mass of D_k is enumerated for small n and otherwise estimated from exact draws: the
   // written ones, or --cover-draws of them when none are written.
   const bool cover_from_draws = a.cover >= 0 && table.num_variables() > kCoverMassEnumerationMax;
