@@ -16,7 +16,7 @@ const std::string& command_line();
 void set_command_line(int argc, char** argv);
 
 // Number checks for options, named like CLI11's own (the help shows INT:POSITIVE, ...) but with
-// a plain message: "--count: must be positive (got 0)".
+// a plain message: "--draws: must be positive (got 0)".
 extern const CLI::Validator kPositive;
 extern const CLI::Validator kNonNegative;
 // Counts as users type them, in every option that takes one: 100000, 1e5, 2.5e7 (a whole
