@@ -13,17 +13,18 @@ mkdir -p "$out"
 data=examples/orchard_inspections.csv
 truth=examples/orchard_inspections_truth.tsv
 step() { printf '\n== %s\n' "$*"; }
+# The demo may run again over its own folder: --force lets every step replace its earlier output.
 
 step "1/8 score: BDeu local scores of the 12 inspection variables (max in-degree 3)"
-"$covey" score "$data" -o "$out/scores.h5" --max-indegree 3
+"$covey" score "$data" -o "$out/scores.h5" --max-indegree 3 --force
 "$covey" info "$out/scores.h5"
 
 step "2/8 best: the highest-scoring DAG whose moral graph has a vertex cover of size <= 3"
-"$covey" best "$out/scores.h5" --cover 3 --dot "$out/best.dot"
+"$covey" best "$out/scores.h5" --cover 3 --dot "$out/best.dot" --force
 
 step "3/8 draw: 20000 exact independent draws from the posterior restricted to that class, D_3"
-"$covey" draw "$out/scores.h5" --cover 3 --count 20000 --seed 1 -o "$out/cover_draws.h5" \
-  --save-sampler "$out/sampler.h5" | head -12
+"$covey" draw "$out/scores.h5" --cover 3 --draws 20000 --seed 1 -o "$out/cover_draws.h5" \
+  --save-sampler "$out/sampler.h5" --force | head -12
 
 step "4/8 exact: the exact posterior over all DAGs (12 variables is small enough)"
 "$covey" exact "$out/scores.h5" --cover 3 --top 5
@@ -31,7 +32,7 @@ step "4/8 exact: the exact posterior over all DAGs (12 variables is small enough
 step "5/8 chain: 4 hybrid chains (local moves, REV, exact teleports from D_3), until converged"
 "$covey" chain "$out/scores.h5" -o "$out/run.h5" --chains 4 --steps 4e6 --thin 200 \
   --teleport-sampler "$out/sampler.h5" --teleport-cover 3 --teleport-rate 0.02 --seed 7 \
-  --until-rhat 1.01 --until-ess 400 --json > "$out/chain.json"
+  --until-rhat 1.01 --until-ess 400 --force --json > "$out/chain.json"
 python3 - "$out/chain.json" <<'PY'
 import json, sys
 s = json.load(open(sys.argv[1]))
@@ -50,7 +51,7 @@ step "7/8 compare: the chains (all DAGs) against the exact all-DAG posterior, an
 "$covey" compare "$out/run.h5" "$out/cover_draws.h5" --top 5
 
 step "8/8 report: the visual report, with the exact posterior beside the chains"
-"$covey" report "$out/run.h5" --compare "$out/scores.h5" -o "$out/report"
+"$covey" report "$out/run.h5" --compare "$out/scores.h5" -o "$out/report" --force
 
 printf '\n== recovery: consensus graph of the chains (adjacencies above 0.5) against the generator\n'
 python3 - "$out/check.json" "$truth" <<'PY'

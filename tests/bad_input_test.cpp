@@ -208,7 +208,7 @@ class Inputs {
       truncate_copy(file("run.h5"), dir_.file("truncated_run.h5"), 0.5);
     };
     preparers_["sampler.h5"] = [this] {
-      run_ok("draw " + file("scores.tsv") + " --cover 1 --count 10 --save-sampler " +
+      run_ok("draw " + file("scores.tsv") + " --cover 1 --draws 10 --save-sampler " +
              dir_.file("sampler.h5"));
     };
     preparers_["corrupt_sampler.h5"] = [this] {

@@ -98,7 +98,7 @@ TEST_F(CoverCli, BestPrintsTheLibraryResultAsJsonAndDot) {
 
 TEST_F(CoverCli, DrawReportsJsonWritesDrawsAndIsThreadInvariant) {
   const std::string out = dir_.file("d.h5");
-  const auto r = run_covey("draw " + scores_ + " --cover 2 --count 3000 --seed 4 --json -o " + out +
+  const auto r = run_covey("draw " + scores_ + " --cover 2 --draws 3000 --seed 4 --json -o " + out +
                            " --threads 2");
   ASSERT_EQ(r.exit_code, 0) << r.err;
   const auto j = nlohmann::json::parse(r.out);
@@ -143,21 +143,21 @@ TEST_F(CoverCli, DrawReportsJsonWritesDrawsAndIsThreadInvariant) {
   EXPECT_EQ(attribute_integer(common.attributes, "cover_bound"), 2);
 
   const auto one =
-      run_covey("draw " + scores_ + " --cover 2 --count 3000 --seed 4 --json --threads 1");
+      run_covey("draw " + scores_ + " --cover 2 --draws 3000 --seed 4 --json --threads 1");
   ASSERT_EQ(one.exit_code, 0) << one.err;
   EXPECT_EQ(one.out, r.out);
 }
 
 TEST_F(CoverCli, SavedSamplerGivesTheSameDraws) {
-  const auto a = run_covey("draw " + scores_ + " --cover 2 --count 500 --json --save-sampler " +
+  const auto a = run_covey("draw " + scores_ + " --cover 2 --draws 500 --json --save-sampler " +
                            dir_.file("s.h5"));
   ASSERT_EQ(a.exit_code, 0) << a.err;
-  const auto b = run_covey("draw " + scores_ + " --cover 2 --count 500 --json --load-sampler " +
+  const auto b = run_covey("draw " + scores_ + " --cover 2 --draws 500 --json --load-sampler " +
                            dir_.file("s.h5"));
   ASSERT_EQ(b.exit_code, 0) << b.err;
   EXPECT_EQ(a.out, b.out);
   const auto wrong_k =
-      run_covey("draw " + scores_ + " --cover 1 --count 5 --load-sampler " + dir_.file("s.h5"));
+      run_covey("draw " + scores_ + " --cover 1 --draws 5 --load-sampler " + dir_.file("s.h5"));
   EXPECT_NE(wrong_k.exit_code, 0);
   EXPECT_NE(wrong_k.err.find("--cover"), std::string::npos);
 }
@@ -196,7 +196,7 @@ TEST_F(CoverCli, CoverDrawsReaderRefusesOtherKindsAndDrawsOutsideTheClass) {
   }
   f.dags.pop_back();
   f.log_weights.pop_back();
-  write_cover_draws(bad, f);
+  write_cover_draws(bad, f, true);
   EXPECT_EQ(read_cover_draws(bad).dags.size(), 1u);
 }
 
@@ -206,19 +206,20 @@ TEST_F(CoverCli, BadInputExitsNonZeroAndLeavesOutputsUntouched) {
   const ScoreTable forced = cover_testing::restricted_table(4, 3, 2, 1.0, {{0, 1}, {2, 3}});
   write_scores_tsv(forced, dir_.file("forced.tsv"));
   const std::vector<std::pair<std::string, std::string>> bad = {
-      {"draw " + scores_ + " --cover 6 --count 10 -o " + keep, "--cover"},
-      {"draw " + scores_ + " --cover=-1 --count 10 -o " + keep, "--cover"},
-      {"draw " + dir_.file("forced.tsv") + " --cover 1 --count 10 -o " + keep, "cover"},
-      {"draw " + dir_.file("nothing.tsv") + " --cover 1 --count 10 -o " + keep, "nothing.tsv"},
-      {"draw " + scores_ + " --cover 1 --count 10 --load-sampler " + dot + " -o " + keep,
+      {"draw " + scores_ + " --cover 6 --draws 10 -o " + keep, "--cover"},
+      {"draw " + scores_ + " --cover=-1 --draws 10 -o " + keep, "--cover"},
+      {"draw " + dir_.file("forced.tsv") + " --cover 1 --draws 10 -o " + keep, "cover"},
+      {"draw " + dir_.file("nothing.tsv") + " --cover 1 --draws 10 -o " + keep, "nothing.tsv"},
+      {"draw " + scores_ + " --cover 1 --draws 10 --load-sampler " + dot + " -o " + keep,
        "keep.dot"},
       {"best " + scores_ + " --cover 6 --dot " + dot, "--cover"},
       {"best " + scores_ + " --cover=-1 --dot " + dot, "--cover"},
       {"best " + dir_.file("forced.tsv") + " --cover 1 --dot " + dot, "cover"},
       {"best " + dir_.file("nothing.tsv") + " --cover 1 --dot " + dot, "nothing.tsv"},
   };
+  // With --force, so that each case reaches its own error (the outputs must survive anyway).
   for (const auto& [args, mention] : bad) {
-    const auto r = run_covey(args);
+    const auto r = run_covey(args + " --force");
     EXPECT_NE(r.exit_code, 0) << args;
     EXPECT_NE(r.err.find(mention), std::string::npos) << args << ": " << r.err;
     EXPECT_EQ(std::count(r.err.begin(), r.err.end(), '\n'), 1) << r.err;
@@ -241,7 +242,7 @@ TEST(CoverSamplerMemory, CheckMatchesThePeakOfBuildSaveAndLoad) {
   const double estimate = CoverSampler::estimate_memory_bytes(20, 3);
   ASSERT_GT(estimate, 100e6);  // large against the process itself
   const auto limit = [&](double factor) { return std::to_string(std::llround(estimate * factor)); };
-  const std::vector<std::string> draw = {"draw", scores, "--count", "1", "--threads", "2"};
+  const std::vector<std::string> draw = {"draw", scores, "--draws", "1", "--threads", "2"};
   auto with = [&](std::vector<std::string> extra) {
     std::vector<std::string> args = draw;
     args.insert(args.end(), extra.begin(), extra.end());

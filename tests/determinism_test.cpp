@@ -80,7 +80,7 @@ TEST(Determinism, SavedSamplerSameForOneAndTwoThreads) {
   const ScoreTable table = testing_util::random_full_table(7, 2, 79);
   write_scores_tsv(table, dir.file("s.tsv"));
   for (const char* t : {"1", "2"}) {
-    const auto r = run_covey("draw " + dir.file("s.tsv") + " --cover 2 --count 200 --threads " + t +
+    const auto r = run_covey("draw " + dir.file("s.tsv") + " --cover 2 --draws 200 --threads " + t +
                              " --save-sampler " + dir.file(std::string("p") + t + ".h5"));
     ASSERT_EQ(r.exit_code, 0) << r.err;
   }

@@ -540,11 +540,12 @@ TEST(DrawsCsv, ErrorsNameFileAndLine) {
   EXPECT_THROW(read_draws_csv(dir.file("missing.csv")), InputError);
 }
 
-// --- covey check --draws ------------------------------------------------------------------------
+// --- covey check --draws-csv
+// ------------------------------------------------------------------------
 
 TEST(CheckCommand, JsonMatchesPosteriorWorstFirst) {
   const std::string path = scenario_files().csv("binary");
-  const auto run = run_covey("check --draws " + path + " --json");
+  const auto run = run_covey("check --draws-csv " + path + " --json");
   ASSERT_EQ(run.exit_code, 0) << run.err;
   const auto j = nlohmann::json::parse(run.out);
   EXPECT_EQ(j["chains"], 4);
@@ -585,12 +586,12 @@ TEST(CheckCommand, JsonMatchesPosteriorWorstFirst) {
 
 TEST(CheckCommand, TextReportAndStrictExitCode) {
   const std::string shift = scenario_files().csv("shift");
-  auto run = run_covey("check --draws " + shift);
+  auto run = run_covey("check --draws-csv " + shift);
   EXPECT_EQ(run.exit_code, 0) << run.err;
   EXPECT_NE(run.out.find("shifted"), std::string::npos);
   EXPECT_NE(run.out.find("verdict: not converged: 1 of 1 quantities fail"), std::string::npos)
       << run.out;
-  run = run_covey("check --draws " + shift + " --strict");
+  run = run_covey("check --draws-csv " + shift + " --strict");
   EXPECT_EQ(run.exit_code, 4);
   EXPECT_NE(run.err.find("--strict"), std::string::npos) << run.err;
   // i.i.d. draws converge; the strict check passes.
@@ -600,14 +601,14 @@ TEST(CheckCommand, TextReportAndStrictExitCode) {
     const Draws& d = scenario("ar1_odd")[2].draws;
     write_draws_csv(only_iid, {{"iid", d}});
   }
-  run = run_covey("check --draws " + only_iid + " --strict --threads 1");
+  run = run_covey("check --draws-csv " + only_iid + " --strict --threads 1");
   EXPECT_EQ(run.exit_code, 0) << run.out << run.err;
   EXPECT_NE(run.out.find("verdict: converged"), std::string::npos) << run.out;
   // A stricter threshold than the draws support fails.
-  run = run_covey("check --draws " + only_iid + " --strict --ess 100000");
+  run = run_covey("check --draws-csv " + only_iid + " --strict --ess 100000");
   EXPECT_EQ(run.exit_code, 4);
   // Constant draws only: nothing can be assessed, so no convergence claim.
-  run = run_covey("check --draws " + scenario_files().csv("constant") + " --strict --json");
+  run = run_covey("check --draws-csv " + scenario_files().csv("constant") + " --strict --json");
   EXPECT_EQ(run.exit_code, 4);
   EXPECT_FALSE(nlohmann::json::parse(run.out)["verdict"]["converged"].get<bool>());
 }
@@ -615,32 +616,32 @@ TEST(CheckCommand, TextReportAndStrictExitCode) {
 TEST(CheckCommand, BadInputGivesOneLineError) {
   TempDir dir;
   const std::string missing = write_text(dir, "m.csv", "chain,x\n1,2\n");
-  auto run = run_covey("check --draws " + missing);
+  auto run = run_covey("check --draws-csv " + missing);
   EXPECT_EQ(run.exit_code, 1);
   EXPECT_EQ(run.err, "covey: error: " + missing +
                          ":1: no column 'iteration' in the header (expected chain, iteration "
                          "and one column per quantity)\n");
   const std::string bad = write_text(dir, "b.csv", "chain,iteration,x\n1,1,0.5\n1,2,x1\n");
-  run = run_covey("check --draws " + bad);
+  run = run_covey("check --draws-csv " + bad);
   EXPECT_EQ(run.exit_code, 1);
   EXPECT_EQ(run.err, "covey: error: " + bad + ":3: column 'x': 'x1' is not a number\n");
   const std::string unequal =
       write_text(dir, "u.csv", "chain,iteration,x\n" + rows(2, 8) + "1,9,1\n");
-  run = run_covey("check --draws " + unequal);
+  run = run_covey("check --draws-csv " + unequal);
   EXPECT_EQ(run.exit_code, 1);
   EXPECT_NE(run.err.find(unequal + ": chain 2 has 8 draws but chain 1 has 9"), std::string::npos)
       << run.err;
   const std::string few = write_text(dir, "f.csv", "chain,iteration,x\n" + rows(2, 4));
-  run = run_covey("check --draws " + few);
+  run = run_covey("check --draws-csv " + few);
   EXPECT_EQ(run.exit_code, 1);
   EXPECT_NE(run.err.find(few + ": 4 draws per chain; at least 6"), std::string::npos) << run.err;
   run = run_covey("check " + few);
   EXPECT_EQ(run.exit_code, 1);
   EXPECT_NE(run.err.find("--draws"), std::string::npos) << run.err;
-  run = run_covey("check --draws " + dir.file("nope.csv"));
+  run = run_covey("check --draws-csv " + dir.file("nope.csv"));
   EXPECT_NE(run.exit_code, 0);
   EXPECT_NE(run.err.find("nope.csv"), std::string::npos) << run.err;
-  run = run_covey("check --draws " + few + " --rhat 0.9");
+  run = run_covey("check --draws-csv " + few + " --rhat 0.9");
   EXPECT_EQ(run.exit_code, 1);
   EXPECT_EQ(run.err, "covey: error: check: --rhat must exceed 1, got 0.9\n");
   run = run_covey("check --help");

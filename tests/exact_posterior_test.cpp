@@ -10,6 +10,7 @@
 
 #include "covey/core/error.hpp"
 #include "covey/core/random.hpp"
+#include "covey/exact/cover_sampler.hpp"
 #include "exact_test_util.hpp"
 #include "test_util.hpp"
 
@@ -198,6 +199,26 @@ TEST(ExactPosterior, SameResultsForAnyThreadCount) {
     EXPECT_EQ(runs[r].edge_probability, runs[r + 2].edge_probability);
     EXPECT_EQ(runs[r].ancestor_probability, runs[r + 2].ancestor_probability);
   }
+}
+
+// The exact writers refuse an existing file unless asked to replace it (the CLI's --force).
+TEST(ExactPosterior, WritersRefuseAnExistingFileUnlessOverwrite) {
+  const ScoreTable t = random_full_table(4, 2, 701);
+  ExactOptions options;
+  options.draws = true;
+  const ExactEngine engine(t, options);
+  const std::vector<Dag> dags = engine.draw_many(20, 3);
+  const CoverSampler sampler = CoverSampler::build(t, 1);
+  testing_util::TempDir dir;
+  const std::string draws = dir.file("draws.h5"), saved = dir.file("sampler.h5");
+  for (const std::string& path : {draws, saved}) testing_util::write_file(path, "keep\n");
+  EXPECT_THROW(write_exact_draws(draws, t, engine, dags, 3, "test"), OptionError);
+  EXPECT_THROW(sampler.save(saved), OptionError);
+  for (const std::string& path : {draws, saved}) EXPECT_EQ(testing_util::read_file(path), "keep\n");
+  write_exact_draws(draws, t, engine, dags, 3, "test", true);
+  sampler.save(saved, true);
+  EXPECT_NE(testing_util::read_file(draws), "keep\n");
+  EXPECT_EQ(CoverSampler::load(saved, t).cover_bound(), 1);
 }
 
 TEST(ExactPosterior, NoDagInTableIsAnInputError) {

@@ -71,7 +71,7 @@ struct Fixture {
                        "--teleport-rate 0.05 -o " +
                        run);
     if (r.exit_code != 0) throw std::runtime_error("chain failed: " + r.err);
-    r = run_covey("draw " + table_path + " --cover 2 --count 20000 --seed 3 -o " + cover_draws);
+    r = run_covey("draw " + table_path + " --cover 2 --draws 20000 --seed 3 -o " + cover_draws);
     if (r.exit_code != 0) throw std::runtime_error("draw failed: " + r.err);
   }
 };
@@ -441,7 +441,7 @@ std::vector<std::vector<std::string>> read_simple_csv(const std::string& path) {
 }
 
 // The probabilities CSV holds check's numbers; the edge draws are the run's draws, which R's
-// posterior (as_draws_df of read.csv, then rhat) and covey check --draws both read.
+// posterior (as_draws_df of read.csv, then rhat) and covey check --draws-csv both read.
 TEST(Export, ProbabilitiesEqualCheckAndEdgeDrawsAreReadByRPosterior) {
   const Fixture& fx = fixture();
   TempDir dir;
@@ -480,7 +480,7 @@ TEST(Export, ProbabilitiesEqualCheckAndEdgeDrawsAreReadByRPosterior) {
   EXPECT_EQ(draws[1][0], "1");
   EXPECT_EQ(draws.back()[2], "16000");
   // covey check reads it back: the same R-hat as from the run itself.
-  r = run_covey("check --draws " + edge_draws + " --json");
+  r = run_covey("check --draws-csv " + edge_draws + " --json");
   ASSERT_EQ(r.exit_code, 0) << r.err;
   std::map<std::string, double> rhat_of_column;
   const auto draws_json = nlohmann::json::parse(r.out);

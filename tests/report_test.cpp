@@ -173,7 +173,7 @@ TEST(Report, PageStatesVerdictCautionAndWorstFeatures) {
   EXPECT_EQ(html.find("https://"), std::string::npos);
   EXPECT_EQ(html.find("<link"), std::string::npos);
 
-  write_report(synthetic_report_data({.converged = true}), tmp.file("r"));
+  write_report(synthetic_report_data({.converged = true}), tmp.file("r"), true);  // replaces it
   const std::string ok = read_file(tmp.file("r") + "/index.html");
   EXPECT_NE(ok.find("\u2713 Converged"), std::string::npos);
   EXPECT_EQ(ok.find("Not converged"), std::string::npos);
@@ -277,7 +277,15 @@ TEST(Report, ReplacesAnEarlierReportOnlyOnSuccess) {
   write_report(first, dir);
   ReportData second = synthetic_report_data({.with_comparison = false});
   second.title = "Second run";
-  write_report(second, dir);
+  // An earlier report is replaced only when asked (the CLI's --force).
+  try {
+    write_report(second, dir);
+    ADD_FAILURE() << "an earlier report was replaced without overwrite";
+  } catch (const OptionError& e) {
+    EXPECT_NE(e.message_template().find("{overwrite}"), std::string::npos) << e.what();
+  }
+  EXPECT_NE(read_file(dir + "/index.html").find("First run"), std::string::npos);
+  write_report(second, dir, true);
   std::string html = read_file(dir + "/index.html");
   EXPECT_NE(html.find("Second run"), std::string::npos);
   EXPECT_EQ(html.find("First run"), std::string::npos);
@@ -289,7 +297,7 @@ TEST(Report, ReplacesAnEarlierReportOnlyOnSuccess) {
   ReportData broken = synthetic_report_data();
   broken.title = "Broken run";
   broken.edge_probability[0][1] = 1.5;
-  EXPECT_THROW(write_report(broken, dir), InputError);
+  EXPECT_THROW(write_report(broken, dir, true), InputError);
   html = read_file(dir + "/index.html");
   EXPECT_NE(html.find("Second run"), std::string::npos);
   EXPECT_TRUE(temporaries_beside(dir).empty());
@@ -297,10 +305,10 @@ TEST(Report, ReplacesAnEarlierReportOnlyOnSuccess) {
   // Inconsistent data is refused before anything is written.
   ReportData bad_index = synthetic_report_data();
   bad_index.features[0].to = 99;
-  EXPECT_THROW(write_report(bad_index, dir), InputError);
+  EXPECT_THROW(write_report(bad_index, dir, true), InputError);
   ReportData bad_trace = synthetic_report_data();
   bad_trace.traces[1].steps.pop_back();
-  EXPECT_THROW(write_report(bad_trace, dir), InputError);
+  EXPECT_THROW(write_report(bad_trace, dir, true), InputError);
   EXPECT_NE(read_file(dir + "/index.html").find("Second run"), std::string::npos);
 }
 

@@ -76,8 +76,10 @@ TEST_F(ScoreCli, BadInputsFailAndLeaveTheOutputUntouched) {
       {good + " -o " + path("no/such/dir/out.h5"), "output directory"},
       {path("comma.csv") + " -o " + path("out.tsv"), "cannot be written to TSV"},
   };
+  // With --force, so that each case reaches its own error: a bad input leaves the existing
+  // output as it was even when replacing it was allowed.
   for (const auto& [args, fragment] : cases) {
-    const auto r = run_covey("score " + args);
+    const auto r = run_covey("score " + args + " --force");
     EXPECT_NE(r.exit_code, 0) << args;
     EXPECT_NE(r.err.find(fragment), std::string::npos)
         << "args: " << args << "\nexpected: " << fragment << "\nstderr: " << r.err;
@@ -88,7 +90,7 @@ TEST_F(ScoreCli, BadInputsFailAndLeaveTheOutputUntouched) {
   for (const auto& entry : std::filesystem::directory_iterator(dir.path()))
     EXPECT_EQ(entry.path().filename().string().find(".tmp"), std::string::npos) << entry.path();
   // The memory-limit error exits with the resource code.
-  EXPECT_EQ(run_covey("score " + good + " -o " + out + " --memory-limit 1K").exit_code, 3);
+  EXPECT_EQ(run_covey("score " + good + " -o " + out + " --memory-limit 1K --force").exit_code, 3);
 }
 
 TEST_F(ScoreCli, JsonSummaryAndTsvOutput) {

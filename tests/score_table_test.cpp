@@ -63,6 +63,29 @@ TEST(ScoreIo, Hdf5RoundTrip) {
   }
 }
 
+// Every writer refuses an existing file unless asked to replace it (the CLI's --force): an
+// OptionError naming the file and {overwrite}, the file as it was.
+TEST(ScoreIo, WritersRefuseAnExistingFileUnlessOverwrite) {
+  const ScoreTable t = testing_util::random_full_table(4, 2, 12);
+  testing_util::TempDir dir;
+  for (const std::string name : {"s.tsv", "s.h5"}) {
+    const std::string path = dir.file(name);
+    testing_util::write_file(path, "the user's file\n");
+    try {
+      save_scores(t, path);
+      ADD_FAILURE() << name << " replaced without overwrite";
+    } catch (const OptionError& e) {
+      EXPECT_NE(e.message_template().find(path + ": exists; {overwrite}"), std::string::npos)
+          << e.what();
+    }
+    EXPECT_EQ(testing_util::read_file(path), "the user's file\n");
+    save_scores(t, path, true);
+    EXPECT_EQ(load_scores(path).fingerprint(), t.fingerprint());
+  }
+  EXPECT_THROW(write_scores_hdf5(t, dir.file("s.h5")), OptionError);
+  EXPECT_THROW(write_scores_tsv(t, dir.file("s.tsv")), OptionError);
+}
+
 TEST(ScoreIo, TsvRoundTripIsExact) {
   const ScoreTable t = testing_util::random_full_table(4, 3, 11);
   testing_util::TempDir dir;

@@ -209,19 +209,19 @@ class ExactPosterior:
                 f"log Z {self.log_z:.10g} ({self.route} route)>")
 
 
-def exact(table, *, route="auto", draws=0, seed=1, memory_limit=None, max_seconds=3600,
+def exact(table, *, route="auto", draws=0, seed=1, memory_limit=None, max_time=3600,
           threads=0):
     """The exact posterior over all DAGs whose parent sets are in the table (small n).
 
     route: "auto", "layered" or "signed"; draws: exact independent draws to return (layered
     route); the work is estimated first and refused (ResourceError) beyond memory_limit or
-    max_seconds of single-core time.
+    max_time seconds of single-core time (the CLI's --max-time).
 
     >>> post = covey.exact(table)
     >>> post.edges.columns.tolist()
     ['from', 'to', 'probability']
     """
-    return ExactPosterior(_covey._exact(table, route, memory_limit, max_seconds, draws,
+    return ExactPosterior(_covey._exact(table, route, memory_limit, max_time, draws,
                                         _seed(seed), threads))
 
 

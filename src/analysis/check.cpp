@@ -51,6 +51,12 @@ void check_thresholds(const Thresholds& thresholds, const std::string& context) 
     std::snprintf(value, sizeof value, "%g", thresholds.max_rhat);
     throw OptionError(context + ": {max_rhat} must exceed 1, got " + std::string(value));
   }
+  // ESS must exceed the threshold; 0 only asks for a defined ESS, so any value >= 0 is a rule.
+  if (!(thresholds.min_ess >= 0)) {
+    char value[32];
+    std::snprintf(value, sizeof value, "%g", thresholds.min_ess);
+    throw OptionError(context + ": {min_ess} must be at least 0, got " + std::string(value));
+  }
 }
 
 VerdictText verdict_text(const CheckResult& result) {

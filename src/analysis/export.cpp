@@ -36,14 +36,6 @@ std::string csv_number(double v) {
   return std::string(text, end);
 }
 
-void require_new_file(const std::string& path, bool force, const char* field) {
-  if (path.empty()) return;
-  require_output_path(path);
-  if (!force && std::filesystem::exists(path))
-    throw OptionError("{" + std::string(field) + "} " + path +
-                      ": file exists; add {force} to replace it");
-}
-
 template <typename Write>
 void write_atomically(const std::string& path, const Write& write) {
   AtomicOutput output(path);
@@ -116,8 +108,9 @@ void export_runs(const ExportRequest& request) {
           std::filesystem::absolute(request.edge_draws).lexically_normal())
     throw OptionError("export: {probabilities} and {edge_draws} name the same file " +
                       request.edge_draws);
-  require_new_file(request.probabilities, request.force, "probabilities");
-  require_new_file(request.edge_draws, request.force, "edge_draws");
+  // The one rule of every writer (require_new_output), before the runs are read.
+  for (const std::string* path : {&request.probabilities, &request.edge_draws})
+    if (!path->empty()) require_new_output(*path, request.force);
   const std::vector<ChainRun> runs = open_runs(request.runs);
   const std::vector<std::string>& names = runs.front().variables();
   const RunFeatures draws(runs, request.kinds.ancestors);

@@ -71,6 +71,7 @@ struct PosteriorEstimate::Impl {
   std::vector<std::string> variables;
   std::uint64_t fingerprint = 0;
   int cover_bound = -1;
+  int teleport_cover = -1;
   std::optional<LogWeight> log_weight;
   int n = 0;
   // Feature estimates: [from * n + to] for edges and ancestors, [a * n + b] (a < b) adjacencies.
@@ -146,6 +147,7 @@ std::unique_ptr<Impl> load_exact_table(const std::string& path, const CompareOpt
   p->fingerprint = table.fingerprint();
   p->label = "exact, all DAGs (" + path + ")";
   ExactOptions eo;
+  eo.limits.max_bytes = o.memory_limit;
   const ExactEngine engine(table, eo);
   const ExactPosterior& post = engine.posterior();
   size_features(*p);
@@ -209,6 +211,7 @@ std::unique_ptr<Impl> load_chain_runs(const std::vector<std::string>& paths,
   p->variables = runs.front().variables();
   p->n = runs.front().num_variables();
   p->fingerprint = runs.front().table_fingerprint();
+  p->teleport_cover = runs.front().options().teleport_cover;
   p->run = std::make_unique<RunFeatures>(runs, o.kinds.ancestors);
   const RunFeatures& draws = *p->run;
   std::string files;
@@ -281,6 +284,9 @@ std::uint64_t PosteriorEstimate::table_fingerprint() const {
 int PosteriorEstimate::cover_bound() const {
   return impl_->cover_bound;
 }
+int PosteriorEstimate::teleport_cover() const {
+  return impl_->teleport_cover;
+}
 std::optional<PosteriorEstimate::LogWeight> PosteriorEstimate::log_total_weight() const {
   return impl_->log_weight;
 }
@@ -334,6 +340,7 @@ PosteriorEstimate::Mass PosteriorEstimate::cover_class_mass(int k) const {
         ExactOptions eo;
         eo.features = false;
         eo.draws = true;
+        eo.limits.max_bytes = impl_->options.memory_limit;
         draws = ExactEngine(table, eo).draw_many(impl_->options.exact_draws, impl_->options.seed);
       }
       const ClassMass m = covey::cover_class_mass(table, k, draws);
@@ -388,11 +395,15 @@ PosteriorComparison compare_posteriors(const PosteriorEstimate& a, const Posteri
                    [](const FeatureDifference& x, const FeatureDifference& y) {
                      return std::fabs(x.diff) > std::fabs(y.diff);
                    });
-  // The mass of D_k under the unrestricted side; k from the cover-bounded side or --cover.
+  // The mass of D_k under the unrestricted side; k from the cover-bounded side, else {cover},
+  // else the class a teleporting chain run drew its teleports from.
   const PosteriorEstimate* cover_side = a.source() == PosteriorSource::kCoverDraws   ? &a
                                         : b.source() == PosteriorSource::kCoverDraws ? &b
                                                                                      : nullptr;
-  const int k = cover_side ? cover_side->cover_bound() : options.cover;
+  const int k = cover_side                ? cover_side->cover_bound()
+                : options.cover >= 0      ? options.cover
+                : a.teleport_cover() >= 0 ? a.teleport_cover()
+                                          : b.teleport_cover();
   const PosteriorEstimate* wide = nullptr;
   std::string side;
   // Prefer the chain run (the quantity docs/mathematics.md section 7 estimates), then an exact

@@ -21,7 +21,7 @@ std::vector<std::string> names_of(const ScoreTable& table, std::uint64_t mask) {
 struct BestOptions {
   std::string scores, dot;
   int cover = 0;
-  bool json = false;
+  bool json = false, force = false;
   int threads = 0;
 };
 
@@ -35,11 +35,15 @@ void setup_best(CLI::App& app) {
                   "must have a vertex cover of at most k vertices")
       ->required();
   cmd->add_flag("--json", o->json, "Print JSON: log_score, cover, parents");
-  cmd->add_option("--dot", o->dot, "Also write the DAG as Graphviz DOT to this file");
+  cmd->add_option("--dot", o->dot,
+                  "Also write the DAG as Graphviz DOT to this file (default: not written)");
   add_threads_option(*cmd, o->threads);
+  add_force_option(*cmd, o->force);
   cmd->callback([o] {
     const auto threads = apply_threads(o->threads);
     const ScoreTable table = load_scores(o->scores);
+    // The table read: refuse an existing file before the search.
+    if (!o->dot.empty()) require_new_output(o->dot, o->force);
     const CoverBestResult best = best_dag_in_cover_class(table, o->cover);
     if (!o->dot.empty())
       write_text_file_atomically(o->dot, to_dot(best.dag, table.variables(), "best"));

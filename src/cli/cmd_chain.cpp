@@ -67,21 +67,6 @@ class StopSignals {
   }, old_term_{};
 };
 
-// A count as users type it: 1000000, 1e6, 2.5e7 (must be a whole number).
-std::uint64_t parse_count(const std::string& text, const std::string& option) {
-  std::size_t used = 0;
-  double value = -1;
-  try {
-    value = std::stod(text, &used);
-  } catch (const std::exception&) {
-    used = 0;
-  }
-  if (used != text.size() || !(value >= 0) || value > 1e19 || value != std::floor(value))
-    throw InputError(option + ": '" + text +
-                     "' is not a whole number of steps (e.g. 1000000 or 1e6)");
-  return static_cast<std::uint64_t>(value);
-}
-
 // The stopping rule's verdict with the counts and wording of `check`'s (cmd_check.cpp); min_ess
 // is the smaller of the bulk and tail minima.
 nlohmann::json convergence_json(const ChainRunSummary& s) {
@@ -250,24 +235,27 @@ void setup_chain(CLI::App& app) {
       ->required();
   cmd->add_option("--chains", a->chains, "number of chains (default 4)");
   cmd->add_option("--steps", a->steps,
-                  "total steps per chain (e.g. 1e7); on --resume, the new total");
+                  "total steps per chain (e.g. 1e7); on --resume, the new total (default: none; "
+                  "a run needs --steps, --max-time or --until-rhat/--until-ess)");
   cmd->add_option("--thin", a->thin, "keep every t-th state (default 1000)");
   cmd->add_option("--burn-in", a->burn_in, "steps discarded at the start (default 0)");
   cmd->add_option("--seed", a->seed, "seed; chain c uses stream (seed, c) (default 1)");
   add_memory_limit_option(*cmd, a->memory_limit);
   add_threads_option(*cmd, a->threads);
   cmd->add_option("--teleport-cover", a->teleport_cover,
-                  "k: teleport from the exact sampler of the cover-bounded class D_k");
+                  "k: teleport from the exact sampler of the cover-bounded class D_k (default: "
+                  "none, no teleports)");
   cmd->add_option("--teleport-rate", a->teleport_rate,
                   "teleport probability per step (default 0.01 with --teleport-cover)");
   cmd->add_option("--teleport-sampler", a->sampler,
                   "load the D_k sampler from FILE (saved by `covey draw --save-sampler`) instead "
-                  "of building it");
+                  "of building it (default: build it)");
   cmd->add_option("--rev-rate", a->rev_rate,
                   "probability per step of a REV move, the edge reversal with parent resampling "
                   "(default 1/15)");
   cmd->add_option("--cover-limit", a->cover_limit,
-                  "k': restrict the target to the cover-bounded class D_k' (k' >= k)");
+                  "k': restrict the target to the cover-bounded class D_k' (k' >= k; default: "
+                  "none, all DAGs)");
   cmd->add_option("--block-size", a->block_size,
                   "m: nodes per exact block move, whose parent sets are redrawn jointly from "
                   "their exact conditional (default: the largest m whose step the cost model "
@@ -297,7 +285,8 @@ void setup_chain(CLI::App& app) {
                   "time between checks of --until-rhat/--until-ess, e.g. 30s, 2m (default: 10% "
                   "of the run time so far, at least 10s and at most --checkpoint-every; also "
                   "after every checkpoint and, with --steps, at every tenth of the steps)");
-  cmd->add_option("--max-time", a->max_time, "stop after this wall time, e.g. 90s, 10m, 2h");
+  cmd->add_option("--max-time", a->max_time,
+                  "stop after this wall time (a duration such as 90s, 10m, 2h; default: none)");
   cmd->add_flag("--json", a->json, "print the summary as JSON");
   cmd->callback([cmd, a] {
     // Under mpirun every rank runs this command (docs/cluster.md); without a launcher the

@@ -1,6 +1,6 @@
 // `covey check`: convergence diagnostics (split R-hat, bulk and tail ESS, MCSE) of MCMC draws,
 // worst first, and a verdict against thresholds. The positional arguments are chain-run files
-// (taken together: their chains side by side), or with --draws one CSV of named quantities.
+// (taken together: their chains side by side), or --draws-csv one CSV of named quantities.
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
@@ -20,7 +20,7 @@ namespace {
 
 struct CheckOptions {
   std::vector<std::string> files;
-  bool draws = false;
+  std::string draws_csv;
   std::string features = "edges,adjacencies,ancestors,score";
   std::size_t top = 20;
   bool json = false;
@@ -31,16 +31,19 @@ struct CheckOptions {
 
 // The files, after the command-line checks the library does not know about.
 CheckResult check_input(const CheckOptions& options) {
-  if (options.draws) {
-    if (options.files.size() != 1)
-      throw InputError("check --draws: expected one CSV file, got " +
-                       std::to_string(options.files.size()));
-    return check_draws_csv(options.files[0], options.thresholds);
+  if (!options.draws_csv.empty()) {
+    if (!options.files.empty())
+      throw InputError("check --draws-csv: reads one CSV and no chain-run files (got " +
+                       options.files.front() + " too)");
+    return check_draws_csv(options.draws_csv, options.thresholds);
   }
+  if (options.files.empty())
+    throw InputError("check: give chain-run files, or --draws-csv FILE for a CSV of draws");
   const FeatureKinds kinds = parse_feature_kinds(options.features, "--features");
   for (const std::string& file : options.files)
     if (file.size() > 4 && file.compare(file.size() - 4, 4, ".csv") == 0)
-      throw InputError(file + ": CSV is read as draws with --draws (covey check --draws FILE.csv)");
+      throw InputError(
+          file + ": CSV is read as draws with --draws-csv (covey check --draws-csv FILE.csv)");
   return check_chain_runs(options.files, kinds, options.thresholds);
 }
 
@@ -158,25 +161,22 @@ void setup_check(CLI::App& app) {
       "runs with teleports also the regenerative standard error");
   auto options = std::make_shared<CheckOptions>();
   cmd->add_option("FILES", options->files,
-                  "chain-run files of `covey chain` (several: their chains taken together), or "
-                  "with --draws one CSV of draws")
-      ->required();
+                  "chain-run files of `covey chain` (several: their chains taken together)");
   cmd->add_option("--features", options->features,
                   "Feature kinds of a chain run, comma-separated: edges, adjacencies, ancestors, "
                   "score")
       ->capture_default_str();
-  cmd->add_option("--top", options->top, "Features shown in the text output, worst first (0: all)")
-      ->capture_default_str();
-  cmd->add_flag("--draws", options->draws,
-                "Read FILES as CSV draws: a header with columns chain, iteration (or R "
-                "posterior's .chain, .iteration, .draw) and one column per quantity, then one "
-                "row per draw");
+  add_top_option(*cmd, options->top);
+  cmd->add_option("--draws-csv", options->draws_csv,
+                  "Diagnose a CSV of draws instead of chain runs: a header with columns chain, "
+                  "iteration (or R posterior's .chain, .iteration, .draw) and one column per "
+                  "quantity, then one row per draw (default: none)");
   cmd->add_flag("--json", options->json,
                 "Print JSON (undefined values are null, infinite ones \"inf\")");
   cmd->add_flag("--strict", options->strict, "Exit with status 4 unless the verdict is converged");
   cmd->add_option("--rhat", options->thresholds.max_rhat, "R-hat must be below this (> 1)")
       ->capture_default_str();
-  cmd->add_option("--ess", options->thresholds.min_ess, "bulk and tail ESS must exceed this")
+  cmd->add_option("--ess", options->thresholds.min_ess, "bulk and tail ESS must exceed this (>= 0)")
       ->capture_default_str()
       ->check(kNonNegative);
   add_threads_option(*cmd, options->threads);

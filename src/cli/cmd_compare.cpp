@@ -18,9 +18,10 @@ struct CompareCliOptions {
   std::string a, b;
   std::string features = "edges,adjacencies,ancestors";
   int cover = -1;
-  std::size_t top = 15;
-  std::size_t exact_draws = 20000;
+  std::size_t top = 20;
+  std::size_t cover_draws = 20000;
   std::uint64_t seed = 1;
+  std::string memory_limit;
   bool json = false;
   int threads = 0;
 };
@@ -118,16 +119,19 @@ void setup_compare(CLI::App& app) {
                   "Feature kinds compared, comma-separated: edges, adjacencies, ancestors")
       ->capture_default_str();
   cmd->add_option("--cover", o->cover,
-                  "k of the class D_k whose posterior mass is estimated when neither side is "
-                  "a cover-bounded result (default: the cover bound of that side)")
+                  "k of the class D_k whose posterior mass is estimated (default: the cover "
+                  "bound of a cover-bounded side, else the teleport cover of a chain run that "
+                  "teleported, else none)")
       ->check(kNonNegative);
-  cmd->add_option("--top", o->top, "Features shown in the text output (0: all)")
+  add_top_option(*cmd, o->top);
+  cmd->add_option("--cover-draws", o->cover_draws,
+                  "Exact draws that estimate the mass of D_k from a score table of more than 6 "
+                  "variables")
+      ->transform(kCount)
+      ->check(kPositive)
       ->capture_default_str();
-  cmd->add_option("--exact-draws", o->exact_draws,
-                  "Exact draws for the mass of D_k from a score table of more than 6 variables")
-      ->capture_default_str()
-      ->check(kPositive);
-  cmd->add_option("--seed", o->seed, "Seed of those draws")->capture_default_str();
+  add_seed_option(*cmd, o->seed, "those draws");
+  add_memory_limit_option(*cmd, o->memory_limit);
   cmd->add_flag("--json", o->json,
                 "Print JSON: a, b, features, mass_in_cover_class, log_total_weight_all");
   add_threads_option(*cmd, o->threads);
@@ -138,8 +142,9 @@ void setup_compare(CLI::App& app) {
     if (options.kinds.score)
       throw InputError("--features: the log score is not compared (its scale differs by class)");
     options.cover = o->cover;
-    options.exact_draws = o->exact_draws;
+    options.exact_draws = o->cover_draws;
     options.seed = o->seed;
+    options.memory_limit = memory_limit(o->memory_limit);
     const PosteriorEstimate a = PosteriorEstimate::load({o->a}, options);
     const PosteriorEstimate b = PosteriorEstimate::load({o->b}, options);
     const PosteriorComparison c = compare_posteriors(a, b, options);

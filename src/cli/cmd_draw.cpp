@@ -12,6 +12,7 @@
 #include "covey/core/version.hpp"
 #include "covey/exact/cover_draws.hpp"
 #include "covey/exact/cover_sampler.hpp"
+#include "covey/graph/features.hpp"
 #include "covey/scores/score_io.hpp"
 
 namespace covey::cli {
@@ -22,18 +23,19 @@ struct DrawOptions {
   int cover = 0;
   std::size_t count = 0;
   std::uint64_t seed = 1;
-  bool json = false;
+  bool json = false, force = false;
   int threads = 0;
 };
 
 void run_draw(const DrawOptions& o) {
   const auto threads = apply_threads(o.threads);
-  // Fail on a bad output path before the long work.
-  for (const std::string& path : {o.output, o.save_sampler})
-    if (!path.empty()) AtomicOutput probe(path);
   const std::uint64_t limit = memory_limit(o.memory_limit);
   const ScoreTable table = load_scores(o.scores);
-  require_draws_memory(static_cast<double>(o.count), table.num_variables(), "--count", limit);
+  // The inputs read: refuse a bad or existing output path before the long work (the writers
+  // check again).
+  for (const std::string& path : {o.output, o.save_sampler})
+    if (!path.empty()) require_new_output(path, o.force);
+  require_draws_memory(static_cast<double>(o.count), table.num_variables(), "--draws", limit);
   CoverSampler sampler;
   CoverSamplerOptions options;
   options.memory_limit_bytes = limit;
@@ -46,7 +48,7 @@ void run_draw(const DrawOptions& o) {
   } else {
     sampler = CoverSampler::build(table, o.cover, options);
   }
-  if (!o.save_sampler.empty()) sampler.save(o.save_sampler);
+  if (!o.save_sampler.empty()) sampler.save(o.save_sampler, o.force);
 
   CoverDrawBatch batch = draw_cover_batch(sampler, o.seed, o.count, true, limit);
   const auto estimate = estimate_log_total_weight(sampler.log_upper_bound(), o.count, batch.trials);
@@ -66,7 +68,7 @@ void run_draw(const DrawOptions& o) {
     file.covey_version = kVersion;
     for (const Dag& d : batch.dags) file.log_weights.push_back(log_weight(table, d));
     file.dags = std::move(batch.dags);  // not needed below: the edges are counted already
-    write_cover_draws(o.output, file);
+    write_cover_draws(o.output, file, o.force);
   }
 
   if (o.json) {
@@ -102,12 +104,14 @@ void run_draw(const DrawOptions& o) {
     if (f.probability > 0) shown.push_back(f);
   std::stable_sort(shown.begin(), shown.end(),
                    [](const auto& a, const auto& b) { return a.probability > b.probability; });
+  // Edges are named as every command names them (feature_label).
+  const std::vector<std::string> names = variable_names(table.variables());
   std::cout << "edge probabilities (edges never drawn are omitted):\n"
-            << "  from\tto\tprobability\tse\n"
-            << std::setprecision(4);
+            << "  probability  se        edge\n";
   for (const auto& f : shown)
-    std::cout << "  " << table.name(f.from) << '\t' << table.name(f.to) << '\t' << f.probability
-              << '\t' << f.se << '\n';
+    std::cout << "  " << format_number("%-11.6f", f.probability) << "  "
+              << format_number("%-8.6f", f.se) << "  "
+              << feature_label(FeatureId{FeatureKind::kEdge, f.from, f.to}, names) << '\n';
   if (!o.output.empty()) std::cout << "draws written to " << o.output << "\n";
 }
 
@@ -122,18 +126,24 @@ void setup_draw(CLI::App& app) {
                   "cover bound k (0 <= k < number of variables): draw DAGs whose moral graph "
                   "has a vertex cover of at most k vertices")
       ->required();
-  cmd->add_option("--count", o->count, "number of exact draws")->required()->check(kPositive);
-  cmd->add_option("--seed", o->seed, "random seed (default 1); results do not depend on --threads")
-      ->check(CLI::Range(std::uint64_t{0}, std::uint64_t{9223372036854775807ULL}));
-  cmd->add_option("-o,--output", o->output, "HDF5 file for the draws (see docs/file-formats.md)");
+  cmd->add_option("--draws", o->count, "number of exact draws (e.g. 100000 or 1e5)")
+      ->required()
+      ->transform(kCount)
+      ->check(kPositive);
+  add_seed_option(*cmd, o->seed, "the draws");
+  cmd->add_option("-o,--output", o->output,
+                  "HDF5 file for the draws (see docs/file-formats.md; default: not written)");
   cmd->add_flag("--json", o->json, "Print JSON");
   cmd->add_option("--save-sampler", o->save_sampler,
-                  "save the preprocessed sampler to this HDF5 file for later runs");
+                  "save the preprocessed sampler to this HDF5 file for later runs (default: not "
+                  "saved)");
   cmd->add_option("--load-sampler", o->load_sampler,
-                  "use a sampler saved by --save-sampler (must match SCORES and --cover)")
+                  "use a sampler saved by --save-sampler (must match SCORES and --cover; "
+                  "default: build it)")
       ->check(CLI::ExistingFile);
   add_memory_limit_option(*cmd, o->memory_limit);
   add_threads_option(*cmd, o->threads);
+  add_force_option(*cmd, o->force);
   cmd->callback([o] { run_draw(*o); });
 }
 

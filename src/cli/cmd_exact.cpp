@@ -8,10 +8,13 @@
 
 #include "command.hpp"
 #include "common.hpp"
+#include "covey/chains/chain_runner.hpp"
+#include "covey/core/atomic_file.hpp"
 #include "covey/core/error.hpp"
 #include "covey/core/logmath.hpp"
 #include "covey/core/memory.hpp"
 #include "covey/exact/exact_posterior.hpp"
+#include "covey/graph/features.hpp"
 #include "covey/scores/score_io.hpp"
 
 namespace covey::cli {
@@ -21,18 +24,19 @@ struct ExactArgs {
   std::string scores;
   std::string output;
   std::string route = "auto";
-  bool json = false;
+  bool json = false, force = false;
   std::size_t draws = 0;
   std::uint64_t seed = 1;
   int threads = 0;
   std::string memory_limit;  // --memory-limit; empty: default_memory_limit()
-  double max_seconds = 3600;
-  int top = 10;
+  std::string max_time = "1h";
+  std::size_t top = 20;
   int cover = -1;  // -1: no cover bound
-  std::size_t cover_draws = 10000;
+  std::size_t cover_draws = 20000;
 };
 
 struct Feature {
+  FeatureKind kind;
   int from, to;
   double probability;
 };
@@ -41,14 +45,15 @@ std::vector<Feature> edges_of(const ExactPosterior& p) {
   std::vector<Feature> out;
   for (int u = 0; u < p.num_variables; ++u)
     for (int v = 0; v < p.num_variables; ++v)
-      if (u != v) out.push_back({u, v, p.edge(u, v)});
+      if (u != v) out.push_back({FeatureKind::kEdge, u, v, p.edge(u, v)});
   return out;
 }
 
 std::vector<Feature> adjacencies_of(const ExactPosterior& p) {
   std::vector<Feature> out;
   for (int u = 0; u < p.num_variables; ++u)
-    for (int v = u + 1; v < p.num_variables; ++v) out.push_back({u, v, p.adjacency(u, v)});
+    for (int v = u + 1; v < p.num_variables; ++v)
+      out.push_back({FeatureKind::kAdjacency, u, v, p.adjacency(u, v)});
   return out;
 }
 
@@ -56,7 +61,7 @@ std::vector<Feature> ancestors_of(const ExactPosterior& p) {
   std::vector<Feature> out;
   for (int u = 0; u < p.num_variables; ++u)
     for (int v = 0; v < p.num_variables; ++v)
-      if (u != v) out.push_back({u, v, p.ancestor(u, v)});
+      if (u != v) out.push_back({FeatureKind::kAncestor, u, v, p.ancestor(u, v)});
   return out;
 }
 
@@ -68,25 +73,28 @@ nlohmann::json to_json(const std::vector<Feature>& features, const ScoreTable& t
   return list;
 }
 
+// Features are named as every command names them (feature_label).
 void print_top(const std::string& title, std::vector<Feature> features, const ScoreTable& table,
-               const char* arrow, int top) {
+               std::size_t top) {
   std::stable_sort(features.begin(), features.end(), [](const Feature& a, const Feature& b) {
     return a.probability > b.probability;
   });
-  const std::size_t shown = std::min<std::size_t>(features.size(), std::max(top, 0));
+  const std::size_t shown = top == 0 ? features.size() : std::min(features.size(), top);
+  const std::vector<std::string> names = variable_names(table.variables());
   std::cout << title << " (top " << shown << " of " << features.size() << " by probability):\n";
   for (std::size_t i = 0; i < shown; ++i) {
     char prob[32];
     std::snprintf(prob, sizeof prob, "%.6f", features[i].probability);
-    std::cout << "  " << prob << "  " << table.name(features[i].from) << ' ' << arrow << ' '
-              << table.name(features[i].to) << '\n';
+    const Feature& f = features[i];
+    std::cout << "  " << prob << "  " << feature_label(FeatureId{f.kind, f.from, f.to}, names)
+              << '\n';
   }
 }
 
 ExactLimits limits_of(const ExactArgs& a) {
   ExactLimits limits;
   limits.max_bytes = memory_limit(a.memory_limit);
-  limits.max_seconds = a.max_seconds;
+  limits.max_seconds = parse_duration(a.max_time, "--max-time");
   return limits;
 }
 
@@ -102,6 +110,8 @@ void run_exact(const ExactArgs& a) {
   const auto thread_limit = apply_threads(a.threads);
 
   const ScoreTable table = load_scores(a.scores);
+  // The table read: an existing file is refused before the work (write_exact_draws checks again).
+  if (!a.output.empty()) require_new_output(a.output, a.force);
   // The mass of D_k is enumerated for small n and otherwise estimated from exact draws: the
   // written ones, or --cover-draws of them when none are written.
   const bool cover_from_draws = a.cover >= 0 && table.num_variables() > kCoverMassEnumerationMax;
@@ -130,7 +140,8 @@ void run_exact(const ExactArgs& a) {
                                                  2000, memory_limit(a.memory_limit));
   }
 
-  if (a.draws > 0) write_exact_draws(a.output, table, engine, dags, a.seed, command_line());
+  if (a.draws > 0)
+    write_exact_draws(a.output, table, engine, dags, a.seed, command_line(), a.force);
 
   if (a.json) {
     nlohmann::json out;
@@ -177,9 +188,9 @@ void run_exact(const ExactArgs& a) {
             << "log total weight (log Z): " << line << '\n';
   std::snprintf(line, sizeof line, "%.2g", post.discrepancy);
   std::cout << "numerical discrepancy between independent evaluations: " << line << '\n';
-  print_top("edges", edges_of(post), table, "->", a.top);
-  print_top("adjacencies", adjacencies_of(post), table, "--", a.top);
-  print_top("ancestor relations", ancestors_of(post), table, "~>", a.top);
+  print_top("edges", edges_of(post), table, a.top);
+  print_top("adjacencies", adjacencies_of(post), table, a.top);
+  print_top("ancestor relations", ancestors_of(post), table, a.top);
   if (a.draws > 0)
     std::cout << a.draws << " exact draws (seed " << a.seed << ") written to " << a.output << '\n';
   if (cover_mass) {
@@ -214,27 +225,34 @@ void setup_exact(CLI::App& app) {
   auto args = std::make_shared<ExactArgs>();
   cmd->add_option("SCORES", args->scores, "score table (HDF5 or .tsv)")->required();
   cmd->add_flag("--json", args->json, "Print JSON");
-  cmd->add_option("--draws", args->draws, "Exact independent draws to write (needs -o)")
+  cmd->add_option("--draws", args->draws,
+                  "number of exact independent draws to write, e.g. 100000 or 1e5 (needs -o; "
+                  "default: none)")
+      ->transform(kCount)
       ->check(kPositive);
-  cmd->add_option("--seed", args->seed, "Seed of the draws (default 1)");
-  cmd->add_option("-o,--output", args->output, "HDF5 file for the draws (kind exact-draws)");
+  add_seed_option(*cmd, args->seed, "the draws");
+  cmd->add_option("-o,--output", args->output,
+                  "HDF5 file for the draws (kind exact-draws; default: not written)");
   cmd->add_option("--route", args->route,
                   "auto, layered (positive sums; draws) or signed (inclusion-exclusion, less "
-                  "memory)");
+                  "memory)")
+      ->capture_default_str();
   add_memory_limit_option(*cmd, args->memory_limit);
-  cmd->add_option("--max-seconds", args->max_seconds,
-                  "Refuse when the estimated single-core time exceeds this (default 3600)")
-      ->check(kPositive);
-  cmd->add_option("--top", args->top, "Features listed per kind in the text output (default 10)")
-      ->check(kNonNegative);
+  add_max_time_option(*cmd, args->max_time,
+                      "Refuse when the estimated single-core time exceeds this");
+  add_top_option(*cmd, args->top);
   cmd->add_option("--cover", args->cover,
-                  "Also the posterior mass of D_k (moral graph vertex cover <= k) and log Z_k")
+                  "Also the posterior mass of D_k (moral graph vertex cover <= k) and log Z_k "
+                  "(default: none)")
       ->check(kNonNegative);
   cmd->add_option("--cover-draws", args->cover_draws,
-                  "Exact draws that estimate the D_k mass above 6 variables when --draws is not "
-                  "given (default 10000)")
-      ->check(kPositive);
+                  "Exact draws that estimate the mass of D_k above 6 variables when --draws is "
+                  "not given")
+      ->transform(kCount)
+      ->check(kPositive)
+      ->capture_default_str();
   add_threads_option(*cmd, args->threads);
+  add_force_option(*cmd, args->force);
   cmd->callback([args] { run_exact(*args); });
 }
 

@@ -27,15 +27,15 @@ void setup_export(CLI::App& app) {
       ->required();
   cmd->add_option("--probabilities", o->request.probabilities,
                   "CSV of one row per feature: kind, from, to, probability, mcse, "
-                  "mcse_reliable, rhat, ess_bulk, ess_tail (NA: undefined)");
+                  "mcse_reliable, rhat, ess_bulk, ess_tail (NA: undefined; default: not written)");
   cmd->add_option("--edge-draws", o->request.edge_draws,
                   "CSV of draws: .chain, .iteration, .draw and one 0/1 column per directed edge "
-                  "(named FROM->TO)");
+                  "(named FROM->TO; default: not written)");
   cmd->add_option("--features", o->features,
                   "Feature kinds of --probabilities, comma-separated: edges, adjacencies, "
                   "ancestors, score")
       ->capture_default_str();
-  cmd->add_flag("--force", o->request.force, "Replace existing output files");
+  add_force_option(*cmd, o->request.force);
   add_threads_option(*cmd, o->threads);
   cmd->callback([o] {
     const auto threads = apply_threads(o->threads);

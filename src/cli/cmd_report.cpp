@@ -18,9 +18,10 @@ struct ReportOptions {
   std::vector<std::string> runs;
   std::string compare, output, title;
   std::string features = "edges,adjacencies,ancestors,score";
+  std::string memory_limit;
   double consensus = 0.5;
   Thresholds thresholds;
-  bool json = false;
+  bool json = false, force = false;
   int threads = 0;
 };
 
@@ -37,7 +38,8 @@ void setup_report(CLI::App& app) {
   cmd->add_option("-o,--output", o->output, "folder for index.html and its figures")->required();
   cmd->add_option("--compare", o->compare,
                   "Another result of the same table to compare edge by edge: exact "
-                  "cover-bounded draws, exact draws, a score table (exact), or a chain run");
+                  "cover-bounded draws, exact draws, a score table (exact), or a chain run "
+                  "(default: none)");
   cmd->add_option("--features", o->features,
                   "Feature kinds diagnosed, comma-separated: edges, adjacencies, ancestors, score")
       ->capture_default_str();
@@ -46,14 +48,19 @@ void setup_report(CLI::App& app) {
       ->capture_default_str();
   cmd->add_option("--rhat", o->thresholds.max_rhat, "R-hat must be below this (> 1)")
       ->capture_default_str();
-  cmd->add_option("--ess", o->thresholds.min_ess, "bulk and tail ESS must exceed this")
+  cmd->add_option("--ess", o->thresholds.min_ess, "bulk and tail ESS must exceed this (>= 0)")
       ->capture_default_str()
-      ->check(kPositive);
-  cmd->add_option("--title", o->title, "Title of the page");
+      ->check(kNonNegative);
+  cmd->add_option("--title", o->title,
+                  "Title of the page (default: Posterior over DAG structures)");
+  add_memory_limit_option(*cmd, o->memory_limit);
+  add_force_option(*cmd, o->force);
   cmd->add_flag("--json", o->json, "Print JSON: output folder, verdict, features");
   add_threads_option(*cmd, o->threads);
   cmd->callback([o] {
     const auto threads = apply_threads(o->threads);
+    // An existing report is refused before the runs are read (write_report checks again).
+    require_report_folder(o->output, o->force);
     RunReportRequest request;
     request.runs = o->runs;
     request.compare = o->compare;
@@ -61,8 +68,9 @@ void setup_report(CLI::App& app) {
     request.thresholds = o->thresholds;
     request.consensus = o->consensus;
     request.title = o->title;
+    request.memory_limit = memory_limit(o->memory_limit);
     const ReportData data = run_report_data(request);
-    write_report(data, o->output);
+    write_report(data, o->output, o->force);
     const ConvergenceVerdict v = assess_convergence(data);
     const char* state = to_string(v.state);
     const VerdictText text = report_verdict_text(data);

@@ -21,7 +21,7 @@ struct ScoreArgs {
   std::string count_column;
   std::vector<std::string> discrete_columns, bins;
   bool discrete = false, gaussian = false, drop_incomplete = false, allow_constant = false;
-  bool raw_units = false, json = false;
+  bool raw_units = false, json = false, force = false;
   int threads = 0;
   ScoreOptions options;
   CLI::Option* ess = nullptr;
@@ -94,6 +94,8 @@ void run(ScoreArgs& a) {
                      " is Gaussian");
   a.options.bge.standardize = !a.raw_units;
   a.options.constraints = read_edge_constraints(a.forbid, a.require, data.variables());
+  // The inputs are valid: refuse an existing table before the scoring (save_scores checks again).
+  require_new_output(a.output, a.force);
 
   const auto threads = apply_threads(a.threads);
   Progress progress("scoring");
@@ -104,7 +106,7 @@ void run(ScoreArgs& a) {
   ScoreTable table = score_data(data, a.options);
   progress.finish();
   table.metadata().command_line = command_line();
-  save_scores(table, a.output);
+  save_scores(table, a.output, a.force);
   // Notes come after success, so that a refusal stays a one-line message.
   for (const std::string& note : data.notes()) std::cerr << "covey score: note: " << note << "\n";
   const double seconds =
@@ -177,7 +179,8 @@ void setup_score(CLI::App& app) {
       "BGe: score Gaussian columns in their own units (default: standardize each column to mean "
       "0 and standard deviation 1, so the scores do not depend on units)");
   cmd->add_option("--prior", a->prior, "Structure prior: uniform, edge-penalty or parent-count")
-      ->check(CLI::IsMember({"uniform", "edge-penalty", "parent-count"}));
+      ->check(CLI::IsMember({"uniform", "edge-penalty", "parent-count"}))
+      ->capture_default_str();
   a->edge_penalty = cmd->add_option("--edge-penalty", a->options.edge_penalty,
                                     "Prior log-odds against each edge (--prior edge-penalty; "
                                     "log factor -penalty*|S|; default 1)");
@@ -187,10 +190,13 @@ void setup_score(CLI::App& app) {
                   "Candidate parents per node, chosen by a pairwise screen (1-64; default all for "
                   "n <= 20 variables, else 20)")
       ->check(CLI::Range(1, kMaxCandidates));
-  cmd->add_option("--forbid", a->forbid, "TSV of forbidden edges: from<TAB>to per line");
-  cmd->add_option("--require", a->require, "TSV of required edges: from<TAB>to per line");
+  cmd->add_option("--forbid", a->forbid,
+                  "TSV of forbidden edges: from<TAB>to per line (default: none)");
+  cmd->add_option("--require", a->require,
+                  "TSV of required edges: from<TAB>to per line (default: none)");
   add_memory_limit_option(*cmd, a->memory_limit);
   add_threads_option(*cmd, a->threads);
+  add_force_option(*cmd, a->force);
   cmd->add_flag("--json", a->json, "Print a JSON summary");
   cmd->callback([a] { run(*a); });
 }

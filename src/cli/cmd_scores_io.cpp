@@ -15,12 +15,14 @@ void setup_import(CLI::App& app) {
   auto* cmd = app.add_subcommand("import-scores", "Convert a TSV file of local scores to HDF5");
   auto input = std::make_shared<std::string>();
   auto output = std::make_shared<std::string>();
+  auto force = std::make_shared<bool>(false);
   cmd->add_option("FILE", *input, "TSV local scores (see docs/file-formats.md)")->required();
   cmd->add_option("-o,--output", *output, "HDF5 score table to write")->required();
-  cmd->callback([input, output] {
+  add_force_option(*cmd, *force);
+  cmd->callback([input, output, force] {
     ScoreTable table = read_scores_tsv(*input);
     table.metadata().command_line = command_line();
-    write_scores_hdf5(table, *output);
+    write_scores_hdf5(table, *output, *force);
   });
 }
 
@@ -28,9 +30,11 @@ void setup_export(CLI::App& app) {
   auto* cmd = app.add_subcommand("export-scores", "Write a score table as TSV local scores");
   auto input = std::make_shared<std::string>();
   auto output = std::make_shared<std::string>();
+  auto force = std::make_shared<bool>(false);
   cmd->add_option("SCORES", *input, "score table (HDF5 or .tsv)")->required();
   cmd->add_option("-o,--output", *output, "TSV file to write")->required();
-  cmd->callback([input, output] { write_scores_tsv(load_scores(*input), *output); });
+  add_force_option(*cmd, *force);
+  cmd->callback([input, output, force] { write_scores_tsv(load_scores(*input), *output, *force); });
 }
 
 void setup_info(CLI::App& app) {

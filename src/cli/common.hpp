@@ -16,9 +16,20 @@ const std::string& command_line();
 void set_command_line(int argc, char** argv);
 
 // Number checks for options, named like CLI11's own (the help shows INT:POSITIVE, ...) but with
-// a plain message: "--count: must be positive (got 0)".
+// a plain message: "--draws: must be positive (got 0)".
 extern const CLI::Validator kPositive;
 extern const CLI::Validator kNonNegative;
+// Counts as users type them, in every option that takes one: 100000, 1e5, 2.5e7 (a whole
+// number); rewrites the text to its digits for the typed option behind it.
+extern const CLI::Validator kCount;
+// The whole number `text` stands for (see kCount); InputError naming `option` otherwise.
+std::uint64_t parse_count(const std::string& text, const std::string& option);
+
+// The one spelling of the options several commands share (tests/cli_vocabulary_test.cpp holds
+// every command to it): --top, --max-time, --seed.
+void add_top_option(CLI::App& cmd, std::size_t& top);
+void add_max_time_option(CLI::App& cmd, std::string& text, const std::string& meaning);
+void add_seed_option(CLI::App& cmd, std::uint64_t& seed, const std::string& what);
 
 // Adds --threads to a subcommand; apply_threads() installs the limit (0 = all cores).
 void add_threads_option(CLI::App& cmd, int& threads);
@@ -46,6 +57,10 @@ std::string pad_right(const std::string& text, std::size_t width);
 std::string option_flag(const std::string& field);
 // An exception's message as the CLI prints it: OptionError fields spelled as their flags.
 std::string error_message(const std::exception& error);
+
+// Every command's options as JSON (names, flag, required, default, type, help): what the hidden
+// `covey --list-options-json` prints for the vocabulary test.
+nlohmann::json options_json(const CLI::App& app);
 
 // Prints JSON to stdout, two-space indented, with a trailing newline.
 void print_json(const nlohmann::json& value);

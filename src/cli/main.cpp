@@ -3,6 +3,8 @@
 #include <exception>
 #include <iostream>
 #include <new>
+#include <string>
+#include <utility>
 
 #include "command.hpp"
 #include "common.hpp"
@@ -19,6 +21,22 @@ int main(int argc, char** argv) {
   app.require_subcommand(1);
   app.fallthrough(false);
   covey::cli::setup_all_commands(app);
+  // Not an option of the help: the option table that tests/cli_vocabulary_test.cpp checks.
+  if (argc == 2 && std::string(argv[1]) == "--list-options-json") {
+    covey::cli::print_json(covey::cli::options_json(app));
+    return 0;
+  }
+  // A word that names no command: say so and list them, rather than the parser's wording.
+  std::string names;
+  bool known = false;
+  for (const CLI::App* cmd : std::as_const(app).get_subcommands({})) {
+    names += (names.empty() ? "" : ", ") + cmd->get_name();
+    known = known || (argc >= 2 && cmd->get_name() == argv[1]);
+  }
+  if (argc >= 2 && argv[1][0] != '-' && !known) {
+    std::cerr << "covey: unknown command '" << argv[1] << "'; commands: " << names << "\n";
+    return 2;
+  }
   try {
     app.parse(argc, argv);
   } catch (const CLI::CallForHelp& e) {

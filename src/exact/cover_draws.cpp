@@ -9,6 +9,7 @@
 #include <limits>
 
 #include "core/progress.hpp"
+#include "covey/core/atomic_file.hpp"
 #include "covey/core/error.hpp"
 #include "covey/core/memory.hpp"
 #include "covey/core/proportion.hpp"
@@ -83,7 +84,8 @@ std::vector<EdgeFrequency> edge_frequencies(const std::vector<Dag>& dags, int n)
 
 // Cover draws are the common draws layout (draws_file.hpp) of kind "cover-draws", with the
 // sampler's figures as attributes.
-void write_cover_draws(const std::string& path, const CoverDrawsFile& d) {
+void write_cover_draws(const std::string& path, const CoverDrawsFile& d, bool overwrite) {
+  require_new_output(path, overwrite);
   const Attributes attributes = {
       {"kind", std::string(kDrawsKind)},
       {"cover_bound", static_cast<long long>(d.cover_bound)},

@@ -11,7 +11,6 @@
 
 #include "core/h5.hpp"
 #include "cover_sampler_impl.hpp"
-#include "core/h5.hpp"
 #include "covey/core/atomic_file.hpp"
 #include "covey/core/error.hpp"
 #include "covey/core/memory.hpp"
@@ -81,7 +80,8 @@ std::uint64_t tables_digest(long long k, long long n, const std::vector<std::uin
 
 }  // namespace
 
-void CoverSampler::save(const std::string& path) const {
+void CoverSampler::save(const std::string& path, bool overwrite) const {
+  require_new_output(path, overwrite);
   const Impl& d = *impl_;
   AtomicOutput out(path);
   h5::guard(path, [&] {

@@ -3,6 +3,7 @@
 #include <string>
 #include <vector>
 
+#include "covey/core/atomic_file.hpp"
 #include "covey/core/attributes.hpp"
 #include "covey/core/version.hpp"
 #include "covey/exact/exact_posterior.hpp"
@@ -12,7 +13,8 @@ namespace covey {
 
 void write_exact_draws(const std::string& path, const ScoreTable& table, const ExactEngine& engine,
                        const std::vector<Dag>& draws, std::uint64_t seed,
-                       const std::string& command_line) {
+                       const std::string& command_line, bool overwrite) {
+  require_new_output(path, overwrite);
   std::vector<double> log_weights;
   log_weights.reserve(draws.size());
   for (const Dag& d : draws) log_weights.push_back(log_weight(table, d));

@@ -121,20 +121,20 @@ ExactCost plan_exact(int n, ExactRoute requested, bool draws, const ExactLimits&
     if (fits(layered)) return layered;
     throw ResourceError("exact " + std::string(draws ? "draws" : "posterior") + " for " +
                         std::to_string(n) + " variables needs " + describe(layered) +
-                        ", beyond the " + limit_text + " (raise --memory-limit or --max-seconds)");
+                        ", beyond the " + limit_text + " (raise --memory-limit or --max-time)");
   }
   if (requested == ExactRoute::kSigned) {
     if (fits(signed_cost)) return signed_cost;
     throw ResourceError("exact posterior for " + std::to_string(n) + " variables needs " +
                         describe(signed_cost) + ", beyond the " + limit_text +
-                        " (raise --memory-limit or --max-seconds)");
+                        " (raise --memory-limit or --max-time)");
   }
   if (fits(layered)) return layered;
   if (fits(signed_cost)) return signed_cost;
   throw ResourceError("exact posterior for " + std::to_string(n) + " variables needs " +
                       describe(layered) + " or " + describe(signed_cost) + ", beyond the " +
                       limit_text +
-                      " (raise --memory-limit or --max-seconds, or use the cover-bounded or MCMC "
+                      " (raise --memory-limit or --max-time, or use the cover-bounded or MCMC "
                       "commands)");
 }
 

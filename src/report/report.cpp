@@ -121,21 +121,6 @@ void validate(const ReportData& d) {
 // An existing folder is replaced only when it is empty or holds an earlier covey report.
 constexpr const char* kGeneratorMeta = "<meta name=\"generator\" content=\"covey report";
 
-void require_replaceable(const std::string& dir) {
-  namespace fs = std::filesystem;
-  if (!fs::exists(dir)) return;
-  if (!fs::is_directory(dir)) throw InputError(dir + ": exists and is not a folder");
-  if (fs::is_empty(dir)) return;
-  std::ifstream in(fs::path(dir) / "index.html", std::ios::binary);
-  std::string head(4096, '\0');
-  in.read(head.data(), static_cast<std::streamsize>(head.size()));
-  head.resize(static_cast<std::size_t>(in.gcount()));
-  if (head.find(kGeneratorMeta) == std::string::npos)
-    throw InputError(dir +
-                     ": folder exists and is not a covey report; choose another folder or "
-                     "remove it first");
-}
-
 // --- text formatting ---------------------------------------------------------------------------
 
 std::string fixed(double v, int decimals) {
@@ -864,9 +849,26 @@ std::string page_html(const ReportData& d, const ConvergenceVerdict& v,
 
 }  // namespace
 
-void write_report(const ReportData& data, const std::string& dir) {
+void require_report_folder(const std::string& dir, bool overwrite) {
+  namespace fs = std::filesystem;
+  if (!fs::exists(dir)) return;
+  if (!fs::is_directory(dir)) throw InputError(dir + ": exists and is not a folder");
+  if (fs::is_empty(dir)) return;
+  std::ifstream in(fs::path(dir) / "index.html", std::ios::binary);
+  std::string head(4096, '\0');
+  in.read(head.data(), static_cast<std::streamsize>(head.size()));
+  head.resize(static_cast<std::size_t>(in.gcount()));
+  if (head.find(kGeneratorMeta) == std::string::npos)
+    throw InputError(dir +
+                     ": folder exists and is not a covey report; choose another folder or "
+                     "remove it first");
+  // An earlier report is the user's file too: the same rule as require_new_output.
+  require_new_output(dir + "/index.html", overwrite);
+}
+
+void write_report(const ReportData& data, const std::string& dir, bool overwrite) {
   validate(data);
-  require_replaceable(dir);
+  require_report_folder(dir, overwrite);
   AtomicDirectory out(dir);
   const std::string& tmp = out.temp_path();
   const ConvergenceVerdict verdict = assess_convergence(data);

@@ -59,8 +59,8 @@ RunFacts run_facts(const std::vector<ChainRun>& runs, const RunDiagnostics& d) {
     facts.extra.push_back(
         {"block moves", std::to_string(o.block_size) + " nodes at rate " + number(o.block_rate)});
   if (o.teleport_cover >= 0)
-    facts.extra.push_back({"teleports", "from D_" + std::to_string(o.teleport_cover) +
-                                            " at rate " + number(o.teleport_rate)});
+    facts.extra.push_back({"teleports", "from D_" + std::to_string(o.teleport_cover) + " at rate " +
+                                            number(o.teleport_rate)});
   if (o.cover_limit >= 0)
     facts.extra.push_back({"target restricted to", "D_" + std::to_string(o.cover_limit)});
   return facts;
@@ -197,6 +197,7 @@ ReportData run_report_data(const RunReportRequest& request) {
   if (!request.compare.empty()) {
     CompareOptions co;
     co.kinds = FeatureKinds{true, false, false, false};
+    co.memory_limit = request.memory_limit;
     other.emplace(PosteriorEstimate::load({request.compare}, co));
     if (other->variables() != runs.front().variables() ||
         other->table_fingerprint() != runs.front().table_fingerprint())

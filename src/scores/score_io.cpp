@@ -85,7 +85,8 @@ void check_offsets(const std::vector<std::int64_t>& offsets, std::size_t n, std:
 
 }  // namespace
 
-void write_scores_hdf5(const ScoreTable& table, const std::string& path) {
+void write_scores_hdf5(const ScoreTable& table, const std::string& path, bool overwrite) {
+  require_new_output(path, overwrite);
   AtomicOutput out(path);
   h5::guard(path, [&] {
     H5::H5File file = h5::create(out.temp_path());
@@ -278,7 +279,8 @@ ScoreTable read_scores_tsv(const std::string& path) {
   return ScoreTable(std::move(variables), std::move(nodes), std::move(meta));
 }
 
-void write_scores_tsv(const ScoreTable& table, const std::string& path) {
+void write_scores_tsv(const ScoreTable& table, const std::string& path, bool overwrite) {
+  require_new_output(path, overwrite);
   std::ostringstream out;
   out.precision(17);
   out << "variables";
@@ -325,11 +327,11 @@ ScoreTable load_scores(const std::string& path) {
   return table;
 }
 
-void save_scores(const ScoreTable& table, const std::string& path) {
+void save_scores(const ScoreTable& table, const std::string& path, bool overwrite) {
   if (is_tsv_path(path))
-    write_scores_tsv(table, path);
+    write_scores_tsv(table, path, overwrite);
   else
-    write_scores_hdf5(table, path);
+    write_scores_hdf5(table, path, overwrite);
 }
 
 }  // namespace covey

@@ -51,7 +51,7 @@ def test_best_equals_cli_json(demo_scores):
 
 
 def test_cover_draws_equal_cli_json(demo_scores):
-    cli = run_covey("draw", demo_scores, "--cover", 3, "--count", 2000, "--seed", 9, "--json")
+    cli = run_covey("draw", demo_scores, "--cover", 3, "--draws", 2000, "--seed", 9, "--json")
     draws = covey.draw(covey.read_scores(demo_scores), cover=3, count=2000, seed=9)
     assert draws.trials == cli["trials"]
     assert draws.log_upper_bound == cli["log_upper_bound"]

@@ -64,7 +64,7 @@ def test_flags_in_library_messages_read_as_keywords(tmp_path):
         covey.chain(table, tmp_path / "run.h5", steps=10, teleport_cover=1, teleport_rate=2)
     with pytest.raises(covey.InputError, match="^give a stopping rule: steps N, max_time"):
         covey.chain(table, tmp_path / "run.h5")
-    with pytest.raises(covey.ResourceError, match=r"\(raise memory_limit or max_seconds"):
+    with pytest.raises(covey.ResourceError, match=r"\(raise memory_limit or max_time"):
         covey.exact(table, memory_limit=16)
     with pytest.raises(covey.InputError, match="/--odd/scores.h5: cannot open"):
         covey.read_scores(tmp_path / "--odd" / "scores.h5")

@@ -23,9 +23,12 @@ PosteriorSource detect_posterior_source(const std::string& path);
 
 struct CompareOptions {
   FeatureKinds kinds{true, true, true, false};  // the log score is not compared
-  int cover = -1;                   // k of the mass of D_k when no side is cover-bounded
+  // k of the mass of D_k when no side is cover-bounded; -1: the teleport cover of a chain-run
+  // side (the class its teleports drew from), else no mass.
+  int cover = -1;
   std::size_t exact_draws = 20000;  // exact draws for the mass of D_k from a table with n > 6
   std::uint64_t seed = 1;           // of those draws
+  std::uint64_t memory_limit = 0;   // of the exact engines of a score table; 0: the default
 };
 
 struct Estimate {
@@ -47,7 +50,8 @@ class PosteriorEstimate {
   const std::string& label() const;  // e.g. "chain run run.h5 (4 chains x 1000 draws)"
   const std::vector<std::string>& variables() const;
   std::uint64_t table_fingerprint() const;
-  int cover_bound() const;  // k of cover-bounded draws, else -1
+  int cover_bound() const;     // k of cover-bounded draws, else -1
+  int teleport_cover() const;  // k of a chain run's teleports (its stored options), else -1
   // log Z of the class the source is exact on (log Z_k with its 95% interval for cover draws,
   // log Z with lo = hi for an exact table); nullopt otherwise.
   struct LogWeight {

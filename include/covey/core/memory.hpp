@@ -19,14 +19,14 @@ std::string format_bytes(double bytes);
 
 // The check before a large allocation: throws ResourceError("WHAT needs about X, more than the
 // memory limit of Y; SHRINK") when `bytes` exceeds `limit` (0: default_memory_limit()).
-// `shrink` names the option that makes it smaller, e.g. "a smaller --count shrinks it".
+// `shrink` names the option that makes it smaller, e.g. "a smaller --draws shrinks it".
 void require_memory(double bytes, std::uint64_t limit, const std::string& what,
                     const std::string& shrink);
 
 // Bytes that `count` DAGs of n variables take in memory (one parent word per node each).
 double dag_list_bytes(double count, int num_variables);
 // The check before holding `count` draws of n variables (and the rows that write them): throws
-// the ResourceError of require_memory naming `option` (e.g. "--count") as what shrinks it.
+// the ResourceError of require_memory naming `option` (e.g. "--draws") as what shrinks it.
 void require_draws_memory(double count, int num_variables, const std::string& option,
                           std::uint64_t limit = 0);
 

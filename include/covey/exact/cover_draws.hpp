@@ -53,7 +53,9 @@ struct CoverDrawsFile {
   std::vector<double> log_weights;  // log w(G) of each draw
 };
 
-void write_cover_draws(const std::string& path, const CoverDrawsFile& draws);  // atomic
+// Atomic; refuses an existing `path` unless `overwrite` (require_new_output).
+void write_cover_draws(const std::string& path, const CoverDrawsFile& draws,
+                       bool overwrite = false);
 // Throws InputError naming the file when it is not a readable cover-draws file.
 CoverDrawsFile read_cover_draws(const std::string& path);
 

@@ -73,8 +73,9 @@ class CoverSampler {
   // the split it came from. (draw() accepts it iff that split is canonical.)
   Dag draw_proposal(Rng& rng, std::uint64_t* cover = nullptr) const;
 
-  // HDF5, atomic; stores the table fingerprint. Holds no memory beyond the tables.
-  void save(const std::string& path) const;
+  // HDF5, atomic; stores the table fingerprint. Holds no memory beyond the tables. An existing
+  // `path` is refused unless `overwrite` (require_new_output).
+  void save(const std::string& path, bool overwrite = false) const;
   // Checks the fingerprint, and the memory of the tables against options.memory_limit_bytes
   // before reading them (ResourceError as in build).
   static CoverSampler load(const std::string& path, const ScoreTable& table,

@@ -115,10 +115,11 @@ double exact_log_total_weight_signed(const ScoreTable& table, long long* clamped
 // Writes `draws` of `engine` (drawn by draw_many(draws.size(), seed)) as a draws file of kind
 // "exact-draws" (draws_file.hpp): each draw's log weight, and as attributes the seed, log Z, the
 // route, the draws per random stream, `command_line` and this build's version. Read it back with
-// read_draws. Atomic, like write_draws.
+// read_draws. Atomic, like write_draws; an existing `path` is refused unless `overwrite`
+// (require_new_output).
 void write_exact_draws(const std::string& path, const ScoreTable& table, const ExactEngine& engine,
                        const std::vector<Dag>& draws, std::uint64_t seed,
-                       const std::string& command_line);
+                       const std::string& command_line, bool overwrite = false);
 
 }  // namespace covey
 

@@ -112,9 +112,14 @@ extern const char* const kCausalCaution;
 
 // Writes the report folder `dir` (index.html and its images) atomically: everything is built in
 // a temporary folder beside it and renamed into place, so an existing report is replaced only
-// on success. An existing `dir` must be empty or an earlier covey report; anything else is
-// refused (InputError) rather than deleted. Throws InputError for inconsistent data (indices
-// out of range, lengths that differ), naming what is wrong.
-void write_report(const ReportData& data, const std::string& dir);
+// on success. An existing `dir` must be empty or an earlier covey report, which is replaced only
+// with `overwrite` (the CLI's --force); see require_report_folder. Throws InputError for
+// inconsistent data (indices out of range, lengths that differ), naming what is wrong.
+void write_report(const ReportData& data, const std::string& dir, bool overwrite = false);
+
+// The refusals of write_report before any work: a `dir` that exists and is not a folder, a
+// folder with files that is not a covey report (InputError), and an earlier report without
+// `overwrite` (OptionError naming the folder and {overwrite}). An empty folder is used.
+void require_report_folder(const std::string& dir, bool overwrite);
 
 }  // namespace covey

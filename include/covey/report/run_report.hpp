@@ -24,8 +24,9 @@ struct RunReportRequest {
   std::string compare;            // another posterior of the same table, or empty
   FeatureKinds kinds;             // edges are always added (heat map, consensus, comparison)
   Thresholds thresholds;
-  double consensus = 0.5;  // edges above this form the consensus DAG, in [0, 1)
-  std::string title;       // empty: the default title
+  double consensus = 0.5;          // edges above this form the consensus DAG, in [0, 1)
+  std::string title;               // empty: the default title
+  std::uint64_t memory_limit = 0;  // of the exact engine of a score table to compare; 0: default
 };
 
 // The report model of the request: opens the runs, loads the other posterior first (a file of
