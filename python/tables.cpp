@@ -145,13 +145,14 @@ void bind_tables(py::module_& m) {
            ">>> table.info()['score']\n'bdeu'")
       .def(
           "save",
-          [](const ScoreTable& t, const py::object& path) {
+          [](const ScoreTable& t, const py::object& path, bool force) {
             const std::string p = py::str(py::module_::import("os").attr("fspath")(path));
             py::gil_scoped_release release;
-            save_scores(t, p);
+            save_scores(t, p, force);
           },
-          py::arg("path"),
-          "Writes the table: `.tsv` (or `.txt`) as TSV, anything else as HDF5 (atomic).\n\n"
+          py::arg("path"), py::kw_only(), py::arg("force") = false,
+          "Writes the table: `.tsv` (or `.txt`) as TSV, anything else as HDF5 (atomic). An\n"
+          "existing file is replaced only with force=True, like `covey score --force`.\n\n"
           ">>> table.save('scores.h5')")
       .def("__repr__", [](const ScoreTable& t) {
         return "<covey.ScoreTable: " + std::to_string(t.num_variables()) + " variables, " +

@@ -98,6 +98,10 @@ def test_saved_table_reads_back(tmp_path, demo_scores):
     assert again.variables == table.variables
     assert again.total_parent_sets == table.total_parent_sets
     assert covey.exact(again).log_z == pytest.approx(covey.exact(table).log_z, abs=1e-9)
+    # A second save over the same file is refused unless force=True, like `--force`.
+    with pytest.raises(covey.OptionError, match="exists; force replaces it"):
+        table.save(tmp_path / "scores.tsv")
+    table.save(tmp_path / "scores.tsv", force=True)
 
 
 def test_bins_and_column_kinds_give_the_cli_table(tmp_path, sensors_csv):
