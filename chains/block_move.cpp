@@ -38,10 +38,10 @@ BlockMove::BlockMove(const ScoreTable& table, const ChainConfig& config, BlockFa
       family_(config.block_family),
       fault_(fault) {
   if (block_size_ < 0 || block_size_ > std::min(n_, kMaxBlockSize))
-    throw InputError("--block-size: " + std::to_string(block_size_) + " is not between 1 and " +
-                     std::to_string(std::min(n_, kMaxBlockSize)));
+    throw OptionError("{block_size}: " + std::to_string(block_size_) + " is not between 1 and " +
+                      std::to_string(std::min(n_, kMaxBlockSize)));
   if (config.block_rate > 0 && block_size_ < 1)
-    throw InputError("--block-rate > 0 needs --block-size of at least 1");
+    throw OptionError("{block_rate} > 0 needs {block_size} of at least 1");
   for (auto& b : family_) {
     std::sort(b.begin(), b.end());
     const bool distinct = std::adjacent_find(b.begin(), b.end()) == b.end();

@@ -127,32 +127,33 @@ void check_block_options(const ChainRunOptions& o, const ScoreTable& table,
   const int n = table.num_variables();
   const int largest = std::min(n, kMaxBlockSize);
   if (o.block_size < 0 || o.block_size > largest)
-    throw InputError("--block-size must lie in 0.." + std::to_string(largest) + " (the table has " +
-                     std::to_string(n) + " variables)");
+    throw OptionError("{block_size} must lie in 0.." + std::to_string(largest) +
+                      " (the table has " + std::to_string(n) + " variables)");
   if (!(o.block_rate >= 0 && o.block_rate <= 1))
-    throw InputError("--block-rate must lie in [0, 1]");
+    throw OptionError("{block_rate} must lie in [0, 1]");
   if (o.block_rate > 0 && o.block_size == 0)
-    throw InputError("--block-rate needs --block-size of at least 1");
+    throw OptionError("{block_rate} needs {block_size} of at least 1");
   if (o.rev_rate + o.teleport_rate + o.block_rate > 1 + 1e-12)
-    throw InputError("--rev-rate, --teleport-rate and --block-rate must add up to at most 1");
+    throw OptionError("{rev_rate}, {teleport_rate} and {block_rate} must add up to at most 1");
   if (o.block_size == 0) return;
   if (o.block_size == n) {
     const double build = estimate_exact_cost(n, ExactRoute::kLayered, true).seconds;
     if (build > kMaxWholeBuildSecondsAsked)
-      throw InputError("--block-size " + std::to_string(n) +
-                       ": the exact engine over all variables would take about " +
-                       std::to_string(int(build)) + " s to build; choose a smaller block");
+      throw OptionError("{block_size} " + std::to_string(n) +
+                        ": the exact engine over all variables would take about " +
+                        std::to_string(int(build)) + " s to build; choose a smaller block");
   }
   constexpr double kMaxStepSeconds = 60;
   const double seconds = o.block_size == n ? 0.0 : estimate_block_step_seconds(table, o.block_size);
   if (seconds > kMaxStepSeconds)
-    throw InputError("--block-size " + std::to_string(o.block_size) +
-                     ": one block step would take about " + std::to_string(int(seconds)) +
-                     " s; choose a smaller block");
+    throw OptionError("{block_size} " + std::to_string(o.block_size) +
+                      ": one block step would take about " + std::to_string(int(seconds)) +
+                      " s; choose a smaller block");
   // One engine per chain running at a time.
   const double bytes = double(estimate_exact_cost(o.block_size, ExactRoute::kLayered, true).bytes);
   require_memory(bytes * o.chains, memory_limit,
-                 "the block moves of " + std::to_string(o.chains) + " chains", "--block-size");
+                 "the block moves of " + std::to_string(o.chains) + " chains",
+                 "a smaller {block_size}");
 }
 
 }  // namespace covey

@@ -225,7 +225,7 @@ void reserve_checkpoint_room(const std::string& path, const std::string& temp,
                         format_bytes(static_cast<double>(need)) +
                         ", above the file size limit (ulimit -f) of " +
                         format_bytes(static_cast<double>(*limit)) +
-                        "; the last checkpoint is intact (raise the limit, then --resume)");
+                        "; the last checkpoint is intact (raise the limit, then {resume})");
   const int fd = ::open(temp.c_str(), O_WRONLY);
   if (fd < 0) return;
   const int rc = ::fallocate(fd, FALLOC_FL_KEEP_SIZE, 0, static_cast<off_t>(need));
@@ -236,7 +236,7 @@ void reserve_checkpoint_room(const std::string& path, const std::string& temp,
                         ": cannot write the next checkpoint: no space left on the device "
                         "for up to " +
                         format_bytes(static_cast<double>(need)) +
-                        "; the last checkpoint is intact (free space, then --resume)");
+                        "; the last checkpoint is intact (free space, then {resume})");
 }
 
 void release_reservation(const std::string& temp) {

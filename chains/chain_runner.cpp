@@ -211,8 +211,8 @@ class Runner {
       slot->rng = make_stream(o_.seed, static_cast<std::uint64_t>(first_ + c));
       if (o_.start == "empty") {
         if (!slot->chain.empty_graph_allowed())
-          throw InputError(
-              "--start empty: the score table does not allow the empty graph "
+          throw OptionError(
+              "{start} empty: the score table does not allow the empty graph "
               "(required edges?); use --start exact or --start FILE");
       } else if (o_.start == "greedy") {
         // From the chain's own stream: every chain climbs from its own random node order.

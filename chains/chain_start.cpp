@@ -41,8 +41,8 @@ std::vector<std::uint64_t> greedy_start(const ScoreTable& table, Rng& rng) {
     }
     if (feasible) return out;
   }
-  throw InputError("--start greedy: no DAG of the score table fits " + std::to_string(kOrders) +
-                   " random node orders (required edges?); use --start FILE");
+  throw OptionError("{start} greedy: no DAG of the score table fits " + std::to_string(kOrders) +
+                    " random node orders (required edges?); use --start FILE");
 }
 
 }  // namespace covey

@@ -83,10 +83,10 @@ ChainSupport::ChainSupport(const ScoreTable& table, const ChainRunOptions& optio
     : impl_(std::make_unique<Impl>()) {
   if (options.teleport_cover >= 0 && options.cover_limit >= 0 &&
       options.cover_limit < options.teleport_cover)
-    throw InputError("--cover-limit " + std::to_string(options.cover_limit) +
-                     " must be at least --teleport-cover " +
-                     std::to_string(options.teleport_cover) +
-                     " (teleports draw from D_k, which must lie inside the target class)");
+    throw OptionError("{cover_limit} " + std::to_string(options.cover_limit) +
+                      " must be at least {teleport_cover} " +
+                      std::to_string(options.teleport_cover) +
+                      " (teleports draw from D_k, which must lie inside the target class)");
   if (options.teleport_cover >= 0) {
     CoverSamplerOptions sampler_options;
     sampler_options.memory_limit_bytes = memory_limit;
@@ -94,9 +94,9 @@ ChainSupport::ChainSupport(const ScoreTable& table, const ChainRunOptions& optio
                                ? CoverSampler::build(table, options.teleport_cover, sampler_options)
                                : CoverSampler::load(sampler_path, table, sampler_options);
     if (sampler.cover_bound() != options.teleport_cover)
-      throw InputError(sampler_path + ": the saved sampler is for cover bound " +
-                       std::to_string(sampler.cover_bound()) + ", not --teleport-cover " +
-                       std::to_string(options.teleport_cover));
+      throw OptionError(sampler_path + ": the saved sampler is for cover bound " +
+                        std::to_string(sampler.cover_bound()) + ", not {teleport_cover} " +
+                        std::to_string(options.teleport_cover));
     impl_->teleport = std::make_unique<CoverTeleport>(std::move(sampler));
     impl_->hooks.teleport = impl_->teleport.get();
   }

@@ -73,14 +73,14 @@ StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& confi
       words_((n_ + 63) / 64) {
   if (config.rev_rate < 0 || config.teleport_rate < 0 || config.block_rate < 0 ||
       config.rev_rate + config.teleport_rate + config.block_rate > 1)
-    throw InputError(
-        "move rates: --rev-rate, --teleport-rate and --block-rate must be >= 0 with sum <= 1");
+    throw OptionError(
+        "move rates: {rev_rate}, {teleport_rate} and {block_rate} must be >= 0 with sum <= 1");
   if (config.teleport_rate > 0 && !config.teleport)
-    throw InputError("--teleport-rate > 0 needs a teleport sampler (--teleport-cover)");
+    throw OptionError("{teleport_rate} > 0 needs a teleport sampler ({teleport_cover})");
   track_dag_ = n_ <= kMaxExactVariables;
   if ((config.teleport || config.restriction) && !track_dag_)
-    throw InputError("teleports and --cover-limit support at most 64 variables; the table has " +
-                     std::to_string(n_));
+    throw OptionError("teleports and {cover_limit} support at most 64 variables; the table has " +
+                      std::to_string(n_));
   rev_threshold_ = probability_threshold(config.rev_rate);
   teleport_threshold_ = probability_threshold(config.rev_rate + config.teleport_rate);
   block_threshold_ =
@@ -201,7 +201,7 @@ void StructureChain::load_state(const std::vector<ParentMask>& local, const std:
     for (int v = 0; v < n_; ++v) next.parents[v] = table_->to_global(v, local_[v]);
     if (config_.restriction && !config_.restriction->contains(next)) {
       local_ = old_local;
-      throw InputError(what + ": the DAG lies outside the class of --cover-limit");
+      throw OptionError(what + ": the DAG lies outside the class of {cover_limit}");
     }
     dag_ = next;
   }

@@ -93,7 +93,7 @@ void translate_error(std::exception_ptr error) {
   } catch (const InputError& e) {
     PyErr_SetString(g_errors.input.ptr(), with_keywords(e.what()).c_str());
   } catch (const ResourceError& e) {
-    PyErr_SetString(g_errors.resource.ptr(), with_keywords(e.what()).c_str());
+    PyErr_SetString(g_errors.resource.ptr(), with_keywords(e.render(keyword_of)).c_str());
   } catch (const Error& e) {
     PyErr_SetString(g_errors.error.ptr(), e.what());
   }

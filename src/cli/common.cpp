@@ -135,6 +135,7 @@ std::unique_ptr<tbb::global_control> apply_threads(int threads) {
 std::string option_flag(const std::string& field) {
   // Library fields whose flag is not their own name.
   static const std::pair<const char*, const char*> kRenamed[] = {
+      {"bins", "--bin"},
       {"ess", "--equivalent-sample-size"}, {"k", "--cover"},     {"max_rhat", "--rhat"},
       {"max_seconds", "--max-time"},       {"min_ess", "--ess"}, {"overwrite", "--force"},
   };
@@ -147,8 +148,8 @@ std::string option_flag(const std::string& field) {
 }
 
 std::string error_message(const std::exception& error) {
-  if (const auto* option = dynamic_cast<const OptionError*>(&error))
-    return option->render(option_flag);
+  if (const auto* fields = dynamic_cast<const FieldMessage*>(&error))
+    return fields->render(option_flag);
   return error.what();
 }
 

@@ -264,11 +264,25 @@ std::vector<Column> read_header(csv::Tokenizer& tok, const std::string& name,
   }
 }
 
+// The option field behind a column's reason as the CSV reader records it ("--bin"), for messages
+// that the CLI and the Python module spell in their own words (FieldMessage).
+std::string field_of(const std::string& reason) {
+  static const std::pair<const char*, const char*> kFields[] = {
+      {"--discrete-columns", "{discrete_columns}"},
+      {"--bin", "{bins}"},
+      {"--count-column", "{count_column}"},
+      {"--discrete", "{discrete}"},
+      {"--gaussian", "{gaussian}"}};
+  for (const auto& [flag, field] : kFields)
+    if (reason == flag) return field;
+  return reason;
+}
+
 Column& named_column(std::vector<Column>& columns, const std::string& column,
                      const std::string& option, const std::string& name) {
   for (Column& c : columns)
     if (c.rule != Rule::kSkip && c.name == column) return c;
-  throw InputError(option + " names '" + column + "', which is not a column of " + name);
+  throw OptionError(field_of(option) + " names '" + column + "', which is not a column of " + name);
 }
 
 // Each column's rule from the options; conflicting choices are refused.
@@ -288,18 +302,19 @@ void assign_rules(std::vector<Column>& columns, const CsvOptions& options,
   }
   auto claim = [&](Column& c, const std::string& option) {
     if (!c.because.empty() && c.because != "--discrete" && c.because != "--gaussian")
-      throw InputError("column '" + c.name + "' is named by both " + c.because + " and " + option);
+      throw OptionError("column '" + c.name + "' is named by both " + field_of(c.because) +
+                        " and " + field_of(option));
     c.because = option;
   };
   for (const std::string& column : options.discrete_columns) {
     Column& c = named_column(columns, column, "--discrete-columns", name);
-    if (gaussian) throw InputError("--discrete-columns and --gaussian contradict each other");
+    if (gaussian) throw OptionError("{discrete_columns} and {gaussian} contradict each other");
     claim(c, "--discrete-columns");
     c.rule = Rule::kLabels;
   }
   for (const BinSpec& spec : options.bins) {
     Column& c = named_column(columns, spec.column, "--bin", name);
-    if (gaussian) throw InputError("--bin and --gaussian contradict each other");
+    if (gaussian) throw OptionError("{bins} and {gaussian} contradict each other");
     claim(c, "--bin");
     c.rule = Rule::kNumbers;
     c.bin = &spec;
@@ -395,7 +410,7 @@ std::vector<std::size_t> row_counts(const Column& count, const std::string& name
   require_memory(total * static_cast<double>(variables) * 8, memory_limit,
                  "expanding the count column '" + count.name + "' to " +
                      std::to_string(static_cast<std::uint64_t>(total)) + " observations",
-                 "raise --memory-limit");
+                 "raise {memory_limit}");
   notes.push_back(name + ": " + std::to_string(counts.size()) + " rows stand for " +
                   std::to_string(static_cast<std::uint64_t>(total)) +
                   " observations (count column '" + count.name + "')");
@@ -523,8 +538,8 @@ std::vector<std::uint16_t> discrete_column(Column& c, const std::vector<std::siz
                                            std::vector<std::string>& notes) {
   if (c.bin) cut_into_bins(c, name, notes);
   if (c.levels.size() == 1 && !options.allow_constant)
-    throw InputError(name + ": column '" + c.name + "' has a single level '" + c.levels[0] +
-                     "' (a constant column; use --allow-constant to keep it)");
+    throw OptionError(name + ": column '" + c.name + "' has a single level '" + c.levels[0] +
+                      "' (a constant column; use {allow_constant} to keep it)");
   std::vector<std::uint16_t> codes = expand_rows(c.codes, counts);
   const double rows = static_cast<double>(codes.size());
   if (c.levels.size() > 2 && static_cast<double>(c.levels.size()) > rows / 5)
@@ -677,10 +692,10 @@ DataTable parse_csv(std::string text, const std::string& name, const CsvOptions&
     for (std::size_t j = 0; j < n && complete; ++j) {
       if (columns[j].rule == Rule::kSkip || !fields[j].missing()) continue;
       if (!options.drop_incomplete)
-        throw InputError(name + ":" + std::to_string(line) + ": missing value in column '" +
-                         columns[j].name + "' (data row " +
-                         std::to_string(kept_rows.size() + dropped + 1) +
-                         "); use --drop-incomplete to drop incomplete rows");
+        throw OptionError(name + ":" + std::to_string(line) + ": missing value in column '" +
+                          columns[j].name + "' (data row " +
+                          std::to_string(kept_rows.size() + dropped + 1) +
+                          "); use {drop_incomplete} to drop incomplete rows");
       complete = false;
     }
     if (!complete) {
@@ -726,7 +741,7 @@ DataTable read_csv(const std::string& path, const CsvOptions& options) {
   if (size > 0) {
     require_memory(csv_load_bytes(static_cast<double>(size)), options.memory_limit,
                    "reading " + path + " (" + format_bytes(static_cast<double>(size)) + ")",
-                   "fewer rows or columns per file shrink it, or raise --memory-limit");
+                   "fewer rows or columns per file shrink it, or raise {memory_limit}");
     text.reserve(static_cast<std::size_t>(size));
   }
   for (;;) {

@@ -178,15 +178,15 @@ std::vector<int> nth_order(int m, std::size_t index) {
 void check_cover_bound(const ScoreTable& table, int k, const char* option) {
   const int n = table.num_variables();
   if (n > kMaxExactVariables)
-    throw InputError(std::string(option) + ": the cover-bounded engines support at most 64 " +
-                     "variables; the table has " + std::to_string(n));
-  if (n == 0) throw InputError(std::string(option) + ": the score table has no variables");
+    throw OptionError(std::string(option) + ": the cover-bounded engines support at most 64 " +
+                      "variables; the table has " + std::to_string(n));
+  if (n == 0) throw OptionError(std::string(option) + ": the score table has no variables");
   if (k < 0 || k >= n)
-    throw InputError(std::string(option) + " " + std::to_string(k) + ": the cover bound must be " +
-                     "at least 0 and below the number of variables (" + std::to_string(n) + ")");
+    throw OptionError(std::string(option) + " " + std::to_string(k) + ": the cover bound must be " +
+                      "at least 0 and below the number of variables (" + std::to_string(n) + ")");
   if (k > detail::kMaxCoverBound)
-    throw InputError(std::string(option) + " " + std::to_string(k) + ": cover bounds above " +
-                     std::to_string(detail::kMaxCoverBound) + " are not supported");
+    throw OptionError(std::string(option) + " " + std::to_string(k) + ": cover bounds above " +
+                      std::to_string(detail::kMaxCoverBound) + " are not supported");
 }
 
 CoverBestResult best_dag_in_cover_class(const ScoreTable& table, int k) {

@@ -310,18 +310,18 @@ void SamplerData::check_number_range() {
   log_dropped_bound.clear();
   log_dropped_bound.shrink_to_fit();
   if (worst == -INFINITY || worst - log_u < kLogNegligible) return;
-  throw Error("cover bound " + std::to_string(k) +
-              ": the split weights of this score table span more than the exact sampler's "
-              "double-precision tables hold (log U = " +
-              std::to_string(log_u) + ", possible loss up to log " + std::to_string(worst) +
-              "); use a smaller --cover");
+  throw OptionError("cover bound " + std::to_string(k) +
+                    ": the split weights of this score table span more than the exact sampler's "
+                    "double-precision tables hold (log U = " +
+                    std::to_string(log_u) + ", possible loss up to log " + std::to_string(worst) +
+                    "); use a smaller {k}");
 }
 
 void require_sampler_memory(int n, int k, std::size_t limit) {
   require_memory(CoverSampler::estimate_memory_bytes(n, k), limit,
                  "the split tables of the exact sampler for cover bound " + std::to_string(k) +
                      " on " + std::to_string(n) + " variables",
-                 "a smaller --cover shrinks them (or raise --memory-limit)");
+                 "a smaller {k} shrinks them (or raise {memory_limit})");
 }
 
 void SamplerData::layout_units() {

@@ -114,27 +114,27 @@ ExactCost plan_exact(int n, ExactRoute requested, bool draws, const ExactLimits&
                         "); use the cover-bounded or MCMC commands");
   }
   if (draws && requested == ExactRoute::kSigned)
-    throw InputError("exact draws need the layered route (--route layered or auto)");
+    throw OptionError("exact draws need the layered route ({route} layered or auto)");
   const ExactCost layered = estimate_exact_cost(n, ExactRoute::kLayered, draws);
   const ExactCost signed_cost = estimate_exact_cost(n, ExactRoute::kSigned, false);
   if (requested == ExactRoute::kLayered || (requested == ExactRoute::kAuto && draws)) {
     if (fits(layered)) return layered;
     throw ResourceError("exact " + std::string(draws ? "draws" : "posterior") + " for " +
                         std::to_string(n) + " variables needs " + describe(layered) +
-                        ", beyond the " + limit_text + " (raise --memory-limit or --max-time)");
+                        ", beyond the " + limit_text + " (raise {memory_limit} or {max_seconds})");
   }
   if (requested == ExactRoute::kSigned) {
     if (fits(signed_cost)) return signed_cost;
     throw ResourceError("exact posterior for " + std::to_string(n) + " variables needs " +
                         describe(signed_cost) + ", beyond the " + limit_text +
-                        " (raise --memory-limit or --max-time)");
+                        " (raise {memory_limit} or {max_seconds})");
   }
   if (fits(layered)) return layered;
   if (fits(signed_cost)) return signed_cost;
   throw ResourceError("exact posterior for " + std::to_string(n) + " variables needs " +
                       describe(layered) + " or " + describe(signed_cost) + ", beyond the " +
                       limit_text +
-                      " (raise --memory-limit or --max-time, or use the cover-bounded or MCMC "
+                      " (raise {memory_limit} or {max_seconds}, or use the cover-bounded or MCMC "
                       "commands)");
 }
 

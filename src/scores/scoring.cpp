@@ -86,18 +86,19 @@ std::vector<NodePlan> plan_nodes(const std::vector<Variable>& variables, const S
     NodePlan& p = plans[v];
     std::sort(p.required.begin(), p.required.end());
     if (static_cast<int>(p.required.size()) > o.max_indegree)
-      throw InputError("node '" + variables[v].name + "' has " + std::to_string(p.required.size()) +
-                       " required parents (--require), more than --max-indegree " +
-                       std::to_string(o.max_indegree));
+      throw OptionError("node '" + variables[v].name + "' has " +
+                        std::to_string(p.required.size()) +
+                        " required parents ({require}), more than {max_indegree} " +
+                        std::to_string(o.max_indegree));
     for (int u = 0; u < n; ++u)
       if (u != v && !excluded[v][u]) p.eligible.push_back(u);
     const int room = std::max(0, limit - static_cast<int>(p.required.size()));
     p.optional_count = std::min(static_cast<int>(p.eligible.size()), room);
     if (p.optional_count + static_cast<int>(p.required.size()) > kMaxCandidates)
-      throw InputError("node '" + variables[v].name + "' would have " +
-                       std::to_string(p.optional_count + p.required.size()) +
-                       " candidate parents; at most " + std::to_string(kMaxCandidates) +
-                       " (use --candidates)");
+      throw OptionError("node '" + variables[v].name + "' would have " +
+                        std::to_string(p.optional_count + p.required.size()) +
+                        " candidate parents; at most " + std::to_string(kMaxCandidates) +
+                        " (use {candidates})");
   }
   return plans;
 }
@@ -189,8 +190,8 @@ ScoreTable compute_scores(const LocalScore& score, const std::vector<Variable>& 
     throw ResourceError(
         "scoring needs an estimated " + format_bytes(estimate.bytes) + " for " + sets +
         " parent sets, more than the memory limit of " + format_bytes(static_cast<double>(limit)) +
-        " (--memory-limit); lower --max-indegree (now " + std::to_string(o.max_indegree) +
-        ") or --candidates (now " + candidate_text(o, n) + "), or raise --memory-limit");
+        " ({memory_limit}); lower {max_indegree} (now " + std::to_string(o.max_indegree) +
+        ") or {candidates} (now " + candidate_text(o, n) + "), or raise {memory_limit}");
   }
 
   const std::vector<std::vector<int>> candidates = candidates_from_plans(score, plans);

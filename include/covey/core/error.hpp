@@ -26,23 +26,19 @@ class FileError : public InputError {
   using InputError::InputError;
 };
 
-// A size or memory estimate exceeds what the user allowed or the machine has.
-class ResourceError : public Error {
- public:
-  using Error::Error;
-};
-
-// A bad option value, told in the library's words: the message template names each field in
-// braces ("{max_indegree} must be 0 or more"). what() shows the bare field names; a program
-// with its own spelling of the fields (the CLI's flags) prints render(spell) instead.
-class OptionError : public InputError {
+// A message that names fields of the library's options in braces ("{max_indegree} must be 0 or
+// more"; "raise {memory_limit}"). what() shows the bare field names; a program with its own
+// spelling of the fields (the CLI's flags, the Python module's keywords) prints render(spell).
+class FieldMessage {
  public:
   using Spelling = std::function<std::string(const std::string& field)>;
-  explicit OptionError(std::string message_template)
-      : InputError(fill(message_template, [](const std::string& f) { return f; })),
-        template_(std::move(message_template)) {}
+  explicit FieldMessage(std::string message_template) : template_(std::move(message_template)) {}
+  virtual ~FieldMessage() = default;
   std::string render(const Spelling& spell) const { return fill(template_, spell); }
   const std::string& message_template() const { return template_; }
+  static std::string bare(const std::string& text) {
+    return fill(text, [](const std::string& f) { return f; });
+  }
 
  private:
   // Replaces every "{field}" by spell(field); a brace without a closing one stays as written.
@@ -61,6 +57,22 @@ class OptionError : public InputError {
     return out;
   }
   std::string template_;
+};
+
+// A size or memory estimate exceeds what the user allowed or the machine has. The remedy it
+// names (a limit to raise, a size to lower) is a field in braces, as in FieldMessage.
+class ResourceError : public Error, public FieldMessage {
+ public:
+  explicit ResourceError(const std::string& message_template)
+      : Error(bare(message_template)), FieldMessage(message_template) {}
+};
+
+// A bad option value, told in the library's words (FieldMessage): "{max_indegree} must be 0 or
+// more, got -1". Also an input error whose remedy is an option ("use {drop_incomplete}").
+class OptionError : public InputError, public FieldMessage {
+ public:
+  explicit OptionError(const std::string& message_template)
+      : InputError(bare(message_template)), FieldMessage(message_template) {}
 };
 
 }  // namespace covey

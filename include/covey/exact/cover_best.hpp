@@ -17,7 +17,7 @@ struct CoverBestResult {
 };
 
 // Throws InputError (naming `option`) unless 0 <= k < n and n <= 64.
-void check_cover_bound(const ScoreTable& table, int k, const char* option = "--cover");
+void check_cover_bound(const ScoreTable& table, int k, const char* option = "{k}");
 
 // The best DAG of D_k, parallel over cover sets (TBB). Ties go to the first cover set (ascending
 // index lists) and order in a fixed enumeration, so the result does not depend on the thread
