@@ -50,7 +50,7 @@ void StructureChain::build_skip_bounds() {
   node_bound_.assign(n_, 0);
   bound_dirty_.assign(n_, 0);
   bound_parents_ = local_;
-  for (std::size_t s = 0; s < bound_.size(); ++s) bound_[s] = slot_bound(s);
+  for (std::size_t p = 0; p < pairs_.size(); ++p) set_pair_bounds(p);
   bound_total_ = 0;
   for (int v = 0; v < n_; ++v) {
     for (std::size_t s = 2 * into_first_[v]; s < 2 * into_first_[v + 1]; ++s)
@@ -60,6 +60,11 @@ void StructureChain::build_skip_bounds() {
 }
 
 bool StructureChain::lookup_score(int v, ParentMask set, double& score) const {
+  if (screen_) {  // the dense arrays of the screen: no hash probe
+    if (screen_->value(v, set) == -INFINITY) return false;
+    score = screen_->exact(v, set);
+    return true;
+  }
   const long idx = table_->find(v, set);
   if (idx < 0) return false;
   score = table_->log_scores(v)[idx];
@@ -69,39 +74,69 @@ bool StructureChain::lookup_score(int v, ParentMask set, double& score) const {
 // b_s = min(1, exp(score gain + log Hastings)) from the exact scores, with cycles and the
 // restriction ignored; 0 when the move can never be accepted (a parent set outside the table, a
 // reversal the table forbids, an add whose opposite edge is present, which closes a cycle).
-double StructureChain::slot_bound(std::size_t slot) const {
-  const Pair& pair = pairs_[slot >> 1];
+// Both slots of pair p at once: coin 0 (slot 2p) and coin 1 (slot 2p + 1).
+void StructureChain::pair_bounds(std::size_t p, double& coin0, double& coin1) const {
+  const Pair& pair = pairs_[p];
   const int u = pair.from, v = pair.to;
   const ParentMask bit = ParentMask{1} << pair.pos_in_to;
-  double next_v = 0, log_ratio = 0;
-  if (!(local_[v] & bit)) {
-    if (pair.pos_in_from >= 0 && ((local_[u] >> pair.pos_in_from) & 1U)) return 0;
-    if (!lookup_score(v, local_[v] | bit, next_v)) return 0;
-    log_ratio = next_v - score_[v] + (dropped(Move::kAdd) ? 0.0 : -std::numbers::ln2);
-  } else if (slot & 1) {
-    if (!lookup_score(v, local_[v] & ~bit, next_v)) return 0;
-    log_ratio = next_v - score_[v] + (dropped(Move::kDelete) ? 0.0 : std::numbers::ln2);
-  } else {
-    double next_u = 0;
-    if (pair.pos_in_from < 0 || !lookup_score(v, local_[v] & ~bit, next_v) ||
-        !lookup_score(u, local_[u] | (ParentMask{1} << pair.pos_in_from), next_u))
-      return 0;
-    log_ratio = next_v - score_[v] + next_u - score_[u];
+  const auto bound = [](double log_ratio) { return log_ratio >= 0 ? 1.0 : std::exp(log_ratio); };
+  double next_v = 0, next_u = 0;
+  if (!(local_[v] & bit)) {  // an add on both coin sides
+    double b = 0;
+    const bool opposite = pair.pos_in_from >= 0 && ((local_[u] >> pair.pos_in_from) & 1U);
+    if (!opposite && lookup_score(v, local_[v] | bit, next_v))
+      b = bound(next_v - score_[v] + (dropped(Move::kAdd) ? 0.0 : -std::numbers::ln2));
+    coin0 = coin1 = b;
+    return;
   }
-  return log_ratio >= 0 ? 1.0 : std::exp(log_ratio);
+  if (!lookup_score(v, local_[v] & ~bit, next_v)) {
+    coin0 = coin1 = 0;
+    return;
+  }
+  const double gain_v = next_v - score_[v];
+  coin1 = bound(gain_v + (dropped(Move::kDelete) ? 0.0 : std::numbers::ln2));
+  const bool reversible = pair.pos_in_from >= 0 &&
+                          lookup_score(u, local_[u] | (ParentMask{1} << pair.pos_in_from), next_u);
+  coin0 = reversible ? bound(gain_v + next_u - score_[u]) : 0.0;
 }
 
-// The slots whose bound depends on x's parent set: the pairs into x and, through the opposite
-// edge of an add and the reversal, the pairs out of x.
-void StructureChain::refresh_bounds_of(int x) {
-  for (std::size_t s = 2 * into_first_[x]; s < 2 * into_first_[x + 1]; ++s)
-    bound_[s] = slot_bound(s);
+void StructureChain::set_pair_bounds(std::size_t p) {
+  pair_bounds(p, bound_[2 * p], bound_[2 * p + 1]);
+}
+
+// Whether the kept bounds, node sums and total are those of the parent sets they were made
+// for, recomputed from scratch (for check_invariants()).
+bool StructureChain::skip_bounds_consistent() const {
+  if (bound_parents_ != local_) return true;  // refreshed at the next quiet_steps/event_step
+  double total = 0;
+  for (int v = 0; v < n_; ++v) {
+    double sum = 0;
+    for (std::size_t p = into_first_[v]; p < into_first_[v + 1]; ++p) {
+      double coin0 = 0, coin1 = 0;
+      pair_bounds(p, coin0, coin1);
+      if (coin0 != bound_[2 * p] || coin1 != bound_[2 * p + 1]) return false;
+      sum += coin0 + coin1;
+    }
+    if (std::abs(sum - node_bound_[v]) > 1e-9 * (1 + sum)) return false;
+    total += node_bound_[v];
+  }
+  return std::abs(total - bound_total_) <= 1e-9 * (1 + total);
+}
+
+// The slots whose bound depends on x's parent set, which changed in the bits `changed`: the
+// pairs into x, and of the pairs x -> w out of x those whose reversal is possible (x -> w
+// present: the reversal's gain at x) or whose add has its opposite edge w -> x among `changed`.
+// The adds of the other pairs out of x depend on P_w alone.
+void StructureChain::refresh_bounds_of(int x, ParentMask changed) {
+  for (std::size_t p = into_first_[x]; p < into_first_[x + 1]; ++p) set_pair_bounds(p);
   bound_dirty_[x] = 1;
   for (std::uint32_t i = from_first_[x]; i < from_first_[x + 1]; ++i) {
-    const std::uint32_t p = from_pairs_[i];
-    bound_[2 * p] = slot_bound(2 * p);
-    bound_[2 * p + 1] = slot_bound(2 * p + 1);
-    bound_dirty_[pairs_[p].to] = 1;
+    const Pair& pair = pairs_[from_pairs_[i]];
+    const bool present = (local_[pair.to] >> pair.pos_in_to) & 1U;
+    const bool opposite_changed = pair.pos_in_from >= 0 && ((changed >> pair.pos_in_from) & 1U);
+    if (!present && !opposite_changed) continue;
+    set_pair_bounds(from_pairs_[i]);
+    bound_dirty_[pair.to] = 1;
   }
 }
 
@@ -113,7 +148,7 @@ void StructureChain::refresh_changed_bounds() {
   bool changed = false;
   for (int x = 0; x < n_; ++x) {
     if (local_[x] == bound_parents_[x]) continue;
-    refresh_bounds_of(x);
+    refresh_bounds_of(x, local_[x] ^ bound_parents_[x]);
     bound_parents_[x] = local_[x];
     changed = true;
   }

@@ -357,6 +357,7 @@ bool StructureChain::check_invariants() const {
   }
   for (int v = 0; v < n_; ++v)
     if (test(&a[std::size_t(v) * words_], v)) return false;  // cycle
+  if (skip_ && !skip_bounds_consistent()) return false;
   return a == anc_;
 }
 

@@ -187,9 +187,11 @@ class StructureChain {
   void propose_reverse(Rng& rng, const Pair& pair, ParentMask bit, bool bounded);
   // Rejection skipping (chains/rejection_skip.cpp).
   void build_skip_bounds();
-  double slot_bound(std::size_t slot) const;
+  void pair_bounds(std::size_t pair, double& coin0, double& coin1) const;
+  void set_pair_bounds(std::size_t pair);
+  bool skip_bounds_consistent() const;
   bool lookup_score(int v, ParentMask set, double& score) const;
-  void refresh_bounds_of(int x);
+  void refresh_bounds_of(int x, ParentMask changed);
   void refresh_changed_bounds();  // after an event: nodes whose parent set changed
   std::uint64_t draw_bounded_slot(Rng& rng) const;
   bool non_local_event(Rng& rng);
