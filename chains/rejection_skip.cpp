@@ -60,11 +60,7 @@ void StructureChain::build_skip_bounds() {
 }
 
 bool StructureChain::lookup_score(int v, ParentMask set, double& score) const {
-  if (screen_) {  // the dense arrays of the screen: no hash probe
-    if (screen_->value(v, set) == -INFINITY) return false;
-    score = screen_->exact(v, set);
-    return true;
-  }
+  if (screen_) return screen_->find_exact(v, set, score);  // dense arrays: no hash probe
   const long idx = table_->find(v, set);
   if (idx < 0) return false;
   score = table_->log_scores(v)[idx];
