@@ -461,7 +461,11 @@ class Runner {
       totals[2 * m] = local.proposed[m];
       totals[2 * m + 1] = local.accepted[m];
     }
-    totals[2 * kNumMoves] = local.total_proposed() - at_start_local.total_proposed();
+    // Effective proposals: with rejection skipping the skipped rejections are steps that the
+    // move counts (evaluated proposals only) leave out; without it every step is one proposal.
+    totals[2 * kNumMoves] = o_.skip_rejections
+                                ? slots_.size() * summary.session_steps
+                                : local.total_proposed() - at_start_local.total_proposed();
     mpi::allreduce_sum(totals);
     for (int m = 0; m < kNumMoves; ++m) {
       summary.counts.proposed[m] = totals[2 * m];

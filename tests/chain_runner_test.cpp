@@ -869,7 +869,10 @@ TEST(ChainRunner, SkippingAgreesWithPlainRunN10) {
   ChainRunOptions skip = o;
   skip.skip_rejections = true;
   skip.seed = 42;
-  run_chains(table, dir.file("skip.h5"), skip, quiet_hooks(), false);
+  const ChainRunSummary summary =
+      run_chains(table, dir.file("skip.h5"), skip, quiet_hooks(), false);
+  // Effective proposals: every step, the skipped rejections included.
+  EXPECT_EQ(summary.session_proposals, std::uint64_t(skip.chains) * skip.steps);
   const ChainRun plain_run = ChainRun::open(dir.file("plain.h5"));
   const ChainRun skip_run = ChainRun::open(dir.file("skip.h5"));
   EXPECT_FALSE(plain_run.options().skip_rejections);
