@@ -619,7 +619,8 @@ TEST(RejectionSkipping, LocalMovesMatchEnumeration) {
 }
 
 // Skipping with REV and exact block moves mixed in (their events drawn with probability
-// p_other / e), and inside a class (D_2: the bound ignores it, the event checks it); n = 5.
+// p_other / e), inside a class (D_2: the bound ignores it, the event checks it), and with
+// teleports from D_2; n = 5.
 TEST(RejectionSkipping, WithRevAndBlocksN5) {
   const ScoreTable table = testing_util::random_full_table(5, 3, 33);
   const ExactPosterior exact = testing_util::exact_posterior(table, nullptr);
@@ -642,6 +643,15 @@ TEST(RejectionSkipping, WithRevAndBlocksN5) {
   const Comparison in_class =
       run_and_compare(table, config, restricted, kSteps, 34, nullptr, true, kDagBins);
   EXPECT_TRUE(passes(in_class)) << describe(in_class);
+
+  const EnumeratedTeleport source(table, d2);  // teleports from D_2, unrestricted target
+  config.restriction = nullptr;
+  config.teleport = &source;
+  config.teleport_rate = 0.05;
+  const Comparison teleported =
+      run_and_compare(table, config, exact, kSteps, 37, nullptr, true, kDagBins);
+  EXPECT_TRUE(passes(teleported)) << describe(teleported);
+  EXPECT_GT(teleported.regenerations, kSteps / 100);
 }
 
 // The wait to the next event is chain state: stepping one step at a time (step()) and skipping
