@@ -143,6 +143,36 @@ TEST(ChainRunner, StopSignalWritesCheckpointThatResumes) {
                      ChainRun::open(dir.file("straight.h5")));
 }
 
+// Edge probabilities of a run (all chains pooled) and their MCSE from 40 batch means.
+struct EdgeEstimates {
+  std::vector<double> mean, mcse;  // n * n, [u * n + v]
+};
+
+EdgeEstimates edge_estimates(const ChainRun& run, int n) {
+  const RunFeatures features(run);
+  std::vector<double> series(std::size_t(features.chains()) * features.iterations());
+  EdgeEstimates out{std::vector<double>(std::size_t(n) * n, 0.0),
+                    std::vector<double>(std::size_t(n) * n, 0.0)};
+  constexpr int kBatches = 40;
+  for (int u = 0; u < n; ++u)
+    for (int v = 0; v < n; ++v) {
+      if (u == v) continue;
+      features.edge(u, v, series);
+      const std::size_t len = series.size() / kBatches;
+      std::vector<double> m(kBatches, 0);
+      double mean = 0, var = 0;
+      for (int b = 0; b < kBatches; ++b) {
+        for (std::size_t t = 0; t < len; ++t) m[b] += series[b * len + t];
+        m[b] /= double(len);
+        mean += m[b] / kBatches;
+      }
+      for (double x : m) var += (x - mean) * (x - mean);
+      out.mean[std::size_t(u) * n + v] = mean;
+      out.mcse[std::size_t(u) * n + v] = std::sqrt(var / (kBatches - 1) / kBatches);
+    }
+  return out;
+}
+
 TEST(ChainRunner, ThinnedTraceMatchesEnumeration) {
   // Edge frequencies of the stored draws (all chains pooled) against the exact posterior;
   // MCSE from batch means over the pooled, thinned series.
@@ -158,26 +188,13 @@ TEST(ChainRunner, ThinnedTraceMatchesEnumeration) {
   o.checkpoint_every = 1e9;
   run_chains(table, dir.file("run.h5"), o, quiet_hooks(), false);
   const ChainRun run = ChainRun::open(dir.file("run.h5"));
-  const RunFeatures features(run);
-  std::vector<double> series(std::size_t(features.chains()) * features.iterations());
+  const EdgeEstimates estimates = edge_estimates(run, 4);
   double max_z = 0;
   for (int u = 0; u < 4; ++u)
-    for (int v = 0; v < 4; ++v) {
-      if (u == v) continue;
-      features.edge(u, v, series);
-      const int batches = 40;
-      const std::size_t len = series.size() / batches;
-      double mean = 0, var = 0;
-      std::vector<double> m(batches, 0);
-      for (int b = 0; b < batches; ++b) {
-        for (std::size_t t = 0; t < len; ++t) m[b] += series[b * len + t];
-        m[b] /= double(len);
-        mean += m[b] / batches;
-      }
-      for (double x : m) var += (x - mean) * (x - mean);
-      const double mcse = std::sqrt(var / (batches - 1) / batches);
-      max_z = std::max(max_z, std::abs(mean - exact.edge[u * 4 + v]) / mcse);
-    }
+    for (int v = 0; v < 4; ++v)
+      if (u != v)
+        max_z = std::max(max_z, std::abs(estimates.mean[u * 4 + v] - exact.edge[u * 4 + v]) /
+                                    estimates.mcse[u * 4 + v]);
   EXPECT_LT(max_z, 4.0);
   // Stored log scores are the table's weights of the stored DAGs.
   const auto rows = run.draws(1);
@@ -814,36 +831,6 @@ TEST(ChainRunner, RefusesToReplaceARunAndToChangeFixedOptionsOnResume) {
   EXPECT_EQ(resumed.thin, o.thin);
   EXPECT_EQ(resumed.steps, 5000u);
   EXPECT_EQ(resumed.block_size, ChainRun::open(run).options().block_size);
-}
-
-// Edge probabilities of a run (all chains pooled) and their MCSE from 40 batch means.
-struct EdgeEstimates {
-  std::vector<double> mean, mcse;  // n * n, [u * n + v]
-};
-
-EdgeEstimates edge_estimates(const ChainRun& run, int n) {
-  const RunFeatures features(run);
-  std::vector<double> series(std::size_t(features.chains()) * features.iterations());
-  EdgeEstimates out{std::vector<double>(std::size_t(n) * n, 0.0),
-                    std::vector<double>(std::size_t(n) * n, 0.0)};
-  constexpr int kBatches = 40;
-  for (int u = 0; u < n; ++u)
-    for (int v = 0; v < n; ++v) {
-      if (u == v) continue;
-      features.edge(u, v, series);
-      const std::size_t len = series.size() / kBatches;
-      std::vector<double> m(kBatches, 0);
-      double mean = 0, var = 0;
-      for (int b = 0; b < kBatches; ++b) {
-        for (std::size_t t = 0; t < len; ++t) m[b] += series[b * len + t];
-        m[b] /= double(len);
-        mean += m[b] / kBatches;
-      }
-      for (double x : m) var += (x - mean) * (x - mean);
-      out.mean[std::size_t(u) * n + v] = mean;
-      out.mcse[std::size_t(u) * n + v] = std::sqrt(var / (kBatches - 1) / kBatches);
-    }
-  return out;
 }
 
 // Rejection skipping through the runner (docs/chains.md, "Rejection skipping"), n = 10: the
