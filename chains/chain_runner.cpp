@@ -329,6 +329,7 @@ class Runner {
       slot->chain.set_parents(cp.parents,
                               member_ + ": checkpoint state of chain " + std::to_string(c));
       slot->chain.set_counts(cp.counts);
+      if (o_.skip_rejections) slot->chain.set_skip_wait(cp.skip_wait);
       slot->rng = load_stream(cp.rng_state);
       slot->regenerations = cp.regenerations;
       slots_.push_back(std::move(slot));
@@ -517,7 +518,8 @@ class Runner {
   // Steps first..last of one chain with rejection skipping (docs/chains.md, "Rejection
   // skipping"): the quiet steps before each event repeat the state, so every thin-th of them
   // records it as the plain chain would; a wait past `last` stays with the chain for the next
-  // segment, so segment ends (set by the clock) leave the trajectory unchanged.
+  // segment (and in the checkpoint), so segment ends, set by the clock, and resumes leave the
+  // trajectory unchanged.
   void run_skipping(Slot& s, std::uint64_t first, std::uint64_t last) const {
     for (std::uint64_t step = first; step <= last;) {
       const std::uint64_t quiet = s.chain.quiet_steps(s.rng, last - step + 1);
@@ -549,6 +551,7 @@ class Runner {
       b.state.rng_state = save_stream(s->rng);
       b.state.counts = s->chain.counts();
       b.state.regenerations = s->regenerations;
+      b.state.skip_wait = s->chain.skip_wait();
       out.push_back(std::move(b));
     }
     return out;

@@ -180,6 +180,21 @@ std::uint64_t StructureChain::quiet_steps(Rng& rng, std::uint64_t budget) {
   return quiet;
 }
 
+std::optional<std::uint64_t> StructureChain::skip_wait() const {
+  if (!skip_ || !wait_held_ || bound_parents_ != local_) return std::nullopt;
+  return wait_;
+}
+
+void StructureChain::set_skip_wait(std::optional<std::uint64_t> wait) {
+  if (!skip_) {
+    if (wait) throw Error("set_skip_wait: the chain was built without skip_rejections");
+    return;
+  }
+  refresh_changed_bounds();  // first: a state set since would drop the wait again
+  wait_held_ = wait.has_value();
+  wait_ = wait.value_or(0);
+}
+
 // Slot s with probability b_s / B (B > 0): the node into which the pair points by its share of
 // B, then the slot within it. Under the tests' fault skip_uniform_events a uniform slot instead.
 std::uint64_t StructureChain::draw_bounded_slot(Rng& rng) const {

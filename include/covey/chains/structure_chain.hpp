@@ -35,6 +35,7 @@
 #include <cstdint>
 #include <limits>
 #include <memory>
+#include <optional>
 #include <span>
 #include <string>
 #include <vector>
@@ -132,6 +133,10 @@ class StructureChain {
   // what step() would. A wait that reaches past `budget` is kept for the next call.
   std::uint64_t quiet_steps(Rng& rng, std::uint64_t budget);
   bool event_step(Rng& rng);
+  // The held wait (quiet steps left before the next event), if any, and setting it after
+  // set_parents() when a checkpoint is restored, so that a resumed run continues bit for bit.
+  std::optional<std::uint64_t> skip_wait() const;
+  void set_skip_wait(std::optional<std::uint64_t> wait);
 
   // The exact block move on a given block (distinct node indices, any order): redraws the
   // parent sets of the block's nodes from their exact conditional given all other parent sets
