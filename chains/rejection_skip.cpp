@@ -200,19 +200,23 @@ void StructureChain::set_skip_wait(std::optional<std::uint64_t> wait) {
 std::uint64_t StructureChain::draw_bounded_slot(Rng& rng) const {
   if (faults_ && faults_->skip_uniform_events) return uniform_below(rng, bound_.size());
   double target = uniform01(rng) * bound_total_;
-  int v = 0;
-  while (v + 1 < n_ && (target >= node_bound_[v] || node_bound_[v] == 0)) {
-    target -= node_bound_[v];
-    ++v;
+  // The node: the first whose running sum passes the target, or (rounding) the last with a
+  // positive sum; B > 0 guarantees one.
+  int v = -1;
+  for (int w = 0; w < n_; ++w) {
+    if (node_bound_[w] <= 0) continue;
+    v = w;
+    if (target < node_bound_[w]) break;
+    target -= node_bound_[w];
   }
-  std::size_t last = 2 * into_first_[v];
+  std::size_t last = 0;
   for (std::size_t s = 2 * into_first_[v]; s < 2 * into_first_[v + 1]; ++s) {
-    if (bound_[s] == 0) continue;
+    if (bound_[s] <= 0) continue;
     last = s;
     if (target < bound_[s]) return s;
     target -= bound_[s];
   }
-  return last;  // rounding: the last slot of the node with a positive bound
+  return last;  // rounding: the node's last slot with a positive bound
 }
 
 // The non-local kernel as step() chooses it, given that the step is not local: rng() uniform
