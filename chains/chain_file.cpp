@@ -108,6 +108,11 @@ void append_blocks(H5::H5File& file, const std::vector<ChainBlock>& blocks, std:
     h5::append_rows(g, kStateParents, b.state.parents, width);
     h5::append_rows(g, kStateRng, pack_text(b.state.rng_state), kRngWords);
     h5::append_rows(g, kStateCounts, counts_row(b.state), kCountsWidth);
+    if (g.nameExists(kStateSkipWait))
+      h5::append_rows(
+          g, kStateSkipWait,
+          std::vector<std::uint64_t>{b.state.skip_wait ? 1U : 0U, b.state.skip_wait.value_or(0)},
+          2);
     const std::uint64_t rows = h5::num_rows(g, kDraws);
     if (c > 0 && rows != draws) throw Error("checkpoint: chains have different draw counts");
     draws = rows;
@@ -188,6 +193,7 @@ void create(const std::string& path, const Header& header, const std::vector<Cha
       h5::create_rows(g, kStateParents, width, 16);
       h5::create_rows(g, kStateRng, kRngWords, 4);
       h5::create_rows(g, kStateCounts, kCountsWidth, 64);
+      if (header.options.value("skip_rejections", false)) h5::create_rows(g, kStateSkipWait, 2, 64);
     }
     append_blocks(file, blocks, steps, elapsed_seconds);
     file.close();
@@ -464,6 +470,11 @@ ChainCheckpoint ChainRun::checkpoint(int chain) const {
       cp.counts.accepted[m] = counts[2 + kNumMoves + m];
     }
     if (cp.steps != steps_) throw InputError(path_ + ": checkpoint steps disagree");
+    if (g.nameExists(kStateSkipWait)) {
+      const auto wait = h5::read_rows(g, kStateSkipWait, row, 1);
+      if (wait.size() != 2 || wait[0] > 1) throw InputError(path_ + ": corrupt checkpoint wait");
+      if (wait[0]) cp.skip_wait = wait[1];
+    }
     return cp;
   });
 }

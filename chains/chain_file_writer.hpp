@@ -70,6 +70,9 @@ inline constexpr const char* kRegenerations = "regenerations";
 inline constexpr const char* kStateParents = "checkpoint_parents";
 inline constexpr const char* kStateRng = "checkpoint_rng";
 inline constexpr const char* kStateCounts = "checkpoint_counts";
+// Rejection skipping's held wait per checkpoint: (1, wait) or (0, 0); only in runs with
+// skip_rejections.
+inline constexpr const char* kStateSkipWait = "checkpoint_skip_wait";
 inline constexpr std::size_t kCheckpointWidth = 4;  // steps, draws, unix time ms, elapsed ms
 inline constexpr std::size_t kRngWords = 1 + 1024;  // byte length, then up to 8192 bytes
 inline constexpr std::size_t kCountsWidth = 2 + 2 * kNumMoves;

@@ -15,9 +15,10 @@ namespace {
 // Teleport probability per step when a teleport class is given and no rate (docs/chains.md).
 constexpr double kDefaultTeleportRate = 0.01;
 
-constexpr std::array<const char*, 12> kFixedFields = {
-    "chains",         "thin",        "burn_in", "seed",        "rev_rate",   "teleport_rate",
-    "teleport_cover", "cover_limit", "start",   "start_cover", "block_size", "block_rate"};
+constexpr std::array<const char*, 13> kFixedFields = {
+    "chains",        "thin",           "burn_in",        "seed",  "rev_rate",
+    "teleport_rate", "teleport_cover", "cover_limit",    "start", "start_cover",
+    "block_size",    "block_rate",     "skip_rejections"};
 
 }  // namespace
 
@@ -52,7 +53,8 @@ nlohmann::json fixed_options_to_json(const ChainRunOptions& o) {
           {"start", o.start},
           {"start_cover", o.start_cover},
           {"block_size", o.block_size},
-          {"block_rate", o.block_rate}};
+          {"block_rate", o.block_rate},
+          {"skip_rejections", o.skip_rejections}};
 }
 
 ChainRunOptions fixed_options_from_json(const nlohmann::json& s, const std::string& path) {
@@ -71,6 +73,7 @@ ChainRunOptions fixed_options_from_json(const nlohmann::json& s, const std::stri
     o.start_cover = s.value("start_cover", o.start == "exact" ? o.teleport_cover : -1);
     o.block_size = s.value("block_size", 0);  // runs made before block moves have none
     o.block_rate = s.value("block_rate", 0.0);
+    o.skip_rejections = s.value("skip_rejections", false);  // runs made before it skip none
   } catch (const nlohmann::json::exception& e) {
     throw InputError(path + ": corrupt run options: " + e.what());
   }

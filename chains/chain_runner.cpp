@@ -190,6 +190,7 @@ class Runner {
     config_.restriction = o_.cover_limit >= 0 ? hooks.restriction : nullptr;
     config_.block_rate = o_.block_rate;
     config_.block_size = o_.block_size;
+    config_.skip_rejections = o_.skip_rejections;
     if (o_.block_size > 0 && o_.block_size < table.num_variables())
       config_.block_family = strongest_neighbour_blocks(table, o_.block_size);
     session_ = {{"command_line", hooks.command_line},
@@ -328,6 +329,7 @@ class Runner {
       slot->chain.set_parents(cp.parents,
                               member_ + ": checkpoint state of chain " + std::to_string(c));
       slot->chain.set_counts(cp.counts);
+      if (o_.skip_rejections) slot->chain.set_skip_wait(cp.skip_wait);
       slot->rng = load_stream(cp.rng_state);
       slot->regenerations = cp.regenerations;
       slots_.push_back(std::move(slot));
@@ -460,7 +462,11 @@ class Runner {
       totals[2 * m] = local.proposed[m];
       totals[2 * m + 1] = local.accepted[m];
     }
-    totals[2 * kNumMoves] = local.total_proposed() - at_start_local.total_proposed();
+    // Effective proposals: with rejection skipping the skipped rejections are steps that the
+    // move counts (evaluated proposals only) leave out; without it every step is one proposal.
+    totals[2 * kNumMoves] = o_.skip_rejections
+                                ? slots_.size() * summary.session_steps
+                                : local.total_proposed() - at_start_local.total_proposed();
     mpi::allreduce_sum(totals);
     for (int m = 0; m < kNumMoves; ++m) {
       summary.counts.proposed[m] = totals[2 * m];
@@ -486,20 +492,50 @@ class Runner {
       reserve_for_append(p.draws, rows * width_);
       reserve_for_append(p.log_scores, rows);
       reserve_for_append(p.draw_steps, rows);
+      if (o_.skip_rejections) {
+        run_skipping(s, first, last);
+        return;
+      }
       for (std::uint64_t step = first; step <= last; ++step) {
         if (s.chain.step(s.rng)) {
           p.regenerations.push_back(static_cast<std::int64_t>(step));
           ++s.regenerations;
         }
-        if (step % o_.thin == 0 && step > o_.burn_in) {
-          const std::size_t at = p.draws.size();
-          p.draws.resize(at + width_);
-          s.chain.write_parents(p.draws.data() + at);
-          p.log_scores.push_back(s.chain.log_score());
-          p.draw_steps.push_back(static_cast<std::int64_t>(step));
-        }
+        if (step % o_.thin == 0 && step > o_.burn_in) record(s, step);
       }
     });
+  }
+
+  void record(Slot& s, std::uint64_t step) const {
+    auto& p = s.pending;
+    const std::size_t at = p.draws.size();
+    p.draws.resize(at + width_);
+    s.chain.write_parents(p.draws.data() + at);
+    p.log_scores.push_back(s.chain.log_score());
+    p.draw_steps.push_back(static_cast<std::int64_t>(step));
+  }
+
+  // Steps first..last of one chain with rejection skipping (docs/chains.md, "Rejection
+  // skipping"): the quiet steps before each event repeat the state, so every thin-th of them
+  // records it as the plain chain would; a wait past `last` stays with the chain for the next
+  // segment (and in the checkpoint), so segment ends, set by the clock, and resumes leave the
+  // trajectory unchanged.
+  void run_skipping(Slot& s, std::uint64_t first, std::uint64_t last) const {
+    for (std::uint64_t step = first; step <= last;) {
+      const std::uint64_t quiet = s.chain.quiet_steps(s.rng, last - step + 1);
+      const std::uint64_t lo = std::max(step, o_.burn_in + 1);
+      const std::uint64_t end = step + quiet;  // the quiet steps are [step, end)
+      for (std::uint64_t t = (lo + o_.thin - 1) / o_.thin * o_.thin; t < end; t += o_.thin)
+        record(s, t);
+      step = end;
+      if (step > last) break;
+      if (s.chain.event_step(s.rng)) {
+        s.pending.regenerations.push_back(static_cast<std::int64_t>(step));
+        ++s.regenerations;
+      }
+      if (step % o_.thin == 0 && step > o_.burn_in) record(s, step);
+      ++step;
+    }
   }
 
   std::vector<chain_file::ChainBlock> blocks() {
@@ -515,6 +551,7 @@ class Runner {
       b.state.rng_state = save_stream(s->rng);
       b.state.counts = s->chain.counts();
       b.state.regenerations = s->regenerations;
+      b.state.skip_wait = s->chain.skip_wait();
       out.push_back(std::move(b));
     }
     return out;

@@ -20,6 +20,9 @@ struct ChainFaults {
   // Local moves decided on the exact scores alone, without the float screen (which gives the
   // same trajectory; the tests and the benchmark compare the two). Not a fault of the target.
   bool exact_local_moves = false;
+  // Rejection skipping with events that take a uniform local-move slot instead of one drawn by
+  // its bound b_s, and accept it whenever it is valid (the score ratio ignored).
+  bool skip_uniform_events = false;
 };
 
 // The block fault of a chain's faults (none without faults).

@@ -101,6 +101,13 @@ class ScreenScores {
   // s_v(S) exactly (S in the table), from a dense double array read only for proposals that the
   // screen lets through.
   double exact(int v, ParentMask local) const { return exact_[index(v, local)]; }
+  // s_v(S) exactly into `score` when S is in the table (one index computation for both).
+  bool find_exact(int v, ParentMask local, double& score) const {
+    const std::size_t at = index(v, local);
+    if (at == kNone || screen_[at] == -INFINITY) return false;
+    score = exact_[at];
+    return true;
+  }
   // Bound on |screened - exact| of one node's term s_v(S') - s_v(S) in a log ratio.
   double margin(int v) const { return margin_[v]; }
 

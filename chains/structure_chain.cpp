@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <bit>
 #include <cmath>
+#include <limits>
 #include <numbers>
 
 #include "block_move.hpp"
@@ -14,6 +15,10 @@ namespace covey {
 namespace {
 
 constexpr double kLn2 = std::numbers::ln2;
+// Log Hastings factor that makes accept_change() accept every proposal whose parent sets are in
+// the table: under rejection skipping the score ratio was accepted through the skip bound
+// (docs/chains.md, "Rejection skipping"), so only the table, cycles and the restriction decide.
+constexpr double kBoundAccepted = std::numeric_limits<double>::infinity();
 
 std::uint64_t probability_threshold(double p) {
   if (p <= 0) return 0;
@@ -118,6 +123,7 @@ StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& confi
   if (track_dag_) dag_ = Dag(n_);
   // Start at the empty graph when allowed; otherwise the caller must set a start state.
   for (int v = 0; v < n_; ++v) score_[v] = table.log_score(v, 0);
+  if (config.skip_rejections) build_skip_bounds();
 }
 
 StructureChain::~StructureChain() = default;
@@ -351,12 +357,14 @@ bool StructureChain::check_invariants() const {
   }
   for (int v = 0; v < n_; ++v)
     if (test(&a[std::size_t(v) * words_], v)) return false;  // cycle
+  if (skip_ && !skip_bounds_consistent()) return false;
   return a == anc_;
 }
 
 // ---- Steps -------------------------------------------------------------------------------
 
 bool StructureChain::step(Rng& rng) {
+  if (skip_) return quiet_steps(rng, 1) == 0 && event_step(rng);
   if (mixed_kernels_) {
     const std::uint64_t r = rng();
     if (r < rev_threshold_) {
@@ -371,15 +379,18 @@ bool StructureChain::step(Rng& rng) {
 }
 
 void StructureChain::local_move(Rng& rng) {
-  const std::uint64_t pick = uniform_below(rng, 2 * pairs_.size());
+  local_move_on_slot(rng, uniform_below(rng, 2 * pairs_.size()), false);
+}
+
+void StructureChain::local_move_on_slot(Rng& rng, std::uint64_t pick, bool bounded) {
   const Pair& pair = pairs_[pick >> 1];
   const ParentMask bit = ParentMask{1} << pair.pos_in_to;
   if (!(local_[pair.to] & bit))
-    propose_add(rng, pair.from, pair.to, bit);  // both coin sides: q(add) = 1/|P|
+    propose_add(rng, pair.from, pair.to, bit, bounded);  // both coin sides: q(add) = 1/|P|
   else if (pick & 1)
-    propose_delete(rng, pair.from, pair.to, bit);  // q(delete) = 1/(2|P|)
+    propose_delete(rng, pair.from, pair.to, bit, bounded);  // q(delete) = 1/(2|P|)
   else
-    propose_reverse(rng, pair, bit);  // q(reverse) = 1/(2|P|) both ways
+    propose_reverse(rng, pair, bit, bounded);  // q(reverse) = 1/(2|P|) both ways
 }
 
 // Metropolis-Hastings decision for new parent sets of one or two nodes, with log Hastings factor
@@ -413,12 +424,13 @@ bool StructureChain::accept_change(Rng& rng, NodeChange (&change)[N], double log
   return screened_accept(rng, screened, margin, exact_ratio);
 }
 
-void StructureChain::propose_add(Rng& rng, int u, int v, ParentMask bit) {
+void StructureChain::propose_add(Rng& rng, int u, int v, ParentMask bit, bool bounded) {
   ++counts_.proposed[int(Move::kAdd)];
   if (test(anc(u), v)) return;  // v ~> u already: the edge would close a cycle
   NodeChange change[1] = {{v, local_[v] | bit, 0}};
   // Hastings factor q(G'->G)/q(G->G') = (1/(2|P|)) / (1/|P|) = 1/2.
-  if (!accept_change(rng, change, dropped(Move::kAdd) ? 0.0 : -kLn2)) return;
+  const double log_hastings = dropped(Move::kAdd) ? 0.0 : -kLn2;
+  if (!accept_change(rng, change, bounded ? kBoundAccepted : log_hastings)) return;
   const ParentMask next = change[0].next;
   const double s = change[0].score;
   if (track_dag_) {  // always on under a restriction (checked in the constructor)
@@ -442,11 +454,12 @@ void StructureChain::propose_add(Rng& rng, int u, int v, ParentMask bit) {
   }
 }
 
-void StructureChain::propose_delete(Rng& rng, int u, int v, ParentMask bit) {
+void StructureChain::propose_delete(Rng& rng, int u, int v, ParentMask bit, bool bounded) {
   ++counts_.proposed[int(Move::kDelete)];
   NodeChange change[1] = {{v, local_[v] & ~bit, 0}};
   // Hastings factor (1/|P|) / (1/(2|P|)) = 2.
-  if (!accept_change(rng, change, dropped(Move::kDelete) ? 0.0 : kLn2)) return;
+  const double log_hastings = dropped(Move::kDelete) ? 0.0 : kLn2;
+  if (!accept_change(rng, change, bounded ? kBoundAccepted : log_hastings)) return;
   const ParentMask next = change[0].next;
   const double s = change[0].score;
   if (track_dag_) {
@@ -464,7 +477,7 @@ void StructureChain::propose_delete(Rng& rng, int u, int v, ParentMask bit) {
   if (!ancestors_of_parents_equal(v)) recompute_ancestors_below(v);
 }
 
-void StructureChain::propose_reverse(Rng& rng, const Pair& pair, ParentMask bit) {
+void StructureChain::propose_reverse(Rng& rng, const Pair& pair, ParentMask bit, bool bounded) {
   ++counts_.proposed[int(Move::kReverse)];
   const int u = pair.from, v = pair.to;
   if (pair.pos_in_from < 0) return;  // v may never be a parent of u
@@ -475,7 +488,7 @@ void StructureChain::propose_reverse(Rng& rng, const Pair& pair, ParentMask bit)
   NodeChange change[2] = {{v, local_[v] & ~bit, 0},
                           {u, local_[u] | (ParentMask{1} << pair.pos_in_from), 0}};
   // Symmetric proposal: the reverse move picks (v, u) and tails with the same probability.
-  if (!accept_change(rng, change, 0.0)) return;
+  if (!accept_change(rng, change, bounded ? kBoundAccepted : 0.0)) return;
   const ParentMask next_v = change[0].next, next_u = change[1].next;
   const double s_v = change[0].score, s_u = change[1].score;
   if (track_dag_) {

@@ -32,6 +32,35 @@ TEST(ChainTeleportCli, TeleportsRegenerateAndLimitMustContainTeleportClass) {
       << bad.err;
 }
 
+// --skip-rejections with teleports (their events drawn with the non-local share of the event
+// rate): teleports still regenerate, every step counts as an effective proposal, and the option
+// is fixed in the run file (a resume cannot turn it off).
+TEST(ChainTeleportCli, SkipRejectionsIsStoredAndFixedOnResume) {
+  testing_util::TempDir dir;
+  write_scores_tsv(testing_util::random_full_table(5, 2, 17), dir.file("s.tsv"));
+  const std::string run = " -o " + dir.file("run.h5");
+  const auto r = run_covey("chain " + dir.file("s.tsv") + run +
+                           " --chains 2 --steps 20000 --thin 10 --teleport-cover 2 "
+                           "--teleport-rate 0.05 --seed 3 --skip-rejections --json");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  const auto summary = nlohmann::json::parse(r.out);
+  EXPECT_GT(summary["regenerations"].get<long>(), 2);
+  EXPECT_EQ(summary["steps"].get<long>(), 20000);
+  const auto same = run_covey("chain " + dir.file("s.tsv") + run +
+                              " --steps 30000 --resume --skip-rejections --json");
+  EXPECT_EQ(same.exit_code, 0) << same.err;
+  const auto kept = run_covey("chain " + dir.file("s.tsv") + run + " --steps 40000 --resume");
+  EXPECT_EQ(kept.exit_code, 0) << kept.err;  // not given: the stored option holds
+  const auto plain = run_covey("chain " + dir.file("s.tsv") + " -o " + dir.file("plain.h5") +
+                               " --chains 1 --steps 1000");
+  ASSERT_EQ(plain.exit_code, 0) << plain.err;
+  const auto bad = run_covey("chain " + dir.file("s.tsv") + " -o " + dir.file("plain.h5") +
+                             " --steps 2000 --resume --skip-rejections");
+  EXPECT_NE(bad.exit_code, 0);
+  EXPECT_NE(bad.err.find("--skip-rejections cannot be changed on --resume"), std::string::npos)
+      << bad.err;
+}
+
 // Teleports into a class that holds almost none of the posterior are said to be useless, once,
 // on the terminal and in the run's JSON and session record, from the bound U / w(G) of the mass.
 TEST(ChainTeleportCli, SaysWhenTheTeleportClassHoldsNoMass) {

@@ -13,6 +13,7 @@
 #include <iterator>
 #include <map>
 #include <string>
+#include <unordered_map>
 
 #include "../chains/chain_testing.hpp"
 #include "../chains/move_kernels.hpp"
@@ -29,13 +30,22 @@ using testing_util::EnumeratedTeleport;
 using testing_util::ExactPosterior;
 
 struct Comparison {
-  double max_z = 0;  // largest |estimate - exact| / MCSE over all edges
+  double max_z = 0;  // largest |estimate - exact| / MCSE over all edges (and DAG bins, if any)
   double tv = -1;    // total variation of DAG frequencies (n = 4 only)
   std::string worst;
   std::uint64_t regenerations = 0;
 };
 
 constexpr int kBatches = 50;
+
+// Mean of kBatches batch means and its Monte Carlo standard error.
+std::pair<double, double> batch_mean_and_mcse(const double* means) {
+  double mean = 0, var = 0;
+  for (int b = 0; b < kBatches; ++b) mean += means[b];
+  mean /= kBatches;
+  for (int b = 0; b < kBatches; ++b) var += std::pow(means[b] - mean, 2);
+  return {mean, std::sqrt(var / (kBatches - 1) / kBatches)};
+}
 
 // A chain's configuration with the tests' deliberate faults (chains/chain_testing.hpp).
 struct FaultyConfig {
@@ -45,9 +55,19 @@ struct FaultyConfig {
   ChainFaults faults;
 };
 
+// The DAG key of run_and_compare: node v's parent bits at bits [n v, n v + n).
+std::uint32_t dag_key(const std::vector<std::uint64_t>& parents, int n) {
+  std::uint32_t key = 0;
+  for (int v = 0; v < n; ++v) key |= static_cast<std::uint32_t>(parents[v]) << (n * v);
+  return key;
+}
+
+// `dag_bins` > 0 also compares the frequencies of that many classes of DAGs, each of about equal
+// exact mass (the DAGs sorted by probability and cut into consecutive runs), so that every DAG,
+// not only the edge marginals, enters the check (n = 5 has too many DAGs for a TV distance).
 Comparison run_and_compare(const ScoreTable& table, const FaultyConfig& setup,
                            const ExactPosterior& exact, std::uint64_t steps, std::uint64_t seed,
-                           const Dag* start = nullptr, bool valid_states = true) {
+                           const Dag* start = nullptr, bool valid_states = true, int dag_bins = 0) {
   const int n = table.num_variables();
   StructureChain chain = make_faulty_chain(table, setup.config, setup.faults);
   if (start) chain.set_dag(*start);
@@ -58,9 +78,26 @@ Comparison run_and_compare(const ScoreTable& table, const FaultyConfig& setup,
   std::vector<std::uint32_t> dag_counts(n == 4 ? (1u << 16) : 0, 0);
   std::vector<std::uint64_t> words(n);
   std::vector<std::uint32_t> in_batch(std::size_t(n) * n, 0);
+  std::unordered_map<std::uint32_t, int> bin_of;
+  std::vector<double> bin_mass(dag_bins, 0.0), bin_means(std::size_t(dag_bins) * kBatches, 0.0);
+  std::vector<std::uint32_t> bin_in_batch(dag_bins, 0);
+  if (dag_bins > 0) {
+    std::vector<std::size_t> order(exact.dags.size());
+    for (std::size_t g = 0; g < order.size(); ++g) order[g] = g;
+    std::sort(order.begin(), order.end(),
+              [&](std::size_t a, std::size_t b) { return exact.prob[a] < exact.prob[b]; });
+    double below = 0;
+    for (std::size_t g : order) {
+      const int bin = std::min(dag_bins - 1, static_cast<int>(below * dag_bins));
+      bin_of[dag_key(exact.dags[g].parents, n)] = bin;
+      bin_mass[bin] += exact.prob[g];
+      below += exact.prob[g];
+    }
+  }
   Comparison out;
   for (int b = 0; b < kBatches; ++b) {
     std::fill(in_batch.begin(), in_batch.end(), 0);
+    std::fill(bin_in_batch.begin(), bin_in_batch.end(), 0);
     for (std::uint64_t s = 0; s < batch_len; ++s) {
       out.regenerations += chain.step(rng);
       chain.write_parents(words.data());
@@ -70,9 +107,25 @@ Comparison run_and_compare(const ScoreTable& table, const FaultyConfig& setup,
         for (std::uint64_t m = words[v]; m; m &= m - 1) ++in_batch[std::countr_zero(m) * n + v];
       }
       if (!dag_counts.empty()) ++dag_counts[key];
+      if (dag_bins > 0) {
+        const auto it = bin_of.find(key);
+        if (it != bin_of.end()) ++bin_in_batch[it->second];  // else: outside the support
+      }
     }
     for (std::size_t e = 0; e < in_batch.size(); ++e)
       batch_means[e * kBatches + b] = double(in_batch[e]) / double(batch_len);
+    for (int k = 0; k < dag_bins; ++k)
+      bin_means[std::size_t(k) * kBatches + b] = double(bin_in_batch[k]) / double(batch_len);
+  }
+  for (int k = 0; k < dag_bins; ++k) {
+    const auto [mean, mcse] = batch_mean_and_mcse(&bin_means[std::size_t(k) * kBatches]);
+    const double diff = std::abs(mean - bin_mass[k]);
+    const double z = mcse > 0 ? diff / mcse : (diff < 1e-12 ? 0.0 : INFINITY);
+    if (z > out.max_z) {
+      out.max_z = z;
+      out.worst = "DAG bin " + std::to_string(k) + " estimate " + std::to_string(mean) + " exact " +
+                  std::to_string(bin_mass[k]) + " mcse " + std::to_string(mcse);
+    }
   }
   if (valid_states) {
     EXPECT_TRUE(chain.check_invariants());
@@ -81,11 +134,7 @@ Comparison run_and_compare(const ScoreTable& table, const FaultyConfig& setup,
     for (int v = 0; v < n; ++v) {
       if (u == v) continue;
       const std::size_t e = std::size_t(u) * n + v;
-      double mean = 0, var = 0;
-      for (int b = 0; b < kBatches; ++b) mean += batch_means[e * kBatches + b];
-      mean /= kBatches;
-      for (int b = 0; b < kBatches; ++b) var += std::pow(batch_means[e * kBatches + b] - mean, 2);
-      const double mcse = std::sqrt(var / (kBatches - 1) / kBatches);
+      const auto [mean, mcse] = batch_mean_and_mcse(&batch_means[e * kBatches]);
       const double diff = std::abs(mean - exact.edge[e]);
       const double z = mcse > 0 ? diff / mcse : (diff < 1e-12 ? 0.0 : INFINITY);
       if (z > out.max_z) {
@@ -99,10 +148,7 @@ Comparison run_and_compare(const ScoreTable& table, const FaultyConfig& setup,
     // Exact probabilities by key; DAGs outside the support have probability 0.
     std::vector<double> p(dag_counts.size(), 0.0);
     for (std::size_t g = 0; g < exact.dags.size(); ++g) {
-      std::uint32_t key = 0;
-      for (int v = 0; v < n; ++v)
-        key |= static_cast<std::uint32_t>(exact.dags[g].parents[v]) << (n * v);
-      p[key] = exact.prob[g];
+      p[dag_key(exact.dags[g].parents, n)] = exact.prob[g];
     }
     const double total = double(batch_len) * kBatches;
     double tv = 0;
@@ -538,6 +584,100 @@ TEST(StructureChainStationarity, BlockMovesRestrictedToCoverClass) {
   const Comparison whole = run_and_compare(table, config, exact, kSteps / 2, 27);
   EXPECT_TRUE(passes(whole)) << describe(whole);
   EXPECT_GT(whole.regenerations, kSteps / 2 / 100);
+}
+
+// Rejection skipping (docs/chains.md, "Rejection skipping"): the chain that draws the wait to
+// the next event instead of stepping through rejections has the plain chain's law. Checked
+// against enumeration: n = 4 with the TV distance over all 543 DAGs, n = 5 with the edges and
+// 20 DAG bins of equal exact mass; the broken twin takes a uniform slot at each event and
+// accepts it whenever it is valid (the bound ignored), and must fail the same checks.
+constexpr int kDagBins = 20;
+
+TEST(RejectionSkipping, LocalMovesMatchEnumeration) {
+  const ScoreTable t4 = testing_util::random_full_table(4, 3, 31);
+  const ExactPosterior exact4 = testing_util::exact_posterior(t4, nullptr);
+  ChainConfig config;
+  config.skip_rejections = true;
+  const Comparison ok4 = run_and_compare(t4, config, exact4, kSteps, 31);
+  EXPECT_TRUE(passes(ok4)) << describe(ok4);
+
+  const ScoreTable t5 = testing_util::random_full_table(5, 3, 32);
+  const ExactPosterior exact5 = testing_util::exact_posterior(t5, nullptr);
+  const Comparison ok5 = run_and_compare(t5, config, exact5, kSteps, 32, nullptr, true, kDagBins);
+  EXPECT_TRUE(passes(ok5)) << describe(ok5);
+  FaultyConfig wrong{config};
+  wrong.faults.skip_uniform_events = true;
+  const Comparison bad4 = run_and_compare(t4, wrong, exact4, kSteps, 31);
+  EXPECT_FALSE(passes(bad4)) << "uniform events went unnoticed at n = 4: " << describe(bad4);
+  const Comparison bad5 = run_and_compare(t5, wrong, exact5, kSteps, 32, nullptr, true, kDagBins);
+  EXPECT_FALSE(passes(bad5)) << "uniform events went unnoticed at n = 5: " << describe(bad5);
+  // The bounds carry the Hastings factors: dropping them under skipping is caught too.
+  FaultyConfig no_hastings{config};
+  no_hastings.faults.drop_hastings = (1u << int(Move::kAdd)) | (1u << int(Move::kDelete));
+  const Comparison bad_h = run_and_compare(t4, no_hastings, exact4, kSteps, 31);
+  EXPECT_FALSE(passes(bad_h)) << describe(bad_h);
+}
+
+// Skipping with REV and exact block moves mixed in (their events drawn with probability
+// p_other / e), inside a class (D_2: the bound ignores it, the event checks it), and with
+// teleports from D_2; n = 5.
+TEST(RejectionSkipping, WithRevAndBlocksN5) {
+  const ScoreTable table = testing_util::random_full_table(5, 3, 33);
+  const ExactPosterior exact = testing_util::exact_posterior(table, nullptr);
+  ChainConfig config;
+  config.skip_rejections = true;
+  config.rev_rate = 0.1;
+  config.block_rate = 0.05;
+  config.block_size = 2;
+  const Comparison ok = run_and_compare(table, config, exact, kSteps, 33, nullptr, true, kDagBins);
+  EXPECT_TRUE(passes(ok)) << describe(ok);
+  FaultyConfig wrong{config};
+  wrong.faults.skip_uniform_events = true;
+  const Comparison bad = run_and_compare(table, wrong, exact, kSteps, 33, nullptr, true, kDagBins);
+  EXPECT_FALSE(passes(bad)) << describe(bad);
+
+  const BruteForceCoverClass d2(2);
+  const ExactPosterior restricted = testing_util::exact_posterior(table, &d2);
+  config.restriction = &d2;
+  config.block_rate = 0;
+  const Comparison in_class =
+      run_and_compare(table, config, restricted, kSteps, 34, nullptr, true, kDagBins);
+  EXPECT_TRUE(passes(in_class)) << describe(in_class);
+
+  const EnumeratedTeleport source(table, d2);  // teleports from D_2, unrestricted target
+  config.restriction = nullptr;
+  config.teleport = &source;
+  config.teleport_rate = 0.05;
+  const Comparison teleported =
+      run_and_compare(table, config, exact, kSteps, 37, nullptr, true, kDagBins);
+  EXPECT_TRUE(passes(teleported)) << describe(teleported);
+  EXPECT_GT(teleported.regenerations, kSteps / 100);
+}
+
+// The wait to the next event is chain state: stepping one step at a time (step()) and skipping
+// through budgets of any length (quiet_steps(), event_step()) give the same trajectory, so the
+// runner's segment ends, set by the clock, do not change it.
+TEST(RejectionSkipping, TrajectoryDoesNotDependOnBudgets) {
+  const ScoreTable table = testing_util::random_full_table(8, 3, 35);
+  ChainConfig config;
+  config.skip_rejections = true;
+  config.rev_rate = 0.05;
+  StructureChain stepped(table, config), skipped(table, config);
+  Rng rng_a = make_stream(35, 0), rng_b = make_stream(35, 0), budgets = make_stream(36, 0);
+  constexpr std::uint64_t kTotal = 200'000;
+  std::uint64_t done = 0;
+  while (done < kTotal) {
+    const std::uint64_t budget = std::min(kTotal - done, 1 + uniform_below(budgets, 5000));
+    const std::uint64_t quiet = skipped.quiet_steps(rng_b, budget);
+    if (quiet < budget) skipped.event_step(rng_b);
+    const std::uint64_t advanced = std::min(budget, quiet + 1);
+    for (std::uint64_t s = 0; s < advanced; ++s) stepped.step(rng_a);
+    done += advanced;
+    ASSERT_EQ(stepped.parents_words(), skipped.parents_words()) << "after " << done << " steps";
+  }
+  EXPECT_EQ(stepped.counts(), skipped.counts());
+  EXPECT_GT(stepped.counts().accepted[int(Move::kAdd)], 100u);
+  EXPECT_TRUE(skipped.check_invariants());
 }
 
 }  // namespace

@@ -40,6 +40,7 @@ struct ChainArgs {
   std::string sampler;       // saved cover sampler for --teleport-cover
   std::string memory_limit;  // ceiling of the teleport sampler's memory
   bool resume = false, json = false, force = false;
+  bool skip_rejections = false;
 };
 
 std::atomic<int> g_stop_signal{0};
@@ -175,6 +176,7 @@ ChainRunOptions fixed_options_of(const ChainArgs& a) {
   o.start_cover = a.start_cover;
   o.block_size = a.block_size;
   o.block_rate = a.block_rate;
+  o.skip_rejections = a.skip_rejections;
   return o;
 }
 
@@ -263,6 +265,10 @@ void setup_chain(CLI::App& app) {
   cmd->add_option("--block-rate", a->block_rate,
                   "probability per step of an exact block move (default: block steps take about "
                   "half the run time; stored in the run file)");
+  cmd->add_flag("--skip-rejections", a->skip_rejections,
+                "skip the rejected local moves by drawing the wait to the next evaluated one (the "
+                "same chain in law, faster when most moves are rejected; default off; stored in "
+                "the run file)");
   cmd->add_option("--start", a->start,
                   "greedy (each chain the best DAG of its own random node order; the default), "
                   "empty, exact (an exact draw from D_k per chain, k = --start-cover; default "

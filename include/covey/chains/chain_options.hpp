@@ -35,6 +35,10 @@ struct ChainRunOptions {
   // created. The chosen values are stored, so a resume reuses them. 0: no block moves.
   int block_size = -1;
   double block_rate = -1;
+  // Rejection skipping (docs/chains.md, "Rejection skipping"): the rejected local moves between
+  // two evaluated ones are skipped by a geometric draw; the same chain in law, faster when most
+  // local moves are rejected.
+  bool skip_rejections = false;
   // Stopping and checkpointing (may be given anew on resume).
   std::uint64_t steps = 0;        // total steps per chain; 0: no step limit
   double max_seconds = 0;         // wall time of this session; 0: no limit
@@ -63,7 +67,7 @@ ChainRunOptions with_default_choices(ChainRunOptions options);
 
 // The names of the options fixed at creation, as library fields (OptionError spells them):
 // chains, thin, burn_in, seed, rev_rate, teleport_rate, teleport_cover, cover_limit, start,
-// start_cover, block_size, block_rate.
+// start_cover, block_size, block_rate, skip_rejections.
 std::span<const char* const> fixed_option_fields();
 
 // The options to continue the run at `run_path` with: its stored fixed options and the session

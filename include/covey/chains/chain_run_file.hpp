@@ -7,6 +7,7 @@
 // A run file is always a complete checkpoint: each checkpoint writes a new file and renames it
 // over the old one, so a killed run leaves the file of its last checkpoint.
 #include <cstdint>
+#include <optional>
 #include <span>
 #include <string>
 #include <utility>
@@ -33,6 +34,9 @@ struct ChainCheckpoint {
   std::string rng_state;               // save_stream() text
   MoveCounts counts;
   std::uint64_t regenerations = 0;  // accepted teleports so far
+  // Rejection skipping: the quiet steps left before the next event, when the chain holds a
+  // wait (docs/chains.md, "Rejection skipping"); none in runs without skipping.
+  std::optional<std::uint64_t> skip_wait;
 };
 
 class ChainRun {

@@ -52,9 +52,10 @@ struct ChainRunSummary {
   std::uint64_t session_steps = 0;  // per chain, this session
   std::uint64_t draws = 0;          // thinned draws per chain
   std::size_t checkpoints = 0;
-  double seconds = 0;                        // this session's wall time
-  double checkpoint_seconds = 0;             // of which writing checkpoints
-  std::uint64_t session_proposals = 0;       // all chains, this session
+  double seconds = 0;             // this session's wall time
+  double checkpoint_seconds = 0;  // of which writing checkpoints
+  // All chains, this session; with skip_rejections the steps, skipped rejections included.
+  std::uint64_t session_proposals = 0;
   MoveCounts counts;                         // all chains, whole run
   std::vector<std::uint64_t> regenerations;  // per chain, whole run
   std::string stop_reason;                   // "steps", "max-time", "converged", "signal"

@@ -35,6 +35,7 @@
 #include <cstdint>
 #include <limits>
 #include <memory>
+#include <optional>
 #include <span>
 #include <string>
 #include <vector>
@@ -92,6 +93,10 @@ struct ChainConfig {
   // them (uniformly) with probability block_family_share, else a uniform m-subset.
   std::vector<std::vector<int>> block_family;
   double block_family_share = 0.5;
+  // Rejection skipping (docs/chains.md, "Rejection skipping"): the steps up to the next
+  // accepted-or-evaluated move are drawn at once (a geometric wait) instead of one by one. Same
+  // law as the plain chain; used through quiet_steps() and event_step() instead of step().
+  bool skip_rejections = false;
 };
 
 class BlockMove;     // chains/block_move.hpp
@@ -120,6 +125,18 @@ class StructureChain {
   // One transition of the chain. Returns true when a teleport (or a block move over all nodes)
   // regenerated the chain.
   bool step(Rng& rng);
+
+  // Rejection skipping (needs config.skip_rejections; docs/chains.md, "Rejection skipping").
+  // quiet_steps() consumes the steps before the next event, at most `budget`, and returns how
+  // many: in them the plain chain would only reject local moves, so the state stays. When it
+  // returns less than `budget`, the next step is the event: event_step() runs it and returns
+  // what step() would. A wait that reaches past `budget` is kept for the next call.
+  std::uint64_t quiet_steps(Rng& rng, std::uint64_t budget);
+  bool event_step(Rng& rng);
+  // The held wait (quiet steps left before the next event), if any, and setting it after
+  // set_parents() when a checkpoint is restored, so that a resumed run continues bit for bit.
+  std::optional<std::uint64_t> skip_wait() const;
+  void set_skip_wait(std::optional<std::uint64_t> wait);
 
   // The exact block move on a given block (distinct node indices, any order): redraws the
   // parent sets of the block's nodes from their exact conditional given all other parent sets
@@ -167,9 +184,22 @@ class StructureChain {
   template <std::size_t N>
   bool accept_change(Rng& rng, NodeChange (&change)[N], double log_hastings);
   void local_move(Rng& rng);
-  void propose_add(Rng& rng, int u, int v, ParentMask bit);
-  void propose_delete(Rng& rng, int u, int v, ParentMask bit);
-  void propose_reverse(Rng& rng, const Pair& pair, ParentMask bit);
+  // `bounded`: the score ratio was already accepted through the skip bound (rejection
+  // skipping), so only cycles, the table and the restriction decide.
+  void local_move_on_slot(Rng& rng, std::uint64_t slot, bool bounded);
+  void propose_add(Rng& rng, int u, int v, ParentMask bit, bool bounded);
+  void propose_delete(Rng& rng, int u, int v, ParentMask bit, bool bounded);
+  void propose_reverse(Rng& rng, const Pair& pair, ParentMask bit, bool bounded);
+  // Rejection skipping (chains/rejection_skip.cpp).
+  void build_skip_bounds();
+  void pair_bounds(std::size_t pair, double& coin0, double& coin1) const;
+  void set_pair_bounds(std::size_t pair);
+  bool skip_bounds_consistent() const;
+  bool lookup_score(int v, ParentMask set, double& score) const;
+  void refresh_bounds_of(int x, ParentMask changed);
+  void refresh_changed_bounds();  // after an event: nodes whose parent set changed
+  std::uint64_t draw_bounded_slot(Rng& rng) const;
+  bool non_local_event(Rng& rng);
   void rev_move(Rng& rng);
   bool teleport(Rng& rng);
   bool block_move(Rng& rng);  // chains/block_move.cpp
@@ -217,6 +247,18 @@ class StructureChain {
   Dag dag_;  // global masks, kept in step when n <= 64 (for class tests)
   bool track_dag_ = false;
   MoveCounts counts_;
+  // Rejection skipping: per local-move slot s = 2 * pair + coin (local_move's pick) its bound
+  // b_s >= a_s; the slots of the pairs into node v are contiguous ([into_first_[v],
+  // into_first_[v + 1]) pairs), summed per node; from_pairs_ lists per node the pairs out of it.
+  bool skip_ = false;
+  double other_rate_ = 0;  // probability of a non-local step (REV, teleport, block)
+  std::vector<double> bound_, node_bound_;
+  double bound_total_ = 0;
+  std::vector<std::uint32_t> into_first_, from_first_, from_pairs_;
+  std::vector<ParentMask> bound_parents_;
+  std::vector<std::uint8_t> bound_dirty_;
+  std::uint64_t wait_ = 0;  // quiet steps left before the next event, when wait_held_
+  bool wait_held_ = false;
   // Scratch, sized once.
   std::vector<std::int32_t> list_, stack_;
   std::vector<ParentMask> stack_rest_;
