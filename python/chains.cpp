@@ -34,6 +34,7 @@ struct FixedArguments {
   std::optional<int> start_cover;
   std::optional<int> block_size;
   std::optional<double> block_rate;
+  std::optional<bool> skip_rejections;
 };
 
 // The library's defaults (the CLI's too) for options not given.
@@ -51,6 +52,7 @@ ChainRunOptions fixed_options_of(const FixedArguments& a) {
   if (a.start_cover) o.start_cover = *a.start_cover;
   if (a.block_size) o.block_size = *a.block_size;
   if (a.block_rate) o.block_rate = *a.block_rate;
+  if (a.skip_rejections) o.skip_rejections = *a.skip_rejections;
   return o;
 }
 
@@ -68,7 +70,8 @@ std::vector<std::string> given_fields(const FixedArguments& a) {
                                                {"start", bool(a.start)},
                                                {"start_cover", bool(a.start_cover)},
                                                {"block_size", bool(a.block_size)},
-                                               {"block_rate", bool(a.block_rate)}};
+                                               {"block_rate", bool(a.block_rate)},
+                                               {"skip_rejections", bool(a.skip_rejections)}};
   for (const auto& [key, is_given] : keys)
     if (is_given) out.emplace_back(key);
   return out;
@@ -88,6 +91,7 @@ py::dict options_dict(const ChainRunOptions& o) {
   d["start_cover"] = o.start_cover;
   d["block_size"] = o.block_size;
   d["block_rate"] = o.block_rate;
+  d["skip_rejections"] = o.skip_rejections;
   return d;
 }
 
@@ -335,13 +339,14 @@ void bind_chains(py::module_& m) {
          std::optional<double> rev_rate, std::optional<int> cover_limit,
          std::optional<std::string> start, std::optional<int> start_cover,
          std::optional<int> block_size, std::optional<double> block_rate,
-         const py::object& max_time, const py::object& checkpoint_every,
-         const py::object& check_every, double until_rhat, double until_ess,
-         const std::string& teleport_sampler, const py::object& memory_limit, int threads,
-         bool resume, bool force, bool progress, const py::object& stop, const py::object& report) {
-        const FixedArguments fixed{chains,         thin,          burn_in,    seed,
-                                   teleport_cover, teleport_rate, rev_rate,   cover_limit,
-                                   start,          start_cover,   block_size, block_rate};
+         std::optional<bool> skip_rejections, const py::object& max_time,
+         const py::object& checkpoint_every, const py::object& check_every, double until_rhat,
+         double until_ess, const std::string& teleport_sampler, const py::object& memory_limit,
+         int threads, bool resume, bool force, bool progress, const py::object& stop,
+         const py::object& report) {
+        const FixedArguments fixed{chains,        thin,       burn_in,        seed,  teleport_cover,
+                                   teleport_rate, rev_rate,   cover_limit,    start, start_cover,
+                                   block_size,    block_rate, skip_rejections};
         return chain(table, path, fixed, steps, max_time, checkpoint_every, check_every, until_rhat,
                      until_ess, teleport_sampler, memory_limit, threads, resume, force, progress,
                      stop, report);
@@ -349,7 +354,7 @@ void bind_chains(py::module_& m) {
       py::arg("table"), py::arg("path"), py::arg("chains"), py::arg("steps"), py::arg("thin"),
       py::arg("burn_in"), py::arg("seed"), py::arg("teleport_cover"), py::arg("teleport_rate"),
       py::arg("rev_rate"), py::arg("cover_limit"), py::arg("start"), py::arg("start_cover"),
-      py::arg("block_size"), py::arg("block_rate"), py::arg("max_time"),
+      py::arg("block_size"), py::arg("block_rate"), py::arg("skip_rejections"), py::arg("max_time"),
       py::arg("checkpoint_every"), py::arg("check_every"), py::arg("until_rhat"),
       py::arg("until_ess"), py::arg("teleport_sampler"), py::arg("memory_limit"),
       py::arg("threads"), py::arg("resume"), py::arg("force"), py::arg("progress"), py::arg("stop"),

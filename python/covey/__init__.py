@@ -256,7 +256,7 @@ def _progress_of(progress):
 
 def chain(table, path, *, steps=None, chains=None, thin=None, burn_in=None, seed=None,
           teleport_cover=None, teleport_rate=None, rev_rate=None, cover_limit=None, start=None,
-          start_cover=None, block_size=None, block_rate=None, max_time=None,
+          start_cover=None, block_size=None, block_rate=None, skip_rejections=None, max_time=None,
           checkpoint_every="5m", check_every=None, until_rhat=0.0, until_ess=0.0,
           teleport_sampler="", memory_limit=None, threads=0, resume=False, force=False,
           progress=True, stop=None):
@@ -267,7 +267,9 @@ def chain(table, path, *, steps=None, chains=None, thin=None, burn_in=None, seed
     seed 1, teleport_cover none, teleport_rate 0.01 with teleport_cover, rev_rate 1/15,
     cover_limit none, start "greedy" ("exact" with teleport_cover), start_cover (k of the class
     D_k of the exact start) teleport_cover or else 2, block_size and block_rate chosen from the
-    cost model. On resume=True they are read from the file (given anew, they must repeat it); an
+    cost model, skip_rejections False (True: draw the wait to the next accepted local move
+    exactly instead of simulating each rejection; pays when few moves are accepted, see
+    docs/chains.md). On resume=True they are read from the file (given anew, they must repeat it); an
     existing file at `path` is replaced only with force=True. Stopping: steps (total per chain),
     max_time ("10m", or seconds), until_rhat / until_ess, checked every check_every ("30s", or
     seconds; None: 10% of the run time so far, 10 s to checkpoint_every), after every checkpoint
@@ -289,7 +291,7 @@ def chain(table, path, *, steps=None, chains=None, thin=None, burn_in=None, seed
         return _covey._chain(table, path, chains, steps, thin, burn_in,
                              None if seed is None else _seed(seed), teleport_cover,
                              teleport_rate, rev_rate, cover_limit, start, start_cover, block_size,
-                             block_rate, max_time, checkpoint_every, check_every, until_rhat,
+                             block_rate, skip_rejections, max_time, checkpoint_every, check_every, until_rhat,
                              until_ess,
                              _os.fspath(teleport_sampler), memory_limit, threads, resume,
                              force, terminal_line, _stop_callable(stop), report)

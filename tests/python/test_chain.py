@@ -138,3 +138,13 @@ def test_stopping_rule_and_exact_start_equal_cli_json(tmp_path, sensors_scores):
                 "ess_bulk", "ess_tail", "text", "caveats", "checks", "thresholds"):
         assert summary["convergence"][key] == cli["convergence"][key], key
     assert summary["convergence"]["text"].startswith("converged: ")
+
+
+def test_skip_rejections_equals_the_cli_run(tmp_path, sensors_scores):
+    """skip_rejections=True is --skip-rejections: the same draws, stored as a fixed option."""
+    run_covey("chain", sensors_scores, "-o", tmp_path / "cli.h5", "--chains", 2, "--thin", 50,
+              "--seed", 9, "--steps", 100000, "--skip-rejections", "--json")
+    covey.chain(sensors_scores, tmp_path / "py.h5", chains=2, thin=50, seed=9, steps=100000,
+                skip_rejections=True, progress=False)
+    same_run(tmp_path / "cli.h5", tmp_path / "py.h5")
+    assert covey.open_run(tmp_path / "py.h5").options["skip_rejections"] is True
