@@ -31,7 +31,7 @@ step "4/8 exact: the exact posterior over all DAGs (12 variables is small enough
 
 step "5/8 chain: 4 hybrid chains (local moves, REV, exact teleports from D_3), until converged"
 "$covey" chain "$out/scores.h5" -o "$out/run.h5" --chains 4 --steps 4e6 --thin 200 \
-  --teleport-sampler "$out/sampler.h5" --teleport-cover 3 --teleport-rate 0.02 --seed 7 \
+  --sampler "$out/sampler.h5" --teleport-cover 3 --teleport-rate 0.02 --seed 7 \
   --until-rhat 1.01 --until-ess 400 --force --json > "$out/chain.json"
 python3 - "$out/chain.json" <<'PY'
 import json, sys

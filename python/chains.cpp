@@ -238,7 +238,7 @@ py::object chain(const py::object& table_or_path, const std::string& path,
                  const FixedArguments& fixed, std::optional<double> steps,
                  const py::object& max_time, const py::object& checkpoint_every,
                  const py::object& check_every, double until_rhat, double until_ess,
-                 const std::string& teleport_sampler, const py::object& memory_limit, int threads,
+                 const std::string& sampler_path, const py::object& memory_limit, int threads,
                  bool resume, bool force, bool progress, const py::object& stop,
                  const py::object& report) {
   const auto table = table_of(table_or_path);
@@ -260,7 +260,7 @@ py::object chain(const py::object& table_or_path, const std::string& path,
   {
     py::gil_scoped_release release;
     support =
-        std::make_unique<ChainSupport>(*table, o, teleport_sampler, memory_limit_of(memory_limit));
+        std::make_unique<ChainSupport>(*table, o, sampler_path, memory_limit_of(memory_limit));
   }
   ChainRunHooks hooks = support->hooks();
   hooks.progress = progress;
@@ -341,14 +341,14 @@ void bind_chains(py::module_& m) {
          std::optional<int> block_size, std::optional<double> block_rate,
          std::optional<bool> skip_rejections, const py::object& max_time,
          const py::object& checkpoint_every, const py::object& check_every, double until_rhat,
-         double until_ess, const std::string& teleport_sampler, const py::object& memory_limit,
+         double until_ess, const std::string& sampler_path, const py::object& memory_limit,
          int threads, bool resume, bool force, bool progress, const py::object& stop,
          const py::object& report) {
         const FixedArguments fixed{chains,        thin,       burn_in,        seed,  teleport_cover,
                                    teleport_rate, rev_rate,   cover_limit,    start, start_cover,
                                    block_size,    block_rate, skip_rejections};
         return chain(table, path, fixed, steps, max_time, checkpoint_every, check_every, until_rhat,
-                     until_ess, teleport_sampler, memory_limit, threads, resume, force, progress,
+                     until_ess, sampler_path, memory_limit, threads, resume, force, progress,
                      stop, report);
       },
       py::arg("table"), py::arg("path"), py::arg("chains"), py::arg("steps"), py::arg("thin"),
@@ -356,7 +356,7 @@ void bind_chains(py::module_& m) {
       py::arg("rev_rate"), py::arg("cover_limit"), py::arg("start"), py::arg("start_cover"),
       py::arg("block_size"), py::arg("block_rate"), py::arg("skip_rejections"), py::arg("max_time"),
       py::arg("checkpoint_every"), py::arg("check_every"), py::arg("until_rhat"),
-      py::arg("until_ess"), py::arg("teleport_sampler"), py::arg("memory_limit"),
+      py::arg("until_ess"), py::arg("sampler"), py::arg("memory_limit"),
       py::arg("threads"), py::arg("resume"), py::arg("force"), py::arg("progress"), py::arg("stop"),
       py::arg("report"));
 

@@ -35,6 +35,8 @@ const std::map<std::string, std::string> kSecondSpellings = {
     {"samples", "--draws"},
     {"exact-draws", "--cover-draws"},
     {"max-seconds", "--max-time"},
+    {"load-sampler", "--sampler"},
+    {"teleport-sampler", "--sampler"},
     {"time-limit", "--max-time"},
     {"timeout", "--max-time"},
     {"overwrite", "--force"},

@@ -152,12 +152,12 @@ TEST_F(CoverCli, SavedSamplerGivesTheSameDraws) {
   const auto a = run_covey("draw " + scores_ + " --cover 2 --draws 500 --json --save-sampler " +
                            dir_.file("s.h5"));
   ASSERT_EQ(a.exit_code, 0) << a.err;
-  const auto b = run_covey("draw " + scores_ + " --cover 2 --draws 500 --json --load-sampler " +
+  const auto b = run_covey("draw " + scores_ + " --cover 2 --draws 500 --json --sampler " +
                            dir_.file("s.h5"));
   ASSERT_EQ(b.exit_code, 0) << b.err;
   EXPECT_EQ(a.out, b.out);
   const auto wrong_k =
-      run_covey("draw " + scores_ + " --cover 1 --draws 5 --load-sampler " + dir_.file("s.h5"));
+      run_covey("draw " + scores_ + " --cover 1 --draws 5 --sampler " + dir_.file("s.h5"));
   EXPECT_NE(wrong_k.exit_code, 0);
   EXPECT_NE(wrong_k.err.find("--cover"), std::string::npos);
 }
@@ -210,7 +210,7 @@ TEST_F(CoverCli, BadInputExitsNonZeroAndLeavesOutputsUntouched) {
       {"draw " + scores_ + " --cover=-1 --draws 10 -o " + keep, "--cover"},
       {"draw " + dir_.file("forced.tsv") + " --cover 1 --draws 10 -o " + keep, "cover"},
       {"draw " + dir_.file("nothing.tsv") + " --cover 1 --draws 10 -o " + keep, "nothing.tsv"},
-      {"draw " + scores_ + " --cover 1 --draws 10 --load-sampler " + dot + " -o " + keep,
+      {"draw " + scores_ + " --cover 1 --draws 10 --sampler " + dot + " -o " + keep,
        "keep.dot"},
       {"best " + scores_ + " --cover 6 --dot " + dot, "--cover"},
       {"best " + scores_ + " --cover=-1 --dot " + dot, "--cover"},
@@ -255,7 +255,7 @@ TEST(CoverSamplerMemory, CheckMatchesThePeakOfBuildSaveAndLoad) {
   const std::vector<std::pair<std::string, std::vector<std::string>>> steps = {
       {"build", {"--cover", "3"}},
       {"build + save", {"--cover", "3", "--save-sampler", saved}},
-      {"load", {"--cover", "3", "--load-sampler", saved}}};
+      {"load", {"--cover", "3", "--sampler", saved}}};
   for (const auto& [step, extra] : steps) {
     std::vector<std::string> refused = extra;
     refused.insert(refused.end(), {"--memory-limit", limit(0.98)});

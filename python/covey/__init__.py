@@ -258,7 +258,7 @@ def chain(table, path, *, steps=None, chains=None, thin=None, burn_in=None, seed
           teleport_cover=None, teleport_rate=None, rev_rate=None, cover_limit=None, start=None,
           start_cover=None, block_size=None, block_rate=None, skip_rejections=None, max_time=None,
           checkpoint_every="5m", check_every=None, until_rhat=0.0, until_ess=0.0,
-          teleport_sampler="", memory_limit=None, threads=0, resume=False, force=False,
+          sampler="", memory_limit=None, threads=0, resume=False, force=False,
           progress=True, stop=None):
     """Structure MCMC chains written to the HDF5 run file `path` (``covey chain``); returns the
     run's summary (the dict of ``covey chain --json``).
@@ -293,7 +293,7 @@ def chain(table, path, *, steps=None, chains=None, thin=None, burn_in=None, seed
                              teleport_rate, rev_rate, cover_limit, start, start_cover, block_size,
                              block_rate, skip_rejections, max_time, checkpoint_every, check_every, until_rhat,
                              until_ess,
-                             _os.fspath(teleport_sampler), memory_limit, threads, resume,
+                             _os.fspath(sampler), memory_limit, threads, resume,
                              force, terminal_line, _stop_callable(stop), report)
     except KeyboardInterrupt:
         raise KeyboardInterrupt(f"covey.chain stopped; checkpoint written to {path} "

@@ -249,9 +249,9 @@ void setup_chain(CLI::App& app) {
                   "none, no teleports)");
   cmd->add_option("--teleport-rate", a->teleport_rate,
                   "teleport probability per step (default 0.01 with --teleport-cover)");
-  cmd->add_option("--teleport-sampler", a->sampler,
-                  "load the D_k sampler from FILE (saved by `covey draw --save-sampler`) instead "
-                  "of building it (default: build it)");
+  cmd->add_option("--sampler", a->sampler,
+                  "load the D_k sampler of the teleports from FILE (saved by `covey draw "
+                  "--save-sampler`) instead of building it (default: build it)");
   cmd->add_option("--rev-rate", a->rev_rate,
                   "probability per step of a REV move, the edge reversal with parent resampling "
                   "(default 1/15)");

@@ -19,7 +19,7 @@ namespace covey::cli {
 namespace {
 
 struct DrawOptions {
-  std::string scores, output, save_sampler, load_sampler, memory_limit;
+  std::string scores, output, save_sampler, sampler, memory_limit;
   int cover = 0;
   std::size_t count = 0;
   std::uint64_t seed = 1;
@@ -39,10 +39,10 @@ void run_draw(const DrawOptions& o) {
   CoverSampler sampler;
   CoverSamplerOptions options;
   options.memory_limit_bytes = limit;
-  if (!o.load_sampler.empty()) {
-    sampler = CoverSampler::load(o.load_sampler, table, options);
+  if (!o.sampler.empty()) {
+    sampler = CoverSampler::load(o.sampler, table, options);
     if (sampler.cover_bound() != o.cover)
-      throw InputError("--load-sampler " + o.load_sampler + ": built for cover bound " +
+      throw InputError("--sampler " + o.sampler + ": built for cover bound " +
                        std::to_string(sampler.cover_bound()) + ", not --cover " +
                        std::to_string(o.cover));
   } else {
@@ -137,7 +137,7 @@ void setup_draw(CLI::App& app) {
   cmd->add_option("--save-sampler", o->save_sampler,
                   "save the preprocessed sampler to this HDF5 file for later runs (default: not "
                   "saved)");
-  cmd->add_option("--load-sampler", o->load_sampler,
+  cmd->add_option("--sampler", o->sampler,
                   "use a sampler saved by --save-sampler (must match SCORES and --cover; "
                   "default: build it)")
       ->check(CLI::ExistingFile);
