@@ -163,7 +163,7 @@ void BlockMove::draw(Rng& rng, std::vector<ParentMask>& next) const {
   next.resize(m);
   for (int i = 0; i < m; ++i) {
     // P among the valid sets with Q(P) = H_v, with probability f_v(P) / g_v(H_v).
-    const std::uint64_t target_q = h.parents[i];
+    const std::uint64_t target_q = h.parent_mask(i);
     const std::vector<std::uint64_t>& q_of = q_of_[i];
     const bool uniform = fault_ == BlockFault::kUniformWithinBlockParentSet;
     const double norm = log_g_[i][target_q];
@@ -216,7 +216,7 @@ bool StructureChain::block_move_on(std::span<const int> block, Rng& rng) {
     // The proposal is the exact conditional of the unrestricted target: the Hastings ratio
     // under a restriction is 1[G' in D_k'].
     Dag proposed = dag_;
-    for (int i = 0; i < m; ++i) proposed.parents[block[i]] = table_->to_global(block[i], next[i]);
+    for (int i = 0; i < m; ++i) set_local_parents(*table_, proposed, block[i], next[i]);
     if (!in_restriction(proposed)) return false;
   }
   for (int i = 0; i < m; ++i) {
@@ -225,7 +225,7 @@ bool StructureChain::block_move_on(std::span<const int> block, Rng& rng) {
     num_edges_ -= std::popcount(local_[v]);
     local_[v] = next[i];
     score_[v] = table_->log_score(v, next[i]);
-    if (track_dag_) dag_.parents[v] = table_->to_global(v, next[i]);
+    if (track_dag_) set_local_parents(*table_, dag_, v, next[i]);
   }
   rebuild_ancestors();
   ++counts_.accepted[int(Move::kBlock)];

@@ -59,15 +59,10 @@ struct Slot {
   chain_file::ChainBlock pending;  // rows since the last checkpoint
 };
 
-// The exact start draws from D_k, k = start_cover: a class of the cover engines (n <= 64,
-// 0 <= k < n) that lies inside the target's D_k' under cover_limit.
+// The exact start draws from D_k, k = start_cover: a class of the cover engines (0 <= k < n)
+// that lies inside the target's D_k' under cover_limit.
 void check_start_cover(const ChainRunOptions& o, const ScoreTable& table) {
   const int n = table.num_variables();
-  if (n > 64)
-    throw OptionError(
-        "{start} exact draws from a cover-bounded class, which supports at most 64 "
-        "variables; the table has " +
-        std::to_string(n) + " (use {start} greedy)");
   if (o.start_cover < 0 || o.start_cover >= n)
     throw OptionError("{start_cover} " + std::to_string(o.start_cover) +
                       " of {start} exact must be at least 0 and below the number of variables (" +
@@ -97,11 +92,6 @@ void check_options(const ChainRunOptions& o, const ChainRunHooks& hooks, const S
   if (o.cover_limit >= 0 && !hooks.restriction) throw Error("run_chains: no class given");
   if (o.teleport_cover >= 0 && o.cover_limit >= 0 && o.teleport_cover > o.cover_limit)
     throw OptionError("{teleport_cover} K must not exceed {cover_limit} K' (D_K must lie in D_K')");
-  if ((o.teleport_cover >= 0 || o.cover_limit >= 0) && table.num_variables() > 64)
-    throw OptionError(
-        "{teleport_cover} and {cover_limit} support at most 64 variables; the table "
-        "has " +
-        std::to_string(table.num_variables()));
   if (o.until_rhat < 0 || o.until_ess < 0)
     throw OptionError("{until_rhat} and {until_ess} must be positive");
   if (o.until_enabled() && !hooks.convergence) throw Error("run_chains: no convergence check");
@@ -272,15 +262,25 @@ class Runner {
   // Z_k / Z <= U / w(G) for any DAG G of the table, so the cover engine's log U against the best
   // score among the starts and a greedy ascent bounds the mass from above (no estimate needed).
   // Stored in the session record of the run file and said once on the terminal when negligible.
+  // Under a cover limit the target is the posterior within D_k'; when D_k' lies inside the
+  // teleports' D_k, every state is inside and the question does not arise. Otherwise the bound
+  // holds for any DAG of D_k', so only the chains' own states (inside D_k') set the level.
   void judge_teleports() {
     if (o_.teleport_rate <= 0 || !hooks_.teleport) return;
+    if (o_.cover_limit >= 0 && o_.cover_limit <= o_.teleport_cover) {
+      teleport_mass_bound_log10_ = 0;  // D_k holds the whole target
+      session_["teleport_mass_bound_log10"] = 0.0;
+      return;
+    }
     double level = -std::numeric_limits<double>::infinity();
     for (const auto& s : slots_) level = std::max(level, s->chain.log_score());
-    // A stream of its own (past every chain's), so the chains' trajectories are unchanged.
-    Rng rng = make_stream(o_.seed, kTeleportJudgeStream);
-    StructureChain probe(table_, ChainConfig{});
-    probe.set_parents(greedy_start(table_, rng), "greedy ascent");
-    level = std::max(level, probe.log_score());
+    if (o_.cover_limit < 0) {
+      // A stream of its own (past every chain's), so the chains' trajectories are unchanged.
+      Rng rng = make_stream(o_.seed, kTeleportJudgeStream);
+      StructureChain probe(table_, ChainConfig{});
+      probe.set_parents(greedy_start(table_, rng), "greedy ascent");
+      level = std::max(level, probe.log_score());
+    }
     const double bound_log10 = (hooks_.teleport->log_class_weight_bound() - level) / std::log(10.0);
     teleport_mass_bound_log10_ = bound_log10;
     session_["teleport_mass_bound_log10"] = bound_log10;

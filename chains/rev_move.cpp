@@ -249,12 +249,11 @@ void StructureChain::rev_move(Rng& rng) {
   }
   if (!accept(rng, log_ratio)) return;
   if (track_dag_) {
-    const std::uint64_t old_i = dag_.parents[i], old_j = dag_.parents[j];
-    dag_.parents[i] = table_->to_global(i, new_i);
-    dag_.parents[j] = table_->to_global(j, new_j);
+    set_local_parents(*table_, dag_, i, new_i);
+    set_local_parents(*table_, dag_, j, new_j);
     if (!in_restriction(dag_)) {
-      dag_.parents[i] = old_i;
-      dag_.parents[j] = old_j;
+      set_local_parents(*table_, dag_, i, local_[i]);
+      set_local_parents(*table_, dag_, j, local_[j]);
       return;
     }
   }

@@ -155,14 +155,15 @@ void RunFeatures::log_score(std::span<double> out) const {
 }
 
 void RunFeatures::in_cover_class(int k, std::span<double> out) const {
-  if (n_ > 64 || words_ != 1)
-    throw InputError("membership in D_k is tested for at most 64 variables, the run has " +
-                     std::to_string(n_));
   check_output_size(out, total_);
   tbb::parallel_for(tbb::blocked_range<std::size_t>(0, total_), [&](const auto& range) {
     Dag dag(n_);
     for (std::size_t r = range.begin(); r != range.end(); ++r) {
-      for (std::size_t w = 0; w < stride_; ++w) dag.parents[w] = columns_[w * total_ + r];
+      for (int v = 0; v < n_; ++v) {
+        const std::span<std::uint64_t> words = dag.parent_words(v);
+        for (std::size_t w = 0; w < words.size(); ++w)
+          words[w] = columns_[(std::size_t(v) * words.size() + w) * total_ + r];
+      }
       out[r] = covey::in_cover_class(dag, k) ? 1.0 : 0.0;
     }
   });

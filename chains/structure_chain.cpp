@@ -82,10 +82,9 @@ StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& confi
         "move rates: {rev_rate}, {teleport_rate} and {block_rate} must be >= 0 with sum <= 1");
   if (config.teleport_rate > 0 && !config.teleport)
     throw OptionError("{teleport_rate} > 0 needs a teleport sampler ({teleport_cover})");
-  track_dag_ = n_ <= kMaxExactVariables;
-  if ((config.teleport || config.restriction) && !track_dag_)
-    throw OptionError("teleports and {cover_limit} support at most 64 variables; the table has " +
-                      std::to_string(n_));
+  // The DAG itself is kept for the class tests of teleports and cover limits (any n), and for
+  // narrow tables always (dag() and the moves' checks read it).
+  track_dag_ = n_ <= kMaxExactVariables || config.teleport || config.restriction;
   rev_threshold_ = probability_threshold(config.rev_rate);
   teleport_threshold_ = probability_threshold(config.rev_rate + config.teleport_rate);
   block_threshold_ =
@@ -157,10 +156,10 @@ void StructureChain::set_parents(std::span<const std::uint64_t> words, const std
 }
 
 void StructureChain::set_dag(const Dag& dag, const std::string& what) {
-  if (dag.size() != n_ || n_ > 64) throw InputError(what + ": wrong number of variables");
+  if (dag.size() != n_) throw InputError(what + ": wrong number of variables");
   std::vector<ParentMask> local(n_, 0);
   for (int v = 0; v < n_; ++v)
-    if (!table_->to_local(v, dag.parents[v], local[v]))
+    if (!local_parent_mask(*table_, dag, v, local[v]))
       throw InputError(what + ": a parent of " + table_->name(v) +
                        " is not allowed by the score table");
   load_state(local, what);
@@ -204,7 +203,7 @@ void StructureChain::load_state(const std::vector<ParentMask>& local, const std:
   }
   if (track_dag_) {
     Dag next(n_);
-    for (int v = 0; v < n_; ++v) next.parents[v] = table_->to_global(v, local_[v]);
+    for (int v = 0; v < n_; ++v) set_local_parents(*table_, next, v, local_[v]);
     if (config_.restriction && !config_.restriction->contains(next)) {
       local_ = old_local;
       throw OptionError(what + ": the DAG lies outside the class of {cover_limit}");
@@ -225,13 +224,12 @@ void StructureChain::load_teleport_draw(const Dag& next) {
   if (next.size() != n_) throw Error("teleport draw: wrong number of variables");
   for (int v = 0; v < n_; ++v) {
     ParentMask local = 0;
-    const long idx =
-        table_->to_local(v, next.parents[v], local) ? table_->find(v, local) : long{-1};
+    const long idx = local_parent_mask(*table_, next, v, local) ? table_->find(v, local) : long{-1};
     if (idx < 0) throw Error("teleport draw: a parent set is not in the score table");
     local_[v] = local;
     score_[v] = table_->log_scores(v)[idx];
   }
-  dag_.parents = next.parents;
+  dag_ = next;
   num_edges_ = 0;
   for (ParentMask m : local_) num_edges_ += std::popcount(m);
   rebuild_ancestors();
@@ -314,9 +312,8 @@ std::vector<std::uint64_t> StructureChain::parents_words() const {
 }
 
 Dag StructureChain::dag() const {
-  if (n_ > 64) throw InputError("DAG export supports at most 64 variables");
   Dag d(n_);
-  for (int v = 0; v < n_; ++v) d.parents[v] = table_->to_global(v, local_[v]);
+  for (int v = 0; v < n_; ++v) set_local_parents(*table_, d, v, local_[v]);
   return d;
 }
 
@@ -334,7 +331,9 @@ bool StructureChain::check_invariants() const {
   for (int v = 0; v < n_; ++v) {
     edges += std::popcount(local_[v]);
     if (table_->log_score(v, local_[v]) != score_[v]) return false;
-    if (track_dag_ && dag_.parents[v] != table_->to_global(v, local_[v])) return false;
+    ParentMask tracked = 0;
+    if (track_dag_ && (!local_parent_mask(*table_, dag_, v, tracked) || tracked != local_[v]))
+      return false;
   }
   if (edges != num_edges_) return false;
   // Ancestors by fixpoint iteration (independent of the incremental updates).

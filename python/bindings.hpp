@@ -22,7 +22,7 @@ std::uint64_t memory_limit_of(const py::object& limit);
 // threads=: 0 for all cores, else a ceiling on TBB's parallelism while the call runs.
 std::unique_ptr<tbb::global_control> thread_limit(int threads);
 // Names of the variables whose bits are set in a global mask.
-py::list names_of(const ScoreTable& table, std::uint64_t mask);
+py::list names_of(const ScoreTable& table, const std::vector<int>& vertices);
 // nlohmann JSON text as Python values (dicts, lists, numbers).
 py::object json_to_python(const std::string& json_text);
 

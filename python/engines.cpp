@@ -46,7 +46,7 @@ py::dict best(const py::object& table_or_path, int cover, int threads) {
   }
   py::dict parents;
   for (int v = 0; v < table->num_variables(); ++v)
-    parents[py::str(table->name(v))] = names_of(*table, best.dag.parents[v]);
+    parents[py::str(table->name(v))] = names_of(*table, best.dag.parents_of(v));
   py::dict out;
   out["variables"] = variable_names(table->variables());
   out["log_score"] = best.log_score;

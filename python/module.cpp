@@ -141,9 +141,9 @@ std::unique_ptr<tbb::global_control> thread_limit(int threads) {
                                                static_cast<std::size_t>(threads));
 }
 
-py::list names_of(const ScoreTable& table, std::uint64_t mask) {
+py::list names_of(const ScoreTable& table, const std::vector<int>& vertices) {
   py::list out;
-  for (; mask; mask &= mask - 1) out.append(table.name(std::countr_zero(mask)));
+  for (int v : vertices) out.append(table.name(v));
   return out;
 }
 

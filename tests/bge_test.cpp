@@ -156,7 +156,8 @@ TEST(Bge, CoveredEdgeReversalKeepsTheTotal) {
     const double before = log_weight(table, dag);
     for (int u = 0; u < 8; ++u)
       for (int v = 0; v < 8; ++v) {
-        if (!dag.has_edge(u, v) || dag.parents[v] != (dag.parents[u] | (std::uint64_t{1} << u)))
+        if (!dag.has_edge(u, v) ||
+            dag.parent_mask(v) != (dag.parent_mask(u) | (std::uint64_t{1} << u)))
           continue;
         Dag reversed = dag;
         reversed.remove_edge(u, v);

@@ -46,7 +46,7 @@ std::vector<int> members(std::uint64_t mask) {
 std::uint64_t differing_nodes(const Dag& g, const Dag& state) {
   std::uint64_t diff = 0;
   for (int v = 0; v < g.size(); ++v)
-    if (g.parents[v] != state.parents[v]) diff |= std::uint64_t{1} << v;
+    if (g.parent_mask(v) != state.parent_mask(v)) diff |= std::uint64_t{1} << v;
   return diff;
 }
 
@@ -69,7 +69,7 @@ std::vector<double> brute_log_normalisers(const ScoreTable& table, const AllDags
     }
     double outside = 0;
     for (int v = 0; v < n; ++v)
-      if (!((b >> v) & 1U)) outside += table.log_score_global(v, state.parents[v]);
+      if (!((b >> v) & 1U)) outside += table.log_score_global(v, state.parent_mask(v));
     out[b] = z.value() - outside;
   }
   return out;
@@ -120,7 +120,7 @@ double one_step_p_value(const ScoreTable& table, const AllDags& all, const Dag& 
       z.add(all.log_weight[g]);
     }
   for (std::size_t g : agree)
-    conditional.probability[all.dags[g].parents] = std::exp(all.log_weight[g] - z.value());
+    conditional.probability[all.dags[g].words()] = std::exp(all.log_weight[g] - z.value());
   const ChainConfig config;
   StructureChain chain = make_faulty_chain(table, config, ChainFaults{.block = fault});
   Rng rng = make_stream(seed, 0);
@@ -146,7 +146,7 @@ TEST(BlockMove, OneStepLawMatchesBruteForceConditional) {
   for (std::size_t s = 7; s < all.dags.size() && checked < 3; s += 4111) {
     const Dag& state = all.dags[s];
     int edges = 0;
-    for (int v = 0; v < 5; ++v) edges += std::popcount(state.parents[v]);
+    for (int v = 0; v < 5; ++v) edges += std::popcount(state.parent_mask(v));
     if (edges < 4) continue;
     for (std::uint64_t block : {0b10101ULL, 0b11110ULL}) {
       worst_ok =
@@ -182,7 +182,7 @@ double worst_edge_z(const ScoreTable& table, const ExactPosterior& exact, BlockF
       chain.step(rng);
       const Dag d = chain.dag();
       for (int v = 0; v < n; ++v)
-        for (std::uint64_t m = d.parents[v]; m; m &= m - 1)
+        for (std::uint64_t m = d.parent_mask(v); m; m &= m - 1)
           batch[(std::size_t(std::countr_zero(m)) * n + v) * kBatches + b] += 1.0 / kBatchSteps;
     }
   double worst = 0;

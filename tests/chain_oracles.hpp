@@ -27,7 +27,7 @@ class BruteForceCoverClass : public DagClass {
       if (std::popcount(c) > k_) continue;
       bool ok = true;
       for (int v = 0; v < n && ok; ++v) {
-        const std::uint64_t outside_parents = dag.parents[v] & ~c;
+        const std::uint64_t outside_parents = dag.parent_mask(v) & ~c;
         if ((c >> v) & 1U)
           ok = std::popcount(outside_parents) <= 1;
         else
@@ -55,7 +55,7 @@ inline ExactPosterior exact_posterior(const ScoreTable& table, const DagClass* r
   std::vector<double> logw;
   for_each_dag(table, [&](const Dag& d, double lw) {
     if (restriction && !restriction->contains(d)) return;
-    out.index[d.parents] = out.dags.size();
+    out.index[d.words()] = out.dags.size();
     out.dags.push_back(d);
     logw.push_back(lw);
   });

@@ -223,7 +223,7 @@ TEST(ChainRunner, ThinnedTraceMatchesEnumeration) {
   const auto ls = run.log_scores(1);
   for (std::size_t i = 0; i < ls.size(); i += 97) {
     Dag d(4);
-    for (int v = 0; v < 4; ++v) d.parents[v] = rows[i * 4 + v];
+    for (int v = 0; v < 4; ++v) d.parent_mask(v) = rows[i * 4 + v];
     EXPECT_DOUBLE_EQ(ls[i], log_weight(table, d));
   }
 }

@@ -77,6 +77,14 @@ TEST(ChainTeleportCli, SaysWhenTheTeleportClassHoldsNoMass) {
   EXPECT_NE(r.err.find("covey: note: teleports: D_0 holds at most 10^"), std::string::npos)
       << r.err;
 
+  // The same class as a cover limit holds the whole target: no note, a bound of 10^0.
+  const auto inside = run_covey("chain " + dir.file("dense.tsv") + " -o " + dir.file("run3.h5") +
+                                " --chains 2 --steps 2000 --teleport-cover 0 --cover-limit 0 "
+                                "--teleport-rate 0.01 --seed 3 --json");
+  ASSERT_EQ(inside.exit_code, 0) << inside.err;
+  EXPECT_EQ(nlohmann::json::parse(inside.out)["teleport_mass_bound_log10"].get<double>(), 0.0);
+  EXPECT_EQ(inside.err.find("note: teleports"), std::string::npos) << inside.err;
+
   // Where D_2 holds a real share (the table of the test above), no note.
   write_scores_tsv(testing_util::random_full_table(5, 2, 17), dir.file("s.tsv"));
   const auto ok = run_covey("chain " + dir.file("s.tsv") + " -o " + dir.file("run2.h5") +

@@ -86,7 +86,7 @@ TEST_F(CoverCli, BestPrintsTheLibraryResultAsJsonAndDot) {
     std::uint64_t mask = 0;
     for (const auto& p : j["parents"][table_.name(v)])
       mask |= std::uint64_t{1} << (p.get<std::string>()[1] - '0');
-    EXPECT_EQ(mask, best.dag.parents[v]);
+    EXPECT_EQ(mask, best.dag.parent_mask(v));
   }
   EXPECT_LE(j["cover"].size(), 2u);
   EXPECT_EQ(testing_util::read_file(dir_.file("b.dot")),
@@ -152,8 +152,8 @@ TEST_F(CoverCli, SavedSamplerGivesTheSameDraws) {
   const auto a = run_covey("draw " + scores_ + " --cover 2 --draws 500 --json --save-sampler " +
                            dir_.file("s.h5"));
   ASSERT_EQ(a.exit_code, 0) << a.err;
-  const auto b = run_covey("draw " + scores_ + " --cover 2 --draws 500 --json --sampler " +
-                           dir_.file("s.h5"));
+  const auto b =
+      run_covey("draw " + scores_ + " --cover 2 --draws 500 --json --sampler " + dir_.file("s.h5"));
   ASSERT_EQ(b.exit_code, 0) << b.err;
   EXPECT_EQ(a.out, b.out);
   const auto wrong_k =
@@ -210,8 +210,7 @@ TEST_F(CoverCli, BadInputExitsNonZeroAndLeavesOutputsUntouched) {
       {"draw " + scores_ + " --cover=-1 --draws 10 -o " + keep, "--cover"},
       {"draw " + dir_.file("forced.tsv") + " --cover 1 --draws 10 -o " + keep, "cover"},
       {"draw " + dir_.file("nothing.tsv") + " --cover 1 --draws 10 -o " + keep, "nothing.tsv"},
-      {"draw " + scores_ + " --cover 1 --draws 10 --sampler " + dot + " -o " + keep,
-       "keep.dot"},
+      {"draw " + scores_ + " --cover 1 --draws 10 --sampler " + dot + " -o " + keep, "keep.dot"},
       {"best " + scores_ + " --cover 6 --dot " + dot, "--cover"},
       {"best " + scores_ + " --cover=-1 --dot " + dot, "--cover"},
       {"best " + dir_.file("forced.tsv") + " --cover 1 --dot " + dot, "cover"},

@@ -52,7 +52,7 @@ struct Enumeration {
 inline Enumeration enumerate_all(const ScoreTable& table) {
   Enumeration e;
   for_each_dag(table, [&](const Dag& d, double lw) {
-    e.index[d.parents] = e.dags.size();
+    e.index[d.words()] = e.dags.size();
     e.dags.push_back(d);
     e.log_weights.push_back(lw);
   });

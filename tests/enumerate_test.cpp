@@ -28,8 +28,8 @@ TEST(Enumerate, EachDagOnceAndFilterRespected) {
   const auto count = for_each_dag(
       4, [](int, std::uint64_t s) { return __builtin_popcountll(s) <= 1; },
       [&](const Dag& d) {
-        for (auto p : d.parents) EXPECT_LE(__builtin_popcountll(p), 1);
-        EXPECT_TRUE(seen.insert(d.parents).second);
+        for (auto p : d.words()) EXPECT_LE(__builtin_popcountll(p), 1);
+        EXPECT_TRUE(seen.insert(d.words()).second);
       });
   EXPECT_EQ(count, seen.size());
   // Labelled forests of rooted trees, i.e. DAGs with in-degree <= 1: (n+1)^(n-1) = 125 for n = 4

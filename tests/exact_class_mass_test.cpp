@@ -56,8 +56,8 @@ TEST(ClassMass, EnumerationAndDrawsAgreeWithDirectSums) {
   double direct = 0;
   std::size_t count = 0;
   for (const auto& [parents, p] : e.probability) {
-    Dag d;
-    d.parents = parents;
+    Dag d(5);
+    for (int v = 0; v < 5; ++v) d.parent_mask(v) = parents[std::size_t(v)];
     if (sparse(d)) {
       direct += p;
       ++count;

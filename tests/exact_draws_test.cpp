@@ -180,7 +180,7 @@ TEST(DrawsFile, RoundTripAndReadBackByH5py) {
   ASSERT_EQ(py["parents"].size(), dags.size());
   for (std::size_t i = 0; i < dags.size(); ++i) {
     for (int v = 0; v < 6; ++v)
-      EXPECT_EQ(py["parents"][i][v].get<std::uint64_t>(), dags[i].parents[v]);
+      EXPECT_EQ(py["parents"][i][v].get<std::uint64_t>(), dags[i].parent_mask(v));
     EXPECT_DOUBLE_EQ(py["log_weight"][i].get<double>(), lw[i]);
   }
   for (int v = 0; v < 6; ++v) EXPECT_EQ(py["names"][v], t.name(v));

@@ -55,7 +55,7 @@ inline Enumerated enumerate_posterior(const ScoreTable& table) {
   std::vector<long double> edge(n * n, 0), anc(n * n, 0);
   for (const auto& [d, lw] : all) {
     const long double p = std::exp(static_cast<long double>(lw - e.log_z));
-    e.probability[d.parents] = static_cast<double>(p);
+    e.probability[d.words()] = static_cast<double>(p);
     const auto am = ancestor_masks(d);
     for (int v = 0; v < n; ++v)
       for (int u = 0; u < n; ++u) {
@@ -81,10 +81,10 @@ inline ChiSquare chi_square(const std::vector<Dag>& draws, const Enumerated& e) 
   std::map<std::vector<std::uint64_t>, std::size_t> counts;
   ChiSquare r;
   for (const Dag& d : draws) {
-    if (!e.probability.count(d.parents))
+    if (!e.probability.count(d.words()))
       ++r.outside;
     else
-      ++counts[d.parents];
+      ++counts[d.words()];
   }
   const double total = static_cast<double>(draws.size());
   double pooled_expected = 0, pooled_observed = 0;

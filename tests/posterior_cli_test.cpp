@@ -144,7 +144,7 @@ TEST(CheckRun, AncestorSetsMatchTheDagModuleDrawByDraw) {
       draws.ancestor(u, v, values);
       for (std::size_t t = 0; t < run.num_draws(); t += 97) {
         Dag d(5);
-        for (int w = 0; w < 5; ++w) d.parents[std::size_t(w)] = rows[t * 5 + std::size_t(w)];
+        for (int w = 0; w < 5; ++w) d.parent_mask(std::size_t(w)) = rows[t * 5 + std::size_t(w)];
         const bool path = (ancestor_masks(d)[std::size_t(v)] >> u) & 1U;
         ASSERT_EQ(values[2 * run.num_draws() + t], path ? 1.0 : 0.0) << u << "~>" << v << " " << t;
       }

@@ -89,7 +89,7 @@ Comparison run_and_compare(const ScoreTable& table, const FaultyConfig& setup,
     double below = 0;
     for (std::size_t g : order) {
       const int bin = std::min(dag_bins - 1, static_cast<int>(below * dag_bins));
-      bin_of[dag_key(exact.dags[g].parents, n)] = bin;
+      bin_of[dag_key(exact.dags[g].words(), n)] = bin;
       bin_mass[bin] += exact.prob[g];
       below += exact.prob[g];
     }
@@ -148,7 +148,7 @@ Comparison run_and_compare(const ScoreTable& table, const FaultyConfig& setup,
     // Exact probabilities by key; DAGs outside the support have probability 0.
     std::vector<double> p(dag_counts.size(), 0.0);
     for (std::size_t g = 0; g < exact.dags.size(); ++g) {
-      p[dag_key(exact.dags[g].parents, n)] = exact.prob[g];
+      p[dag_key(exact.dags[g].words(), n)] = exact.prob[g];
     }
     const double total = double(batch_len) * kBatches;
     double tv = 0;

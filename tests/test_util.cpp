@@ -154,7 +154,7 @@ Dag random_dag(int n, int max_indegree, std::uint64_t seed) {
   Dag dag(n);
   for (int i = 1; i < n; ++i)
     for (int j = 0; j < i; ++j)
-      if (uniform01(rng) < 0.5 && std::popcount(dag.parents[order[i]]) < max_indegree)
+      if (uniform01(rng) < 0.5 && std::popcount(dag.parent_mask(order[i])) < max_indegree)
         dag.add_edge(order[j], order[i]);
   return dag;
 }

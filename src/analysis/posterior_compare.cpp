@@ -120,9 +120,11 @@ void estimates_from_draws(Impl& p, const std::vector<Dag>& dags, bool ancestors)
         }
     if (!ancestors) continue;
     const std::vector<std::uint64_t> a = ancestor_masks(g);
+    const std::size_t words = std::size_t(g.words_per_node());
     for (int v = 0; v < n; ++v)
-      for (std::uint64_t m = a[std::size_t(v)]; m; m &= m - 1)
-        ++anc[std::size_t(std::countr_zero(m)) * n + v];
+      for (std::size_t w = 0; w < words; ++w)
+        for (std::uint64_t m = a[std::size_t(v) * words + w]; m; m &= m - 1)
+          ++anc[(64 * w + std::size_t(std::countr_zero(m))) * n + v];
   }
   const double count = static_cast<double>(dags.size());
   const auto binomial = [count](std::uint64_t k) {
@@ -312,7 +314,6 @@ Estimate PosteriorEstimate::feature(const FeatureId& id) const {
 
 PosteriorEstimate::Mass PosteriorEstimate::cover_class_mass(int k) const {
   if (k < 0) throw OptionError("{k}: the cover bound must be at least 0");
-  if (impl_->n > 64) throw InputError("membership in D_k is tested for at most 64 variables");
   switch (impl_->source) {
     case PosteriorSource::kCoverDraws:
       if (k >= impl_->cover_bound) return {1.0, 0.0, 1.0, 1.0, "cover-bounded draws"};

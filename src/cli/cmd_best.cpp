@@ -12,9 +12,9 @@
 namespace covey::cli {
 namespace {
 
-std::vector<std::string> names_of(const ScoreTable& table, std::uint64_t mask) {
+std::vector<std::string> names_of(const ScoreTable& table, const std::vector<int>& vertices) {
   std::vector<std::string> out;
-  for (; mask; mask &= mask - 1) out.push_back(table.name(std::countr_zero(mask)));
+  for (int v : vertices) out.push_back(table.name(v));
   return out;
 }
 
@@ -50,7 +50,7 @@ void setup_best(CLI::App& app) {
     if (o->json) {
       nlohmann::json parents = nlohmann::json::object();
       for (int v = 0; v < table.num_variables(); ++v)
-        parents[table.name(v)] = names_of(table, best.dag.parents[v]);
+        parents[table.name(v)] = names_of(table, best.dag.parents_of(v));
       print_json({{"log_score", best.log_score},
                   {"cover", names_of(table, best.cover)},
                   {"parents", parents}});
@@ -64,7 +64,7 @@ void setup_best(CLI::App& app) {
     std::cout << "\nparents:\n";
     for (int v = 0; v < table.num_variables(); ++v) {
       std::cout << "  " << table.name(v) << " <-";
-      const auto ps = names_of(table, best.dag.parents[v]);
+      const auto ps = names_of(table, best.dag.parents_of(v));
       if (ps.empty()) std::cout << " (none)";
       for (const auto& p : ps) std::cout << ' ' << p;
       std::cout << '\n';

@@ -131,21 +131,22 @@ class OrderDp {
       const int u = l.outside[i];
       const std::size_t base = std::size_t(i) << m_;
       if (a == 0) {
-        dag.parents[u] = detail::to_global_mask(l, cm_.leaf_arg[base | full]);
+        detail::add_member_parents(dag, u, l.members, cm_.leaf_arg[base | full]);
         continue;
       }
-      dag.parents[u] = detail::to_global_mask(l, cm_.leaf_arg[base | first_pred_[a]]);
+      detail::add_member_parents(dag, u, l.members, cm_.leaf_arg[base | first_pred_[a]]);
       for (unsigned t = a; t; t &= t - 1) {
         const int j = std::countr_zero(t);
         const unsigned q = cm_.link_arg[((std::size_t(i) * m_ + j) << m_) | pred_[j]];
-        dag.parents[l.members[j]] = detail::to_global_mask(l, q) | (std::uint64_t{1} << u);
+        detail::add_member_parents(dag, l.members[j], l.members, q);
+        dag.add_edge(u, l.members[j]);
       }
       T &= ~a;
     }
     for (int j = 0; j < m_; ++j)
       if (!((linked >> j) & 1U))
-        dag.parents[l.members[j]] =
-            detail::to_global_mask(l, cm_.inner_arg[(std::size_t(j) << m_) | pred_[j]]);
+        detail::add_member_parents(dag, l.members[j], l.members,
+                                   cm_.inner_arg[(std::size_t(j) << m_) | pred_[j]]);
     return dag;
   }
 
@@ -177,9 +178,6 @@ std::vector<int> nth_order(int m, std::size_t index) {
 
 void check_cover_bound(const ScoreTable& table, int k, const char* option) {
   const int n = table.num_variables();
-  if (n > kMaxExactVariables)
-    throw OptionError(std::string(option) + ": the cover-bounded engines support at most 64 " +
-                      "variables; the table has " + std::to_string(n));
   if (n == 0) throw OptionError(std::string(option) + ": the score table has no variables");
   if (k < 0 || k >= n)
     throw OptionError(std::string(option) + " " + std::to_string(k) + ": the cover bound must be " +
@@ -193,7 +191,7 @@ CoverBestResult best_dag_in_cover_class(const ScoreTable& table, int k) {
   check_cover_bound(table, k);
   const int n = table.num_variables();
   // Padding a cover keeps it a cover, so covers of size exactly k reach every DAG of D_k.
-  const std::vector<std::uint64_t> covers = detail::cover_sets(n, k, k);
+  const std::vector<VertexList> covers = detail::cover_sets(n, k, k);
   const Candidate best = tbb::parallel_reduce(
       tbb::blocked_range<std::size_t>(0, covers.size()), Candidate{},
       [&](const tbb::blocked_range<std::size_t>& range, Candidate acc) {
@@ -220,7 +218,7 @@ CoverBestResult best_dag_in_cover_class(const ScoreTable& table, int k) {
   CoverBestResult result;
   result.dag = OrderDp(maxima, nth_order(k, best.order_index)).reconstruct(n);
   result.log_score = log_weight(table, result.dag);
-  result.cover = vertex_cover_at_most(moral_graph(result.dag), k).value();
+  result.cover = minimum_moral_cover(result.dag, k).value();
   return result;
 }
 

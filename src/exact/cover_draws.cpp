@@ -65,8 +65,7 @@ std::vector<EdgeFrequency> edge_frequencies(const std::vector<Dag>& dags, int n)
   std::vector<std::uint64_t> counts(std::size_t(n) * n, 0);
   for (const Dag& d : dags)
     for (int v = 0; v < n; ++v)
-      for (std::uint64_t m = d.parents[v]; m; m &= m - 1)
-        ++counts[std::size_t(__builtin_ctzll(m)) * n + v];
+      for (int u : d.parents_of(v)) ++counts[std::size_t(u) * n + v];
   std::vector<EdgeFrequency> out;
   const double total = double(dags.size());
   for (int u = 0; u < n; ++u)

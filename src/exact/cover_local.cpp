@@ -40,11 +40,10 @@ void lookup_subsets(const ScoreTable& table, int v, const std::vector<int>& memb
 
 }  // namespace
 
-CoverLocalScores cover_local_scores(const ScoreTable& table, std::uint64_t cover) {
+CoverLocalScores cover_local_scores(const ScoreTable& table, const VertexList& cover) {
   CoverLocalScores local;
-  local.cover = cover;
-  const int n = table.num_variables();
-  for (int v = 0; v < n; ++v) ((cover >> v) & 1U ? local.members : local.outside).push_back(v);
+  local.members = cover;
+  complement(table.num_variables(), cover, local.outside);
   const int m = local.m = static_cast<int>(local.members.size());
   const int no = local.num_outside();
   const std::size_t width = std::size_t{1} << m;
@@ -62,23 +61,30 @@ CoverLocalScores cover_local_scores(const ScoreTable& table, std::uint64_t cover
   return local;
 }
 
-std::uint64_t to_global_mask(const CoverLocalScores& local, unsigned c_local) {
-  std::uint64_t g = 0;
-  for (unsigned t = c_local; t; t &= t - 1)
-    g |= std::uint64_t{1} << local.members[std::countr_zero(t)];
-  return g;
+void add_member_parents(Dag& dag, int child, const std::vector<int>& members, unsigned c_local) {
+  for (unsigned t = c_local; t; t &= t - 1) dag.add_edge(members[std::countr_zero(t)], child);
 }
 
-std::vector<std::uint64_t> cover_sets(int n, int size_min, int size_max) {
-  std::vector<std::uint64_t> out;
+void complement(int n, const VertexList& members, std::vector<int>& out) {
+  out.clear();
+  std::size_t next = 0;
+  for (int v = 0; v < n; ++v) {
+    if (next < members.size() && members[next] == v) {
+      ++next;
+      continue;
+    }
+    out.push_back(v);
+  }
+}
+
+std::vector<VertexList> cover_sets(int n, int size_min, int size_max) {
+  std::vector<VertexList> out;
   std::vector<int> idx;
   for (int size = size_min; size <= size_max && size <= n; ++size) {
     idx.resize(size);
     for (int i = 0; i < size; ++i) idx[i] = i;
     for (;;) {
-      std::uint64_t mask = 0;
-      for (int i : idx) mask |= std::uint64_t{1} << i;
-      out.push_back(mask);
+      out.push_back(idx);
       // next combination in lexicographic order of the index list
       int i = size - 1;
       while (i >= 0 && idx[i] == n - size + i) --i;

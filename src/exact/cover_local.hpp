@@ -7,6 +7,8 @@
 #include <cstdint>
 #include <vector>
 
+#include "covey/graph/cover_class.hpp"
+#include "covey/graph/dag.hpp"
 #include "covey/scores/score_table.hpp"
 
 namespace covey::detail {
@@ -15,7 +17,6 @@ namespace covey::detail {
 inline constexpr int kMaxCoverBound = 10;
 
 struct CoverLocalScores {
-  std::uint64_t cover = 0;
   int m = 0;                 // |C|
   std::vector<int> members;  // C, ascending
   std::vector<int> outside;  // V \ C, ascending
@@ -35,14 +36,18 @@ struct CoverLocalScores {
   }
 };
 
-// Looks up every score above (O(n 2^k k) table lookups).
-CoverLocalScores cover_local_scores(const ScoreTable& table, std::uint64_t cover);
+// Looks up every score above (O(n 2^k k) table lookups) for the cover set `cover` (ascending).
+CoverLocalScores cover_local_scores(const ScoreTable& table, const VertexList& cover);
 
-// Global vertex mask of a C-local mask.
-std::uint64_t to_global_mask(const CoverLocalScores& local, unsigned c_local);
+// Adds the edges member -> child for the members of `members` (ascending positions) in the
+// C-local mask `c_local`.
+void add_member_parents(Dag& dag, int child, const std::vector<int>& members, unsigned c_local);
 
-// All subsets of {0..n-1} with exactly `size` elements (size_min..size_max), in increasing size
-// and, within a size, increasing as ascending index lists; the engines' fixed enumeration order.
-std::vector<std::uint64_t> cover_sets(int n, int size_min, int size_max);
+// The complement of an ascending vertex list in {0..n-1}, ascending, into `out`.
+void complement(int n, const VertexList& members, std::vector<int>& out);
+
+// All subsets of {0..n-1} with size_min..size_max elements, in increasing size and, within a
+// size, increasing as ascending index lists; the engines' fixed enumeration order.
+std::vector<VertexList> cover_sets(int n, int size_min, int size_max);
 
 }  // namespace covey::detail

@@ -48,7 +48,7 @@ std::size_t factorial(int m) {
 void UnitGeometry::set(const int* order_members, const std::vector<int>& members) {
   for (int t = 0; t < m; ++t) {
     order[t] = static_cast<std::int8_t>(order_members[t]);
-    vertex[t] = static_cast<std::int8_t>(members[order_members[t]]);
+    vertex[t] = members[order_members[t]];
   }
   // Position t must have an H-parent in [i*, t) when an earlier position i* holds a larger
   // vertex (the last such i*): then sigma is the greedy smallest topological order.
@@ -62,11 +62,8 @@ void UnitGeometry::set(const int* order_members, const std::vector<int>& members
   }
 }
 
-std::uint64_t UnitGeometry::global(unsigned sigma_local) const {
-  std::uint64_t g = 0;
-  for (unsigned s = sigma_local; s; s &= s - 1)
-    g |= std::uint64_t{1} << vertex[std::countr_zero(s)];
-  return g;
+void UnitGeometry::add_parents(Dag& dag, int child, unsigned sigma_local) const {
+  for (unsigned s = sigma_local; s; s &= s - 1) dag.add_edge(vertex[std::countr_zero(s)], child);
 }
 
 namespace {
@@ -331,11 +328,11 @@ void SamplerData::layout_units() {
   cover_first_unit.assign(covers.size() + 1, 0);
   for (std::size_t c = 0; c < covers.size(); ++c) {
     cover_first_unit[c] = units.size();
-    const int m = std::popcount(covers[c]);
+    const int m = static_cast<int>(covers[c].size());
     const std::size_t size = UnitLayout::of(m, n - m).total;
     for (std::size_t o = 0; o < factorial(m); ++o) {
       UnitGeometry g;
-      g.cover = covers[c];
+      g.cover = c;
       g.m = static_cast<std::uint8_t>(m);
       g.offset = offset;
       offset += size;
@@ -473,11 +470,10 @@ std::uint64_t CoverSampler::table_fingerprint() const {
   return impl_->fingerprint;
 }
 
-double CoverSampler::log_cover_weight(std::uint64_t cover) const {
+double CoverSampler::log_cover_weight(const VertexList& cover) const {
   const auto it = std::lower_bound(impl_->covers.begin(), impl_->covers.end(), cover,
-                                   [](std::uint64_t a, std::uint64_t b) {
-                                     const int pa = std::popcount(a), pb = std::popcount(b);
-                                     return pa != pb ? pa < pb : cover_list_less(a, b);
+                                   [](const VertexList& a, const VertexList& b) {
+                                     return a.size() != b.size() ? a.size() < b.size() : a < b;
                                    });
   if (it == impl_->covers.end() || *it != cover) return -INFINITY;
   const std::size_t c = static_cast<std::size_t>(it - impl_->covers.begin());
@@ -487,18 +483,18 @@ double CoverSampler::log_cover_weight(std::uint64_t cover) const {
   return acc.value();
 }
 
-Dag CoverSampler::draw_proposal(Rng& rng, std::uint64_t* cover) const {
+Dag CoverSampler::draw_proposal(Rng& rng, VertexList* cover) const {
   const std::size_t u = impl_->pick_unit(rng);
-  if (cover) *cover = impl_->units[u].cover;
+  if (cover) *cover = impl_->covers[impl_->units[u].cover];
   return impl_->draw_in_unit(u, rng);
 }
 
 Dag CoverSampler::draw(Rng& rng, std::uint64_t* trials) const {
   for (;;) {
     if (trials) ++*trials;
-    std::uint64_t cover = 0;
-    Dag dag = draw_proposal(rng, &cover);
-    if (canonical_split(dag, impl_->k) == cover) return dag;
+    const std::size_t u = impl_->pick_unit(rng);
+    Dag dag = impl_->draw_in_unit(u, rng);
+    if (canonical_split(dag, impl_->k) == impl_->covers[impl_->units[u].cover]) return dag;
   }
 }
 

@@ -27,6 +27,7 @@ std::size_t pick_index(const Real* w, std::size_t count, Rng& rng) {
 struct Scratch {
   std::vector<Real> weights, table;
   std::vector<unsigned> codes;
+  std::vector<int> outside;
 };
 constexpr std::size_t kMaxSubsets = std::size_t{1} << kMaxCoverBound;
 
@@ -91,10 +92,10 @@ Dag SamplerData::draw_in_unit(std::size_t unit, Rng& rng) const {
   const int m = g.m;
   const unsigned P = 1U << m, full = P - 1;
   const std::size_t S = std::size_t{1} << (2 * m);
-  std::array<int, kMaxExactVariables> outside{};
-  int no = 0;
-  for (int v = 0; v < n; ++v)
-    if (!((g.cover >> v) & 1U)) outside[no++] = v;
+  Scratch& sc = scratch();
+  complement(n, covers[g.cover], sc.outside);
+  const std::vector<int>& outside = sc.outside;
+  const int no = static_cast<int>(outside.size());
   const UnitLayout lay = UnitLayout::of(m, no);
   const Real* base = arena.data() + g.offset;
   const Real* F = base + lay.forward;
@@ -104,7 +105,6 @@ Dag SamplerData::draw_in_unit(std::size_t unit, Rng& rng) const {
   const Real* inner = base + lay.inner;
   const Real* R = base + lay.final;
   Dag dag(n);
-  Scratch& sc = scratch();
 
   // The end state (T, N), weighted by the sets of the members without a link.
   sc.weights.resize(S);
@@ -119,7 +119,7 @@ Dag SamplerData::draw_in_unit(std::size_t unit, Rng& rng) const {
     auto weight = [&](int t, unsigned q) { return inner[(t << m) | q]; };
     cover_table(positions, count, full, P, weight, sc.table);
     sample_cover(positions, count, full, P, weight, sc.table, full & ~N, rng,
-                 [&](int t, unsigned q) { dag.parents[g.vertex[t]] = g.global(q); });
+                 [&](int t, unsigned q) { g.add_parents(dag, g.vertex[t], q); });
   }
 
   const Real* step_scale = base + lay.step_scale;
@@ -167,7 +167,7 @@ Dag SamplerData::draw_in_unit(std::size_t unit, Rng& rng) const {
     const unsigned t_prev = T & ~a;
 
     if (a == 0) {
-      dag.parents[u] = g.global(z);
+      g.add_parents(dag, u, z);
     } else {
       // The link's own parents pp (before the first member of a) and its children's sets,
       // together exactly z.
@@ -194,11 +194,12 @@ Dag SamplerData::draw_in_unit(std::size_t unit, Rng& rng) const {
         if (pp == 0) break;
       }
       const unsigned pp = pcodes[pick_index(pw, options, rng)];
-      dag.parents[u] = g.global(pp);
+      g.add_parents(dag, u, pp);
       cover_table(positions, count, z, P, weight_for(pp), table);
       sample_cover(positions, count, z, P, weight_for(pp), table, z & ~pp, rng,
                    [&](int t, unsigned q) {
-                     dag.parents[g.vertex[t]] = g.global(q) | (std::uint64_t{1} << u);
+                     g.add_parents(dag, g.vertex[t], q);
+                     dag.add_edge(u, g.vertex[t]);
                    });
     }
     T = t_prev;

@@ -35,15 +35,16 @@ struct UnitLayout {
 std::size_t factorial(int m);
 
 struct UnitGeometry {
-  std::uint64_t cover = 0;
+  std::size_t cover = 0;  // index into SamplerData::covers
   std::size_t offset = 0;
   double log_weight = -INFINITY;
   std::uint8_t m = 0;
-  std::array<std::int8_t, kMaxCoverBound> order{};   // position -> member index (C-local)
-  std::array<std::int8_t, kMaxCoverBound> vertex{};  // position -> vertex
-  std::array<std::uint16_t, kMaxCoverBound> need{};  // positions one H-parent must come from
+  std::array<std::int8_t, kMaxCoverBound> order{};    // position -> member index (C-local)
+  std::array<std::int32_t, kMaxCoverBound> vertex{};  // position -> vertex
+  std::array<std::uint16_t, kMaxCoverBound> need{};   // positions one H-parent must come from
   void set(const int* order_members, const std::vector<int>& members);
-  std::uint64_t global(unsigned sigma_local) const;
+  // Adds the edges vertex[t] -> child for the positions t in `sigma_local`.
+  void add_parents(Dag& dag, int child, unsigned sigma_local) const;
 };
 
 // Bytes held per unit besides its tables: the geometry, the alias table and the vectors that
@@ -57,7 +58,7 @@ void require_sampler_memory(int n, int k, std::size_t limit);
 struct SamplerData {
   int n = 0, k = 0;
   std::uint64_t fingerprint = 0;
-  std::vector<std::uint64_t> covers;          // all C with |C| <= k, by size then index list
+  std::vector<VertexList> covers;             // all C with |C| <= k, by size then index list
   std::vector<std::size_t> cover_first_unit;  // units of cover c: [first[c], first[c+1])
   std::vector<UnitGeometry> units;
   std::size_t arena_size = 0;

@@ -23,7 +23,9 @@ namespace {
 constexpr const char* kSamplerKind = "cover-sampler";
 // 2: the tables as float64 `/tables/values` (format 1 stored long doubles as mantissa and
 // exponent datasets).
-constexpr long long kSamplerFormatVersion = 2;
+// 3: units store the index of their cover set in the fixed enumeration (any n), where 2 stored
+// its 64-bit mask.
+constexpr long long kSamplerFormatVersion = 3;
 static_assert(std::is_same_v<detail::Real, double>,
               "the sampler file stores the tables as float64");
 
@@ -97,7 +99,7 @@ void CoverSampler::save(const std::string& path, bool overwrite) const {
     std::vector<std::int32_t> orders;
     std::vector<double> log_weights;
     for (const auto& g : d.units) {
-      covers.push_back(g.cover);
+      covers.push_back(static_cast<std::uint64_t>(g.cover));
       for (int t = 0; t < g.m; ++t) orders.push_back(g.order[t]);
       log_weights.push_back(g.log_weight);
     }
@@ -151,7 +153,7 @@ CoverSampler CoverSampler::load(const std::string& path, const ScoreTable& table
     std::size_t next = 0;
     for (std::size_t u = 0; u < d.units.size(); ++u) {
       detail::UnitGeometry& g = d.units[u];
-      if (covers[u] != g.cover || next + g.m > orders.size())
+      if (covers[u] != static_cast<std::uint64_t>(g.cover) || next + g.m > orders.size())
         throw InputError(path + ": the unit list does not match its cover bound (corrupted?)");
       int order[detail::kMaxCoverBound];
       unsigned seen = 0;
@@ -161,10 +163,7 @@ CoverSampler CoverSampler::load(const std::string& path, const ScoreTable& table
           throw InputError(path + ": a unit order is not a permutation (corrupted?)");
         seen |= 1U << order[t];
       }
-      std::vector<int> members;
-      for (int v = 0; v < d.n; ++v)
-        if ((g.cover >> v) & 1U) members.push_back(v);
-      g.set(order, members);
+      g.set(order, d.covers[g.cover]);
       g.log_weight = log_weights[u];
       if (std::isnan(g.log_weight) || g.log_weight == INFINITY)
         throw InputError(path + ": invalid unit weight (corrupted?)");

@@ -338,7 +338,7 @@ struct ExactEngine::Impl {
       const std::uint64_t next_layer = deposit_bits(chosen, rest);
       for (std::size_t j = 0; j < c; ++j) {
         if (!((chosen >> j) & 1U)) continue;
-        dag.parents[cs[j]] =
+        dag.parent_mask(cs[j]) =
             draw_parent_set(cs[j], placed, ls, &ws.terms[j * l], ws.factors[j], rng);
       }
       placed |= next_layer;

@@ -1,145 +1,239 @@
 #include "covey/graph/cover_class.hpp"
 
 #include <algorithm>
-#include <array>
 #include <bit>
+#include <boost/dynamic_bitset.hpp>
+#include <type_traits>
 
 #include "covey/core/error.hpp"
 
 namespace covey {
 namespace {
 
-using Adjacency = std::array<std::uint64_t, kMaxExactVariables>;
+// The search below is written once over a vertex-set type: one 64-bit word for graphs of at most
+// 64 vertices (the chains' class tests run it on every proposal there) and a dynamic bitset for
+// larger graphs (the cover-bounded engines take any number of variables).
+struct NarrowSets {
+  using Set = std::uint64_t;
+  int n;
+  Set empty() const { return 0; }
+  static Set with(Set s, int v) { return s | (Set{1} << v); }
+  static bool has(const Set& s, int v) { return (s >> v) & 1U; }
+  static Set minus(Set a, const Set& b) { return a & ~b; }
+  static Set unite(Set a, const Set& b) { return a | b; }
+  static bool none(const Set& s) { return s == 0; }
+  static int count(const Set& s) { return std::popcount(s); }
+  static bool subset(const Set& a, const Set& b) { return (a & ~b) == 0; }
+  // The members of s above v.
+  static Set above(Set s, int v) { return v >= 63 ? 0 : s & (~Set{0} << (v + 1)); }
+  template <class F>
+  static void for_each(Set s, F&& f) {
+    for (; s; s &= s - 1) f(std::countr_zero(s));
+  }
+  static bool list_less(Set a, Set b) { return cover_list_less(a, b); }
+};
 
-constexpr std::uint64_t bit(int v) {
-  return std::uint64_t{1} << v;
-}
+struct WideSets {
+  using Set = boost::dynamic_bitset<std::uint64_t>;
+  int n;
+  Set empty() const { return Set(std::size_t(n)); }
+  static Set with(Set s, int v) { return s.set(std::size_t(v)); }
+  static bool has(const Set& s, int v) { return s.test(std::size_t(v)); }
+  static Set minus(Set a, const Set& b) { return a -= b; }
+  static Set unite(Set a, const Set& b) { return a |= b; }
+  static bool none(const Set& s) { return s.none(); }
+  static int count(const Set& s) { return static_cast<int>(s.count()); }
+  static bool subset(const Set& a, const Set& b) { return a.is_subset_of(b); }
+  static Set above(Set s, int v) {
+    for (std::size_t i = 0; i <= std::size_t(v) && i < s.size(); ++i) s.reset(i);
+    return s;
+  }
+  template <class F>
+  static void for_each(const Set& s, F&& f) {
+    for (auto i = s.find_first(); i != Set::npos; i = s.find_next(i)) f(static_cast<int>(i));
+  }
+  // Lexicographic order of the ascending member lists (a proper prefix is smaller).
+  static bool list_less(const Set& a, const Set& b) {
+    auto i = a.find_first(), j = b.find_first();
+    for (; i != Set::npos && j != Set::npos; i = a.find_next(i), j = b.find_next(j))
+      if (i != j) return i < j;
+    return i == Set::npos && j != Set::npos;
+  }
+};
 
-void fill_moral(const Dag& dag, Adjacency& adj) {
-  const int n = dag.size();
-  std::fill(adj.begin(), adj.begin() + n, 0);
-  for (int v = 0; v < n; ++v) {
-    const std::uint64_t pa = dag.parents[v];
-    adj[v] |= pa;
-    for (std::uint64_t m = pa; m; m &= m - 1) {
-      const int p = std::countr_zero(m);
-      // p is adjacent to its child v and, by marriage, to every other parent of v.
-      adj[p] |= bit(v) | (pa & ~bit(p));
+template <class Sets>
+struct CoverSearch {
+  using SetsType = Sets;
+  using Set = typename Sets::Set;
+  Sets sets;
+  std::vector<Set> adj;  // moral-graph (or given) adjacency
+
+  // The moral graph: the skeleton plus an edge between every two parents of a common child.
+  static CoverSearch moral(const Dag& dag) {
+    const int n = dag.size();
+    if constexpr (std::is_same_v<Sets, NarrowSets>) {
+      CoverSearch s{Sets{n}, std::vector<Set>(std::size_t(n), 0)};
+      for (int v = 0; v < n; ++v) {
+        const std::uint64_t pa = dag.parent_mask(v);
+        s.adj[v] |= pa;
+        for (std::uint64_t m = pa; m; m &= m - 1) {
+          const int p = std::countr_zero(m);
+          s.adj[p] |= (std::uint64_t{1} << v) | (pa & ~(std::uint64_t{1} << p));
+        }
+      }
+      return s;
     }
+    CoverSearch s{Sets{n}, std::vector<Set>(std::size_t(n), Sets{n}.empty())};
+    for (int v = 0; v < n; ++v) {
+      const std::vector<int> pa = dag.parents_of(v);
+      for (int p : pa) {
+        s.adj[v] = Sets::with(std::move(s.adj[v]), p);
+        s.adj[p] = Sets::with(std::move(s.adj[p]), v);
+        // p is adjacent to its child v and, by marriage, to every other parent of v.
+        for (int q : pa)
+          if (q != p) s.adj[p] = Sets::with(std::move(s.adj[p]), q);
+      }
+    }
+    return s;
   }
+
+  int n() const { return sets.n; }
+
+  // Is there a cover of the edges not yet covered by `chosen` with at most `budget` more
+  // vertices? Branches on the lowest vertex with an uncovered edge: it joins the cover, or all
+  // its uncovered neighbours do. A vertex with one uncovered neighbour w is resolved by taking w
+  // (swapping it for w never makes a cover larger). Depth <= budget, so O(2^budget) nodes.
+  bool find_cover(const Set& chosen, int budget, Set& out) const {
+    for (int u = 0; u < n(); ++u) {
+      if (Sets::has(chosen, u)) continue;
+      const Set open = Sets::minus(adj[u], chosen);
+      if (Sets::none(open)) continue;
+      if (budget == 0) return false;
+      const int degree = Sets::count(open);
+      if (degree == 1) return find_cover(Sets::unite(chosen, open), budget - 1, out);
+      if (find_cover(Sets::with(chosen, u), budget - 1, out)) return true;
+      return degree <= budget && find_cover(Sets::unite(chosen, open), budget - degree, out);
+    }
+    out = chosen;
+    return true;
+  }
+
+  std::optional<Set> minimum_cover(int k) const {
+    for (int size = 0; size <= k; ++size) {
+      Set cover = sets.empty();
+      if (find_cover(sets.empty(), size, cover)) return cover;
+    }
+    return std::nullopt;
+  }
+
+  // Every superset of `chosen` inside `chosen | free` with at most `budget` extra vertices, once.
+  template <class Visit>
+  void add_free_vertices(const Set& chosen, const Set& free, int budget, Visit& visit) const {
+    visit(chosen);
+    if (budget == 0) return;
+    Sets::for_each(free, [&](int b) {
+      add_free_vertices(Sets::with(chosen, b), Sets::above(free, b), budget - 1, visit);
+    });
+  }
+
+  // All covers inside `allowed` with |C| <= k, each once: each branch fixes whether one vertex is
+  // in the cover (`chosen`) or out of it (`excluded`), so two leaves never give the same cover.
+  template <class Visit>
+  void enumerate_covers(const Set& allowed, int k, const Set& chosen, const Set& excluded,
+                        Visit& visit) const {
+    const int used = Sets::count(chosen);
+    const Set available = Sets::minus(allowed, excluded);
+    for (int u = 0; u < n(); ++u) {
+      if (Sets::has(chosen, u)) continue;
+      const Set open = Sets::minus(adj[u], chosen);
+      if (Sets::none(open)) continue;
+      if (Sets::has(available, u) && used < k)
+        enumerate_covers(allowed, k, Sets::with(chosen, u), excluded, visit);
+      if (Sets::subset(open, available) && used + Sets::count(open) <= k)
+        enumerate_covers(allowed, k, Sets::unite(chosen, open), Sets::with(excluded, u), visit);
+      return;
+    }
+    add_free_vertices(chosen, Sets::minus(available, chosen), k - used, visit);
+  }
+
+  Set non_sinks(const Dag& dag) const {
+    if constexpr (std::is_same_v<Sets, NarrowSets>) return dag.non_sinks();
+    Set s = sets.empty();
+    for (int v = 0; v < n(); ++v)
+      for (int p : dag.parents_of(v)) s = Sets::with(std::move(s), p);
+    return s;
+  }
+
+  static VertexList list(const Set& s) {
+    VertexList out;
+    Sets::for_each(s, [&](int v) { out.push_back(v); });
+    return out;
+  }
+};
+
+// Runs f with the moral-graph search of `dag` on the narrow or the wide set type.
+template <class F>
+decltype(auto) with_moral_search(const Dag& dag, F&& f) {
+  if (dag.size() <= kMaxExactVariables) return f(CoverSearch<NarrowSets>::moral(dag));
+  return f(CoverSearch<WideSets>::moral(dag));
 }
 
-// Is there a cover of the edges not yet covered by `chosen` with at most `budget` more vertices?
-// Branches on the lowest vertex with an uncovered edge: it joins the cover, or all its uncovered
-// neighbours do. A vertex with one uncovered neighbour w is resolved by taking w (swapping it for
-// w never makes a cover larger). Depth <= budget, so O(2^budget) nodes.
-bool find_cover(const std::uint64_t* adj, int n, std::uint64_t chosen, int budget,
-                std::uint64_t& out) {
-  for (int u = 0; u < n; ++u) {
-    if ((chosen >> u) & 1U) continue;
-    const std::uint64_t open = adj[u] & ~chosen;
-    if (!open) continue;
-    if (budget == 0) return false;
-    if (std::has_single_bit(open)) return find_cover(adj, n, chosen | open, budget - 1, out);
-    if (find_cover(adj, n, chosen | bit(u), budget - 1, out)) return true;
-    const int degree = std::popcount(open);
-    return degree <= budget && find_cover(adj, n, chosen | open, budget - degree, out);
-  }
-  out = chosen;
-  return true;
-}
-
-std::optional<std::uint64_t> minimum_cover(const std::uint64_t* adj, int n, int k) {
-  for (int size = 0; size <= k; ++size) {
-    std::uint64_t cover = 0;
-    if (find_cover(adj, n, 0, size, cover)) return cover;
-  }
-  return std::nullopt;
-}
-
-// Every superset of `chosen` inside `chosen | free` with at most `budget` extra vertices, once.
-template <class Visit>
-void add_free_vertices(std::uint64_t chosen, std::uint64_t free, int budget, Visit& visit) {
-  visit(chosen);
-  if (budget == 0) return;
-  for (std::uint64_t m = free; m; m &= m - 1) {
-    const std::uint64_t b = m & (~m + 1);
-    add_free_vertices(chosen | b, m & ~b, budget - 1, visit);
-  }
-}
-
-// All covers inside `allowed` with |C| <= k, each once: each branch fixes whether one vertex is
-// in the cover (`chosen`) or out of it (`excluded`), so two leaves never give the same cover.
-template <class Visit>
-void enumerate_covers(const std::uint64_t* adj, int n, std::uint64_t allowed, int k,
-                      std::uint64_t chosen, std::uint64_t excluded, Visit& visit) {
-  const int used = std::popcount(chosen);
-  for (int u = 0; u < n; ++u) {
-    if ((chosen >> u) & 1U) continue;
-    const std::uint64_t open = adj[u] & ~chosen;
-    if (!open) continue;
-    if (((allowed & ~excluded) >> u) & 1U && used < k)
-      enumerate_covers(adj, n, allowed, k, chosen | bit(u), excluded, visit);
-    if ((open & ~(allowed & ~excluded)) == 0 && used + std::popcount(open) <= k)
-      enumerate_covers(adj, n, allowed, k, chosen | open, excluded | bit(u), visit);
-    return;
-  }
-  add_free_vertices(chosen, allowed & ~chosen & ~excluded, k - used, visit);
-}
-
-void check_size(const Dag& dag) {
-  if (dag.size() > kMaxExactVariables)
-    throw InputError("the cover-bounded class supports at most 64 variables");
+CoverSearch<NarrowSets> narrow_search(const std::uint64_t* adjacency, int n) {
+  if (n > kMaxExactVariables) throw InputError("vertex cover: at most 64 vertices");
+  return {NarrowSets{n}, std::vector<std::uint64_t>(adjacency, adjacency + n)};
 }
 
 }  // namespace
 
 std::vector<std::uint64_t> moral_graph(const Dag& dag) {
-  check_size(dag);
-  Adjacency adj;
-  fill_moral(dag, adj);
-  return {adj.begin(), adj.begin() + dag.size()};
+  if (dag.size() > kMaxExactVariables)
+    throw InputError("moral_graph: masks hold at most 64 variables");
+  return CoverSearch<NarrowSets>::moral(dag).adj;
 }
 
 std::optional<std::uint64_t> vertex_cover_at_most(const std::vector<std::uint64_t>& adjacency,
                                                   int k) {
   if (k < 0) return std::nullopt;
   const int n = static_cast<int>(adjacency.size());
-  if (n > kMaxExactVariables) throw InputError("vertex cover: at most 64 vertices");
-  return minimum_cover(adjacency.data(), n, std::min(k, n));
+  return narrow_search(adjacency.data(), n).minimum_cover(std::min(k, n));
+}
+
+std::optional<VertexList> minimum_moral_cover(const Dag& dag, int k) {
+  if (k < 0) return std::nullopt;
+  return with_moral_search(dag, [&](const auto& search) -> std::optional<VertexList> {
+    const auto cover = search.minimum_cover(std::min(k, dag.size()));
+    if (!cover) return std::nullopt;
+    return search.list(*cover);
+  });
 }
 
 int moral_cover_number(const Dag& dag) {
-  check_size(dag);
-  Adjacency adj;
-  fill_moral(dag, adj);
-  return std::popcount(*minimum_cover(adj.data(), dag.size(), dag.size()));
+  return static_cast<int>(minimum_moral_cover(dag, dag.size())->size());
 }
 
 bool in_cover_class(const Dag& dag, int k) {
-  check_size(dag);
   if (k < 0) return false;
-  Adjacency adj;
-  fill_moral(dag, adj);
-  return minimum_cover(adj.data(), dag.size(), std::min(k, dag.size())).has_value();
+  return with_moral_search(dag, [&](const auto& search) {
+    return search.minimum_cover(std::min(k, dag.size())).has_value();
+  });
 }
 
 void for_each_vertex_cover(const std::uint64_t* adjacency, int n, std::uint64_t allowed, int k,
                            const std::function<void(std::uint64_t)>& visit) {
   if (k < 0) return;
-  if (n > kMaxExactVariables) throw InputError("vertex cover: at most 64 vertices");
+  const auto search = narrow_search(adjacency, n);
   auto call = [&](std::uint64_t c) { visit(c); };
-  enumerate_covers(adjacency, n, allowed, std::min(k, n), 0, 0, call);
+  search.enumerate_covers(allowed, std::min(k, n), 0, 0, call);
 }
 
-std::vector<std::uint64_t> splits(const Dag& dag, int k) {
-  check_size(dag);
-  std::vector<std::uint64_t> out;
+std::vector<VertexList> splits(const Dag& dag, int k) {
+  std::vector<VertexList> out;
   if (k < 0) return out;
-  Adjacency adj;
-  fill_moral(dag, adj);
-  auto collect = [&](std::uint64_t c) { out.push_back(c); };
-  enumerate_covers(adj.data(), dag.size(), dag.non_sinks(), std::min(k, dag.size()), 0, 0, collect);
+  with_moral_search(dag, [&](const auto& search) {
+    auto collect = [&](const auto& c) { out.push_back(search.list(c)); };
+    const auto none = search.sets.empty();
+    search.enumerate_covers(search.non_sinks(dag), std::min(k, dag.size()), none, none, collect);
+  });
   std::sort(out.begin(), out.end());
   return out;
 }
@@ -152,18 +246,20 @@ bool cover_list_less(std::uint64_t a, std::uint64_t b) {
   return (a >> t) == 0;
 }
 
-std::optional<std::uint64_t> canonical_split(const Dag& dag, int k) {
-  check_size(dag);
+std::optional<VertexList> canonical_split(const Dag& dag, int k) {
   if (k < 0) return std::nullopt;
-  Adjacency adj;
-  fill_moral(dag, adj);
-  std::optional<std::uint64_t> best;
-  auto keep_smallest = [&](std::uint64_t c) {
-    if (!best || cover_list_less(c, *best)) best = c;
-  };
-  enumerate_covers(adj.data(), dag.size(), dag.non_sinks(), std::min(k, dag.size()), 0, 0,
-                   keep_smallest);
-  return best;
+  return with_moral_search(dag, [&](const auto& search) -> std::optional<VertexList> {
+    using Search = std::decay_t<decltype(search)>;
+    std::optional<typename Search::Set> best;
+    auto keep_smallest = [&](const auto& c) {
+      if (!best || Search::SetsType::list_less(c, *best)) best = c;
+    };
+    const auto none = search.sets.empty();
+    search.enumerate_covers(search.non_sinks(dag), std::min(k, dag.size()), none, none,
+                            keep_smallest);
+    if (!best) return std::nullopt;
+    return search.list(*best);
+  });
 }
 
 }  // namespace covey

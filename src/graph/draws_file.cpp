@@ -1,6 +1,7 @@
 // The shared HDF5 layout of DAG draws (include/covey/graph/draws_file.hpp).
 #include "covey/graph/draws_file.hpp"
 
+#include <algorithm>
 #include <cinttypes>
 #include <cstdio>
 #include <optional>
@@ -50,8 +51,7 @@ void write_draws(const std::string& path, const std::vector<std::string>& names,
                  std::uint64_t table_fingerprint, const std::vector<Dag>& dags,
                  const std::vector<double>& log_weights, const Attributes& attributes) {
   const int n = static_cast<int>(names.size());
-  if (n < 1 || n > kMaxExactVariables)
-    throw InputError(path + ": draws files hold DAGs of 1 to 64 variables");
+  if (n < 1) throw InputError(path + ": draws files hold DAGs of at least 1 variable");
   if (!attribute_string(attributes, "kind"))
     throw Error("write_draws: the attributes need a string 'kind'");
   if (dags.size() != log_weights.size())
@@ -61,10 +61,11 @@ void write_draws(const std::string& path, const std::vector<std::string>& names,
   attrs.try_emplace("command_line", std::string());
 
   std::vector<std::uint64_t> rows;
-  rows.reserve(dags.size() * n);
+  const std::size_t width = std::size_t(n) * Dag(n).words_per_node();
+  rows.reserve(dags.size() * width);
   for (const Dag& d : dags) {
     if (d.size() != n) throw Error("write_draws: a draw has the wrong number of vertices");
-    rows.insert(rows.end(), d.parents.begin(), d.parents.end());
+    rows.insert(rows.end(), d.words().begin(), d.words().end());
   }
   AtomicOutput out(path);
   h5::guard(path, [&] {
@@ -79,8 +80,8 @@ void write_draws(const std::string& path, const std::vector<std::string>& names,
     H5::Group vars = file.createGroup("variables");
     h5::write_strings(vars, "names", names);
     H5::Group group = file.createGroup("draws");
-    h5::create_rows(group, "parents", static_cast<std::size_t>(n));
-    h5::append_rows(group, "parents", rows, static_cast<std::size_t>(n));
+    h5::create_rows(group, "parents", width);
+    h5::append_rows(group, "parents", rows, width);
     h5::create_series_double(group, "log_weight");
     h5::append_series(group, "log_weight", log_weights);
     file.close();
@@ -106,28 +107,35 @@ DrawsFile read_draws(const std::string& path) {
     const long long n = h5::get_attr_int(file, "num_variables");
     const long long count = h5::get_attr_int(file, "num_draws");
     d.variables = h5::read_strings(file.openGroup("variables"), "names");
-    if (n < 1 || n > kMaxExactVariables || d.variables.size() != static_cast<std::size_t>(n))
+    if (n < 1 || d.variables.size() != static_cast<std::size_t>(n))
       throw InputError(path + ": corrupt variables (num_variables does not match the names)");
     H5::Group group = file.openGroup("draws");
     if (h5::num_rows(group, "parents") != static_cast<std::size_t>(count))
       throw InputError(path + ": corrupt draws (num_draws does not match the parents rows)");
     const std::vector<std::uint64_t> rows =
         h5::read_rows(group, "parents", 0, static_cast<std::size_t>(count));
-    if (rows.size() != static_cast<std::size_t>(count * n))
-      throw InputError(path + ": corrupt draws (rows are not num_variables wide)");
+    const int words = Dag(static_cast<int>(n)).words_per_node();
+    const std::size_t width = static_cast<std::size_t>(n) * words;
+    if (rows.size() != static_cast<std::size_t>(count) * width)
+      throw InputError(path + ": corrupt draws (rows are not num_variables * " +
+                       std::to_string(words) + " words wide)");
     d.log_weights = h5::read_doubles(group, "log_weight");
     if (d.log_weights.size() != static_cast<std::size_t>(count))
       throw InputError(path + ": corrupt draws (one log weight per draw expected)");
-    const std::uint64_t all = n == 64 ? ~std::uint64_t{0} : (std::uint64_t{1} << n) - 1;
+    // The bits at or above n in the last word of each parent set must be clear.
+    const int tail_bits = static_cast<int>(n - 64 * (words - 1));
+    const std::uint64_t last_word =
+        tail_bits == 64 ? ~std::uint64_t{0} : (std::uint64_t{1} << tail_bits) - 1;
     d.dags.reserve(count);
     for (long long i = 0; i < count; ++i) {
       Dag g(static_cast<int>(n));
+      const std::uint64_t* row = rows.data() + static_cast<std::size_t>(i) * width;
       for (long long v = 0; v < n; ++v) {
-        const std::uint64_t p = rows[i * n + v];
-        if ((p & ~all) || ((p >> v) & 1U))
-          throw InputError(path + ": corrupt draw " + std::to_string(i) + " (parent mask of " +
+        const std::span<std::uint64_t> set = g.parent_words(static_cast<int>(v));
+        std::copy(row + v * words, row + (v + 1) * words, set.begin());
+        if ((set[words - 1] & ~last_word) || g.has_edge(static_cast<int>(v), static_cast<int>(v)))
+          throw InputError(path + ": corrupt draw " + std::to_string(i) + " (parent set of " +
                            d.variables[v] + " out of range)");
-        g.parents[v] = p;
       }
       if (!is_acyclic(g))
         throw InputError(path + ": corrupt draw " + std::to_string(i) + " (it has a cycle)");

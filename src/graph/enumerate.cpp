@@ -57,10 +57,10 @@ class LayerEnumerator {
       if (s & ~within) continue;
       // The last vertex must finish the cover.
       if (rest == 0 && (need & ~s)) continue;
-      dag_.parents[v] = s;
+      dag_.parent_mask(v) = s;
       assign(rest, within, need & ~s, then);
     }
-    dag_.parents[v] = 0;
+    dag_.parent_mask(v) = 0;
   }
 
   void emit() {

@@ -10,7 +10,8 @@
 namespace covey {
 
 // The cover bound of the exact start when neither start_cover nor teleport_cover is given: D_2
-// is cheap to sample for every table the cover engines take (n <= 64).
+// is cheap to sample up to a few hundred variables (its tables grow as n^3: about 0.36 GB at
+// n = 100; checked against the memory limit before they are built).
 inline constexpr int kDefaultStartCover = 2;
 
 struct ChainRunOptions {

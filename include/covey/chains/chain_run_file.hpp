@@ -148,7 +148,7 @@ class RunFeatures {
   std::span<const double> log_scores(int chain) const {
     return {log_scores_.data() + std::size_t(chain) * iterations_, iterations_};
   }
-  // 1 when the draw lies in the cover-bounded class D_k (n <= 64).
+  // 1 when the draw lies in the cover-bounded class D_k.
   void in_cover_class(int k, std::span<double> out) const;
   // Per chain, the draw positions at which a tour between teleport regenerations starts (the
   // first kept draw at or after each regeneration step); the input of regenerative_mean(),

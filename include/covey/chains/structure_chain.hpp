@@ -62,7 +62,7 @@ struct MoveCounts {
   bool operator==(const MoveCounts&) const = default;
 };
 
-// A class of DAGs (n <= 64) that a chain may be restricted to, or that a teleport samples from.
+// A class of DAGs (any n) that a chain may be restricted to, or that a teleport samples from.
 class DagClass {
  public:
   virtual ~DagClass() = default;
@@ -86,7 +86,7 @@ struct ChainConfig {
   double rev_rate = 0.0;       // probability of a REV step
   double teleport_rate = 0.0;  // probability of a teleport step (needs `teleport`)
   const TeleportSource* teleport = nullptr;
-  const DagClass* restriction = nullptr;  // target restricted to this class (n <= 64), or none
+  const DagClass* restriction = nullptr;  // target restricted to this class, or none
   double block_rate = 0.0;                // probability of an exact block move
   int block_size = 0;                     // m: nodes per block, 1..n (needed with block_rate)
   // Blocks of block_size nodes fixed before the run (may be empty); a block move takes one of
@@ -118,7 +118,7 @@ class StructureChain {
   // (bit u of node v's words: edge u -> v). Throws InputError naming `what` when the graph has a
   // cycle, a parent set is not in the table, or it lies outside the restriction class.
   void set_parents(std::span<const std::uint64_t> words, const std::string& what = "start DAG");
-  void set_dag(const Dag& dag, const std::string& what = "start DAG");  // n <= 64
+  void set_dag(const Dag& dag, const std::string& what = "start DAG");
   // Whether the table allows the empty graph (every node may have no parents).
   bool empty_graph_allowed() const;
 
@@ -152,7 +152,7 @@ class StructureChain {
   double log_score() const;
   void write_parents(std::uint64_t* out) const;  // n * words_per_node() words
   std::vector<std::uint64_t> parents_words() const;
-  Dag dag() const;  // n <= 64
+  Dag dag() const;
   bool has_edge(int from, int to) const;
   std::uint64_t num_edges() const { return num_edges_; }
 
@@ -244,7 +244,7 @@ class StructureChain {
   std::vector<double> score_;       // its log score
   std::vector<std::uint64_t> anc_;  // n * words: ancestors of each node
   std::uint64_t num_edges_ = 0;
-  Dag dag_;  // global masks, kept in step when n <= 64 (for class tests)
+  Dag dag_;  // kept in step when track_dag_ (class tests of teleports and cover limits)
   bool track_dag_ = false;
   MoveCounts counts_;
   // Rejection skipping: per local-move slot s = 2 * pair + coin (local_move's pick) its bound

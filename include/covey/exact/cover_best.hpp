@@ -5,6 +5,7 @@
 // bounds and forbidden or required edges hold.
 #include <cstdint>
 
+#include "covey/graph/cover_class.hpp"
 #include "covey/graph/dag.hpp"
 #include "covey/scores/score_table.hpp"
 
@@ -12,11 +13,11 @@ namespace covey {
 
 struct CoverBestResult {
   Dag dag;
-  double log_score = 0;     // log w(dag), summed in vertex order
-  std::uint64_t cover = 0;  // a minimum vertex cover of the moral graph (size <= k)
+  double log_score = 0;  // log w(dag), summed in vertex order
+  VertexList cover;      // a minimum vertex cover of the moral graph (size <= k), ascending
 };
 
-// Throws InputError (naming `option`) unless 0 <= k < n and n <= 64.
+// Throws InputError (naming `option`) unless 0 <= k < n and k is at most the engines' bound.
 void check_cover_bound(const ScoreTable& table, int k, const char* option = "{k}");
 
 // The best DAG of D_k, parallel over cover sets (TBB). Ties go to the first cover set (ascending

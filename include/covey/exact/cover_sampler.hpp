@@ -29,6 +29,7 @@
 #include <vector>
 
 #include "covey/core/random.hpp"
+#include "covey/graph/cover_class.hpp"
 #include "covey/graph/dag.hpp"
 #include "covey/scores/score_table.hpp"
 
@@ -65,13 +66,13 @@ class CoverSampler {
   std::size_t memory_bytes() const;
   std::uint64_t table_fingerprint() const;
   // log of the total weight of the DAGs that have `cover` as a split (-inf when none).
-  double log_cover_weight(std::uint64_t cover) const;
+  double log_cover_weight(const VertexList& cover) const;
 
   // One exact draw from w restricted to D_k (rejection inside); adds the trials used.
   Dag draw(Rng& rng, std::uint64_t* trials = nullptr) const;
   // One trial without the acceptance test: G with probability m(G) w(G) / U; `cover` receives
   // the split it came from. (draw() accepts it iff that split is canonical.)
-  Dag draw_proposal(Rng& rng, std::uint64_t* cover = nullptr) const;
+  Dag draw_proposal(Rng& rng, VertexList* cover = nullptr) const;
 
   // HDF5, atomic; stores the table fingerprint. Holds no memory beyond the tables. An existing
   // `path` is refused unless `overwrite` (require_new_output).

@@ -7,7 +7,8 @@
 //                      command_line, every scalar engine attribute, and `attributes` (all of
 //                      them as one JSON text, for an exact round trip)
 //   /variables/names   variable names, in table order
-//   /draws/parents     uint64 [num_draws, num_variables]: word v of row i = parent mask of v
+//   /draws/parents     uint64 [num_draws, num_variables * W], W = ceil(n / 64): words v*W..v*W+W-1
+//                      of row i = the parent set of v (n <= 64: word v = parent mask of v)
 //   /draws/log_weight  float64 [num_draws]: log w(G) of each draw under the table
 #include <cstdint>
 #include <string>
