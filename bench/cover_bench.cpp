@@ -76,6 +76,37 @@ BENCHMARK(BM_CoverSamplerPreprocessing)
     ->Unit(benchmark::kSecond)
     ->UseRealTime();
 
+// More than 64 variables (issue 15 item 7, no speed target): n = 100 with 20 candidate parents
+// per node, k = 2: preprocessing time, memory, and accepted draws per second on one thread.
+void BM_CoverSamplerWide(benchmark::State& state) {
+  const int n = static_cast<int>(state.range(0)), k = static_cast<int>(state.range(1));
+  covey::Rng table_rng = covey::make_stream(5, 0);
+  const covey::ScoreTable table = covey::bench::random_bench_table({n, 20, 3, 1.2, 0.5}, table_rng);
+  covey::CoverSamplerOptions options;
+  options.show_progress = false;
+  double seconds = 0, draws_per_second = 0;
+  std::size_t bytes = 0;
+  for (auto _ : state) {
+    const auto start = std::chrono::steady_clock::now();
+    const covey::CoverSampler s = covey::CoverSampler::build(table, k, options);
+    seconds = seconds_since(start);
+    bytes = s.memory_bytes();
+    covey::Rng rng = covey::make_stream(6, 0);
+    const auto draw_start = std::chrono::steady_clock::now();
+    constexpr int kDraws = 20000;
+    for (int i = 0; i < kDraws; ++i) benchmark::DoNotOptimize(s.draw(rng));
+    draws_per_second = kDraws / seconds_since(draw_start);
+  }
+  state.counters["seconds"] = seconds;
+  state.counters["MiB"] = double(bytes) / (1 << 20);
+  state.counters["draws_per_s"] = draws_per_second;
+}
+BENCHMARK(BM_CoverSamplerWide)
+    ->Args({100, 2})
+    ->Iterations(1)
+    ->Unit(benchmark::kSecond)
+    ->UseRealTime();
+
 // Accepted draws per second on one thread (CoverSampler::draw, the call the chains use).
 void BM_CoverDrawsPerSecond(benchmark::State& state) {
   const int n = static_cast<int>(state.range(0)), k = static_cast<int>(state.range(1));
