@@ -207,7 +207,8 @@ class Runner {
               "(required edges?); use --start exact or --start FILE");
       } else if (o_.start == "greedy") {
         // From the chain's own stream: every chain climbs from its own random node order.
-        slot->chain.set_parents(greedy_start(table_, slot->rng), "greedy start");
+        slot->chain.set_parents(greedy_start(table_, slot->rng, config_.restriction),
+                                "greedy start");
       } else if (o_.start == "exact") {
         // The chain's own stream makes its first state an exact draw from D_k. From the
         // teleports' class it is a regeneration at step 0 (the state every accepted teleport

@@ -89,35 +89,43 @@ TEST(CoverClass, AgreesWithBruteForceOnAllDagsWithFiveNodes) {
 }
 
 TEST(CoverClass, WideGraphsAgreeWithTheirNarrowCopies) {
-  // Graphs of more than 64 vertices use the wide vertex sets. Every 8th DAG on 5 nodes, placed on 5
-  // vertices of a 150-vertex graph (the rest isolated: sinks that are never in a split), must keep
-  // its cover number, membership, splits and canonical split, relabelled.
-  const int n = 5, wide_n = 150;
-  const int place[n] = {3, 63, 64, 100, 149};  // across word boundaries
-  auto relabel = [&](std::vector<int> list) {
-    for (int& v : list) v = place[v];
-    return list;
+  // Graphs of more than 64 vertices use wider vertex sets: fixed arrays of words up to 1024
+  // vertices, a dynamic bitset beyond. DAGs on 5 nodes (every 8th, and every 64th for the largest
+  // graph), placed on 5 vertices of a larger graph across word boundaries (the rest isolated:
+  // sinks that are never in a split), must keep their cover number, membership, splits and
+  // canonical split, relabelled.
+  const int n = 5;
+  struct Case {
+    int wide_n, stride;
+    int place[5];
   };
-  std::uint64_t seen = 0, checked = 0;
-  for_each_dag(n, all_sets, [&](const Dag& g) {
-    if (seen++ % 8 != 0) return;  // every 8th DAG: the wide sets are slower
-    Dag w(wide_n);
-    for (int v = 0; v < n; ++v)
-      for (int u : g.parents_of(v)) w.add_edge(place[u], place[v]);
-    ASSERT_EQ(w.num_edges(), g.num_edges());
-    ASSERT_EQ(moral_cover_number(w), moral_cover_number(g));
-    for (int k = 0; k < n; ++k) {
-      ASSERT_EQ(in_cover_class(w, k), in_cover_class(g, k));
-      std::vector<VertexList> expected;
-      for (const VertexList& c : splits(g, k)) expected.push_back(relabel(c));
-      ASSERT_EQ(splits(w, k), expected);
-      const auto canonical = canonical_split(g, k);
-      ASSERT_EQ(canonical_split(w, k),
-                canonical ? std::optional(relabel(*canonical)) : std::nullopt);
-    }
-    ++checked;
-  });
-  EXPECT_EQ(checked, (29281u + 7) / 8);
+  const Case cases[] = {{150, 8, {3, 63, 64, 100, 149}}, {1100, 64, {0, 64, 700, 1023, 1099}}};
+  for (const Case& c : cases) {
+    auto relabel = [&](std::vector<int> list) {
+      for (int& v : list) v = c.place[v];
+      return list;
+    };
+    std::uint64_t seen = 0, checked = 0;
+    for_each_dag(n, all_sets, [&](const Dag& g) {
+      if (seen++ % c.stride != 0) return;
+      Dag w(c.wide_n);
+      for (int v = 0; v < n; ++v)
+        for (int u : g.parents_of(v)) w.add_edge(c.place[u], c.place[v]);
+      ASSERT_EQ(w.num_edges(), g.num_edges());
+      ASSERT_EQ(moral_cover_number(w), moral_cover_number(g));
+      for (int k = 0; k < n; ++k) {
+        ASSERT_EQ(in_cover_class(w, k), in_cover_class(g, k));
+        std::vector<VertexList> expected;
+        for (const VertexList& s : splits(g, k)) expected.push_back(relabel(s));
+        ASSERT_EQ(splits(w, k), expected);
+        const auto canonical = canonical_split(g, k);
+        ASSERT_EQ(canonical_split(w, k),
+                  canonical ? std::optional(relabel(*canonical)) : std::nullopt);
+      }
+      ++checked;
+    });
+    EXPECT_EQ(checked, (29281u + c.stride - 1) / c.stride) << c.wide_n;
+  }
 }
 
 TEST(CoverClass, SplitCountAtMostTwoToTheKForAllDagsUpToSixNodes) {

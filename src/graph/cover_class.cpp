@@ -1,6 +1,7 @@
 #include "covey/graph/cover_class.hpp"
 
 #include <algorithm>
+#include <array>
 #include <bit>
 #include <boost/dynamic_bitset.hpp>
 #include <type_traits>
@@ -31,6 +32,65 @@ struct NarrowSets {
     for (; s; s &= s - 1) f(std::countr_zero(s));
   }
   static bool list_less(Set a, Set b) { return cover_list_less(a, b); }
+};
+
+// Up to 64 * W vertices in W words, without allocation (the class tests of chains under a cover
+// limit run on every accepted proposal).
+template <int W>
+struct FixedSets {
+  using Set = std::array<std::uint64_t, W>;
+  int n;
+  Set empty() const { return Set{}; }
+  static Set with(Set s, int v) {
+    s[v >> 6] |= std::uint64_t{1} << (v & 63);
+    return s;
+  }
+  static bool has(const Set& s, int v) { return (s[v >> 6] >> (v & 63)) & 1U; }
+  static Set minus(Set a, const Set& b) {
+    for (int w = 0; w < W; ++w) a[w] &= ~b[w];
+    return a;
+  }
+  static Set unite(Set a, const Set& b) {
+    for (int w = 0; w < W; ++w) a[w] |= b[w];
+    return a;
+  }
+  static bool none(const Set& s) {
+    std::uint64_t any = 0;
+    for (int w = 0; w < W; ++w) any |= s[w];
+    return any == 0;
+  }
+  static int count(const Set& s) {
+    int c = 0;
+    for (int w = 0; w < W; ++w) c += std::popcount(s[w]);
+    return c;
+  }
+  static bool subset(const Set& a, const Set& b) { return none(minus(a, b)); }
+  static Set above(Set s, int v) {
+    for (int w = 0; w < (v >> 6); ++w) s[w] = 0;
+    s[v >> 6] &= (v & 63) == 63 ? 0 : ~std::uint64_t{0} << ((v & 63) + 1);
+    return s;
+  }
+  template <class F>
+  static void for_each(const Set& s, F&& f) {
+    for (int w = 0; w < W; ++w)
+      for (std::uint64_t m = s[w]; m; m &= m - 1) f(64 * w + std::countr_zero(m));
+  }
+  // Lexicographic order of the ascending member lists (a proper prefix is smaller): at the
+  // lowest vertex in exactly one of them, the list holding it is smaller unless the other list
+  // has ended before it.
+  static bool list_less(const Set& a, const Set& b) {
+    for (int w = 0; w < W; ++w) {
+      const std::uint64_t diff = a[w] ^ b[w];
+      if (!diff) continue;
+      const int t = std::countr_zero(diff);
+      const Set& holder = (a[w] >> t) & 1U ? a : b;
+      const Set& other = &holder == &a ? b : a;
+      bool other_goes_on = (other[w] >> t) != 0;
+      for (int x = w + 1; x < W && !other_goes_on; ++x) other_goes_on = other[x] != 0;
+      return &holder == &a ? other_goes_on : !other_goes_on;
+    }
+    return false;
+  }
 };
 
 struct WideSets {
@@ -84,8 +144,13 @@ struct CoverSearch {
       return s;
     }
     CoverSearch s{Sets{n}, std::vector<Set>(std::size_t(n), Sets{n}.empty())};
+    std::vector<int> pa;
     for (int v = 0; v < n; ++v) {
-      const std::vector<int> pa = dag.parents_of(v);
+      pa.clear();
+      const auto words = dag.parent_words(v);
+      for (std::size_t w = 0; w < words.size(); ++w)
+        for (std::uint64_t m = words[w]; m; m &= m - 1)
+          pa.push_back(static_cast<int>(64 * w) + std::countr_zero(m));
       for (int p : pa) {
         s.adj[v] = Sets::with(std::move(s.adj[v]), p);
         s.adj[p] = Sets::with(std::move(s.adj[p]), v);
@@ -171,10 +236,14 @@ struct CoverSearch {
   }
 };
 
-// Runs f with the moral-graph search of `dag` on the narrow or the wide set type.
+// Runs f with the moral-graph search of `dag` on the smallest set type that holds its vertices.
 template <class F>
 decltype(auto) with_moral_search(const Dag& dag, F&& f) {
-  if (dag.size() <= kMaxExactVariables) return f(CoverSearch<NarrowSets>::moral(dag));
+  const int words = dag.words_per_node();
+  if (words <= 1) return f(CoverSearch<NarrowSets>::moral(dag));
+  if (words <= 2) return f(CoverSearch<FixedSets<2>>::moral(dag));
+  if (words <= 4) return f(CoverSearch<FixedSets<4>>::moral(dag));
+  if (words <= 16) return f(CoverSearch<FixedSets<16>>::moral(dag));
   return f(CoverSearch<WideSets>::moral(dag));
 }
 
