@@ -3,6 +3,7 @@
 
 #include <nlohmann/json.hpp>
 
+#include "covey/chains/chain_run_file.hpp"
 #include "covey/scores/score_io.hpp"
 #include "test_util.hpp"
 
@@ -95,6 +96,29 @@ TEST(ChainTeleportCli, SaysWhenTheTeleportClassHoldsNoMass) {
   EXPECT_GT(quiet["teleport_mass_bound_log10"].get<double>(), -6.0);
   EXPECT_FALSE(quiet.contains("teleport_note"));
   EXPECT_EQ(ok.err.find("note: teleports"), std::string::npos) << ok.err;
+}
+
+// Under --cover-limit the default greedy start climbs inside the class (each node takes the best
+// set that keeps the graph in D_k'), so a chain on a dense table starts and stays in D_1; the
+// unrestricted ascent would leave it and be refused.
+TEST(ChainTeleportCli, GreedyStartStaysInsideTheCoverLimit) {
+  testing_util::TempDir dir;
+  write_scores_tsv(testing_util::dense_full_table(6, 31), dir.file("dense.tsv"));
+  const auto r = run_covey("chain " + dir.file("dense.tsv") + " -o " + dir.file("run.h5") +
+                           " --chains 2 --steps 2000 --thin 10 --cover-limit 1 --seed 5");
+  ASSERT_EQ(r.exit_code, 0) << r.err;
+  const RunFeatures features(ChainRun::open(dir.file("run.h5")));
+  std::vector<double> inside(std::size_t(features.chains()) * features.iterations());
+  features.in_cover_class(1, inside);
+  for (double x : inside) ASSERT_EQ(x, 1.0);
+  // Not the empty graph: the greedy ascent took edges (D_1 holds stars).
+  std::vector<double> edges_first(std::size_t(features.chains()) * features.iterations());
+  std::size_t edges = 0;
+  for (const auto& [from, to] : features.edges_seen()) {
+    features.edge(from, to, edges_first);
+    edges += edges_first[0] > 0 ? 1 : 0;
+  }
+  EXPECT_GT(edges, 0u);
 }
 
 }  // namespace
