@@ -204,7 +204,7 @@ class Runner {
         if (!slot->chain.empty_graph_allowed())
           throw OptionError(
               "{start} empty: the score table does not allow the empty graph "
-              "(required edges?); use --start exact or --start FILE");
+              "(required edges?); use {start} exact or {start} FILE");
       } else if (o_.start == "greedy") {
         // From the chain's own stream: every chain climbs from its own random node order.
         slot->chain.set_parents(greedy_start(table_, slot->rng, config_.restriction),
