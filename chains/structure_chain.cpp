@@ -26,6 +26,71 @@ std::uint64_t probability_threshold(double p) {
   return static_cast<std::uint64_t>(std::ldexp(p, 64));
 }
 
+// Ancestor rows (docs/chains.md, "Ancestor sets"): W words a row when W > 0, known at compile
+// time so that a row is built in registers and written once (a row written word by word and then
+// read as wider vectors stalls store forwarding); W = 0 reads the word count `words` at run time.
+template <int W>
+int row_words(int words) {
+  return W > 0 ? W : words;
+}
+
+// row = the union over the parents p of a node (local mask `parents` over its candidates `cands`)
+// of {p} and p's ancestor row.
+template <int W>
+void set_row_from_parents(std::uint64_t* row, const std::uint64_t* anc, int words,
+                          const std::int32_t* cands, ParentMask parents) {
+  if constexpr (W == 0) {
+    std::fill(row, row + words, 0);
+    for (ParentMask m = parents; m; m &= m - 1) {
+      const int p = cands[std::countr_zero(m)];
+      const std::uint64_t* ap = anc + std::size_t(p) * words;
+      for (int k = 0; k < words; ++k) row[k] |= ap[k];
+      row[p >> 6] |= std::uint64_t{1} << (p & 63);
+    }
+  } else {
+    std::uint64_t acc[W] = {};
+    for (ParentMask m = parents; m; m &= m - 1) {
+      const int p = cands[std::countr_zero(m)];
+      const std::uint64_t* ap = anc + std::size_t(p) * W;
+      for (int k = 0; k < W; ++k)
+        acc[k] |= ap[k] | (k == (p >> 6) ? std::uint64_t{1} << (p & 63) : 0);
+    }
+    for (int k = 0; k < W; ++k) row[k] = acc[k];
+  }
+}
+
+// row |= add (one row of W words, or `words` when W = 0).
+template <int W>
+void or_row(std::uint64_t* row, const std::uint64_t* add, int words) {
+  for (int k = 0; k < row_words<W>(words); ++k) row[k] |= add[k];
+}
+
+// Whether every bit of `sub` is in `row`.
+template <int W>
+bool row_contains(const std::uint64_t* row, const std::uint64_t* sub, int words) {
+  std::uint64_t missing = 0;
+  for (int k = 0; k < row_words<W>(words); ++k) missing |= sub[k] & ~row[k];
+  return missing == 0;
+}
+
+// Calls f.template operator()<W>() with W the compile-time word count for 1 to 4 words (up to
+// 256 variables), 0 beyond.
+template <class F>
+decltype(auto) with_row_words(int words, F&& f) {
+  switch (words) {
+    case 1:
+      return f.template operator()<1>();
+    case 2:
+      return f.template operator()<2>();
+    case 3:
+      return f.template operator()<3>();
+    case 4:
+      return f.template operator()<4>();
+    default:
+      return f.template operator()<0>();
+  }
+}
+
 }  // namespace
 
 const char* move_name(Move move) {
@@ -254,14 +319,21 @@ void StructureChain::rebuild_ancestors() {
   });
 }
 
-int StructureChain::mark_descendants(int root, bool include_root) {
+int StructureChain::list_descendants(int root, bool include_root) {
+  // Branch-free: whether w is listed is a coin flip to the branch predictor.
+  const std::uint64_t* word = anc_.data() + (root >> 6);
+  const int shift = root & 63;
   int count = 0;
-  for (int w = 0; w < n_; ++w) {
-    if ((w == root && include_root) || test(anc(w), root)) {
-      mark_[w] = 1;
-      list_[count++] = w;
-    }
+  for (int w = 0; w < n_; ++w, word += words_) {
+    list_[count] = w;
+    count += int((*word >> shift) & 1U) | int(include_root && w == root);
   }
+  return count;
+}
+
+int StructureChain::mark_descendants(int root, bool include_root) {
+  const int count = list_descendants(root, include_root);
+  for (int i = 0; i < count; ++i) mark_[list_[i]] = 1;
   return count;
 }
 
@@ -269,26 +341,32 @@ void StructureChain::recompute_ancestors_below(int root) {
   // Only root and its descendants can have ancestor sets that depend on root's parents; their
   // ancestor sets are rebuilt parents-first, the others are unchanged.
   const int count = mark_descendants(root, true);
-  visit_marked_parents_first(count, [&](int x) {
-    std::uint64_t* a = anc(x);
-    std::fill(a, a + words_, 0);
-    for (ParentMask m = local_[x]; m; m &= m - 1) {
-      const int p = candidate(x, std::countr_zero(m));
-      a[p >> 6] |= std::uint64_t{1} << (p & 63);
-      const std::uint64_t* ap = anc(p);
-      for (int w = 0; w < words_; ++w) a[w] |= ap[w];
-    }
+  with_row_words(words_, [&]<int W>() {
+    visit_marked_parents_first(count, [&](int x) {
+      set_row_from_parents<W>(anc(x), anc_.data(), words_, &cand_[std::size_t(x) * kMaxCandidates],
+                              local_[x]);
+    });
+  });
+}
+
+void StructureChain::add_ancestors_below(int u, int v) {
+  // v's new ancestors are u and anc(u), and so are those of every descendant of v. When v had
+  // them all already (u was an ancestor of v), no ancestor set changes.
+  std::uint64_t* au = bits_d_.data();
+  std::copy(anc(u), anc(u) + words_, au);
+  au[u >> 6] |= std::uint64_t{1} << (u & 63);
+  with_row_words(words_, [&]<int W>() {
+    if (row_contains<W>(anc(v), au, words_)) return;
+    const int count = list_descendants(v, true);
+    for (int i = 0; i < count; ++i) or_row<W>(anc(list_[i]), au, words_);
   });
 }
 
 bool StructureChain::ancestors_of_parents_equal(int v) {
-  std::fill(bits_d_.begin(), bits_d_.end(), 0);
-  for (ParentMask m = local_[v]; m; m &= m - 1) {
-    const int p = candidate(v, std::countr_zero(m));
-    bits_d_[p >> 6] |= std::uint64_t{1} << (p & 63);
-    const std::uint64_t* ap = anc(p);
-    for (int w = 0; w < words_; ++w) bits_d_[w] |= ap[w];
-  }
+  with_row_words(words_, [&]<int W>() {
+    set_row_from_parents<W>(bits_d_.data(), anc_.data(), words_,
+                            &cand_[std::size_t(v) * kMaxCandidates], local_[v]);
+  });
   return std::equal(bits_d_.begin(), bits_d_.end(), anc(v));
 }
 
@@ -444,14 +522,7 @@ void StructureChain::propose_add(Rng& rng, int u, int v, ParentMask bit, bool bo
   local_[v] = next;
   score_[v] = s;
   ++num_edges_;
-  // New ancestors of v and of every descendant of v: u and u's ancestors.
-  const std::uint64_t* au = anc(u);
-  for (int w = 0; w < n_; ++w) {
-    if (w != v && !test(anc(w), v)) continue;
-    std::uint64_t* aw = anc(w);
-    for (int k = 0; k < words_; ++k) aw[k] |= au[k];
-    aw[u >> 6] |= std::uint64_t{1} << (u & 63);
-  }
+  add_ancestors_below(u, v);
 }
 
 void StructureChain::propose_delete(Rng& rng, int u, int v, ParentMask bit, bool bounded) {

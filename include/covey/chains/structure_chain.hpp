@@ -219,6 +219,10 @@ class StructureChain {
   void visit_marked_parents_first(int count, Visit&& visit);
   // Marks root and its descendants (per the ancestor sets); returns how many.
   int mark_descendants(int root, bool include_root);
+  // Lists them in list_ without marking; returns how many.
+  int list_descendants(int root, bool include_root);
+  // After adding the edge u -> v: u and anc(u) join the ancestor sets of v and its descendants.
+  void add_ancestors_below(int u, int v);
 
   std::uint64_t* anc(int v) { return &anc_[std::size_t(v) * words_]; }
   const std::uint64_t* anc(int v) const { return &anc_[std::size_t(v) * words_]; }
