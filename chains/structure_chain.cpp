@@ -340,6 +340,7 @@ int StructureChain::mark_descendants(int root, bool include_root) {
 void StructureChain::recompute_ancestors_below(int root) {
   // Only root and its descendants can have ancestor sets that depend on root's parents; their
   // ancestor sets are rebuilt parents-first, the others are unchanged.
+  if (words_ == 1 && track_dag_) return rebuild_rows_one_word(root);
   const int count = mark_descendants(root, true);
   with_row_words(words_, [&]<int W>() {
     visit_marked_parents_first(count, [&](int x) {
@@ -347,6 +348,40 @@ void StructureChain::recompute_ancestors_below(int root) {
                               local_[x]);
     });
   });
+}
+
+void StructureChain::rebuild_rows_one_word(int root) {
+  // n <= 64: the rows to rebuild and the nodes on the depth-first stack as masks, and the parents
+  // from the DAG's global masks (dag_, kept in step), so the parents-first order needs no marks
+  // and no branch per parent.
+  std::uint64_t pending = std::uint64_t{1} << root;
+  for (int w = 0; w < n_; ++w) pending |= ((anc_[w] >> root) & 1U) << w;
+  std::uint64_t on_stack = 0;
+  int stack[kMaxExactVariables];
+  int top = 0;
+  while (pending) {
+    if (top == 0) {
+      stack[top++] = std::countr_zero(pending);
+      on_stack = std::uint64_t{1} << stack[0];
+    }
+    const int x = stack[top - 1];
+    const std::uint64_t parents = dag_.parents[x];
+    if (const std::uint64_t waiting = parents & pending & ~on_stack) {
+      const int p = std::countr_zero(waiting);
+      stack[top++] = p;
+      on_stack |= std::uint64_t{1} << p;
+      continue;
+    }
+    std::uint64_t row = 0;
+    for (std::uint64_t m = parents; m; m &= m - 1) {
+      const int p = std::countr_zero(m);
+      row |= anc_[p] | (std::uint64_t{1} << p);
+    }
+    anc_[x] = row;
+    pending &= ~(std::uint64_t{1} << x);
+    on_stack &= ~(std::uint64_t{1} << x);
+    --top;
+  }
 }
 
 void StructureChain::add_ancestors_below(int u, int v) {

@@ -223,6 +223,8 @@ class StructureChain {
   int list_descendants(int root, bool include_root);
   // After adding the edge u -> v: u and anc(u) join the ancestor sets of v and its descendants.
   void add_ancestors_below(int u, int v);
+  // recompute_ancestors_below for one word a row (n <= 64).
+  void rebuild_rows_one_word(int root);
 
   std::uint64_t* anc(int v) { return &anc_[std::size_t(v) * words_]; }
   const std::uint64_t* anc(int v) const { return &anc_[std::size_t(v) * words_]; }
