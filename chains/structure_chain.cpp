@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <bit>
 #include <cmath>
+#include <cstring>
 #include <limits>
 #include <numbers>
 
@@ -34,6 +35,9 @@ int row_words(int words) {
   return W > 0 ? W : words;
 }
 
+// Two words of a row (GCC and Clang vector extension).
+using Word2 = std::uint64_t __attribute__((vector_size(16)));
+
 // row = the union over the parents p of a node (local mask `parents` over its candidates `cands`)
 // of {p} and p's ancestor row.
 template <int W>
@@ -47,15 +51,39 @@ void set_row_from_parents(std::uint64_t* row, const std::uint64_t* anc, int word
       for (int k = 0; k < words; ++k) row[k] |= ap[k];
       row[p >> 6] |= std::uint64_t{1} << (p & 63);
     }
+  } else if constexpr (W == 1) {
+    std::uint64_t acc = 0;
+    for (ParentMask m = parents; m; m &= m - 1) {
+      const int p = cands[std::countr_zero(m)];
+      acc |= anc[p] | (std::uint64_t{1} << p);
+    }
+    row[0] = acc;
   } else {
-    std::uint64_t acc[W] = {};
+    // Pairs of words as vectors, loaded and stored whole (rows stored as words and read back
+    // as vectors stall store forwarding); p's own bit is selected by a compare, not a branch.
+    constexpr int kPairs = (W + 1) / 2;
+    Word2 acc[kPairs] = {};
     for (ParentMask m = parents; m; m &= m - 1) {
       const int p = cands[std::countr_zero(m)];
       const std::uint64_t* ap = anc + std::size_t(p) * W;
-      for (int k = 0; k < W; ++k)
-        acc[k] |= ap[k] | (k == (p >> 6) ? std::uint64_t{1} << (p & 63) : 0);
+      const Word2 own = Word2{} + (std::uint64_t{1} << (p & 63));
+      const Word2 word = Word2{} + std::uint64_t(p >> 6);
+      for (int k = 0; k < kPairs; ++k) {
+        const Word2 index = Word2{std::uint64_t(2 * k), std::uint64_t(2 * k + 1)};
+        Word2 bits;
+        if (2 * k + 1 < W)
+          std::memcpy(&bits, ap + 2 * k, sizeof bits);
+        else
+          bits = Word2{ap[2 * k], 0};
+        acc[k] |= bits | (own & Word2(index == word));
+      }
     }
-    for (int k = 0; k < W; ++k) row[k] = acc[k];
+    for (int k = 0; k < kPairs; ++k) {
+      if (2 * k + 1 < W)
+        std::memcpy(row + 2 * k, &acc[k], sizeof acc[k]);
+      else
+        row[2 * k] = acc[k][0];
+    }
   }
 }
 
