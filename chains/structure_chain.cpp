@@ -202,6 +202,7 @@ StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& confi
                         static_cast<std::int8_t>(table.candidate_position(u, v))});
     }
   }
+  if (screen_) toggle_base_.assign(n_, ToggleBase{});
   local_.assign(n_, 0);
   score_.assign(n_, 0);
   anc_.assign(std::size_t(n_) * words_, 0);
@@ -536,13 +537,14 @@ void StructureChain::local_move_on_slot(Rng& rng, std::uint64_t pick, bool bound
 
 // Metropolis-Hastings decision for new parent sets of one or two nodes, with log Hastings factor
 // `log_hastings`; fills in their exact scores. A set not in the table is a rejection without a
-// draw. With the screening scores, most rejections are decided on floats (move_kernels.hpp).
+// draw. With the screening scores, most rejections are decided on their quantised levels
+// (move_kernels.hpp).
 template <std::size_t N>
 bool StructureChain::accept_change(Rng& rng, NodeChange (&change)[N], double log_hastings) {
   const auto exact_ratio = [&] {
     double log_ratio = log_hastings;
     for (NodeChange& c : change) {
-      if (screen_) c.score = screen_->exact(c.v, c.next);
+      if (screen_) c.score = screen_->exact_at(c.at);
       log_ratio += c.score - score_[c.v];
     }
     return log_ratio;
@@ -556,10 +558,13 @@ bool StructureChain::accept_change(Rng& rng, NodeChange (&change)[N], double log
     return accept(rng, exact_ratio());
   }
   double screened = log_hastings, margin = 0;
-  for (const NodeChange& c : change) {
-    const float next = screen_->value(c.v, c.next);
-    if (next == -INFINITY) return false;
-    screened += double(next) - double(screen_->value(c.v, local_[c.v]));
+  for (NodeChange& c : change) {
+    ToggleBase& base = toggle_base_[c.v];
+    if (base.set != local_[c.v]) screen_->toggle_base(c.v, local_[c.v], base);
+    c.at = screen_->toggled_position(base, c.next ^ local_[c.v]);
+    double term;
+    if (!screen_->screened_term(c.v, c.at, score_[c.v], term)) return false;
+    screened += term;
     margin += screen_->margin(c.v);
   }
   return screened_accept(rng, screened, margin, exact_ratio);

@@ -239,13 +239,20 @@ TEST(StructureChain, AncestorSetsOfLocalMovesMatchRecomputation) {
   }
 }
 
-// The float screen of the local moves (chains/move_kernels.hpp) decides exactly as the double
-// scores do and from the same draws: a chain with it and one without (the test-only switch) stay
-// in the same state, with the same move counts, along 3e5 steps of local moves and REV, on a
-// table with the usual shape and on one whose scores are large (BDeu-like magnitudes, where float
-// rounding is largest).
+// The screen of the local moves (chains/move_kernels.hpp) decides exactly as the double scores
+// do and from the same draws: a chain with it and one without (the test-only switch) stay in the
+// same state, with the same move counts, along 3e5 steps of local moves and REV, on a table with
+// the usual shape, on one whose scores are large (BDeu-like magnitudes, where the roundings of the
+// exact ratio are largest), on one with sets missing from the table and on one with a score
+// range of 5000 (levels 0.15 apart, where a too small margin shows).
 TEST(StructureChain, ScreenedLocalMovesFollowTheExactChain) {
-  for (const double offset : {0.0, -25000.0}) {
+  struct Variant {
+    double offset;
+    bool sparse;  // every third set of two or three parents left out of the table
+    bool wide;    // one set per node 5000 below the others: coarse levels, a wide margin
+  };
+  for (const Variant variant : {Variant{0.0, false, false}, Variant{-25000.0, false, false},
+                                Variant{0.0, true, false}, Variant{0.0, false, true}}) {
     const ScoreTable base = testing_util::random_full_table(9, 3, 11);
     std::vector<NodeScores> nodes(9);
     for (int v = 0; v < 9; ++v) {
@@ -253,8 +260,12 @@ TEST(StructureChain, ScreenedLocalMovesFollowTheExactChain) {
       nodes[v].candidates.assign(cands.begin(), cands.end());
       const auto masks = base.parent_sets(v);
       const auto scores = base.log_scores(v);
-      nodes[v].masks.assign(masks.begin(), masks.end());
-      for (double x : scores) nodes[v].log_scores.push_back(x + offset);
+      for (std::size_t k = 0; k < masks.size(); ++k) {
+        if (variant.sparse && std::popcount(masks[k]) >= 2 && k % 3 == 0) continue;
+        nodes[v].masks.push_back(masks[k]);
+        const bool sunk = variant.wide && k + 1 == masks.size();
+        nodes[v].log_scores.push_back(scores[k] + variant.offset - (sunk ? 5000.0 : 0.0));
+      }
     }
     const ScoreTable table(base.variables(), nodes);
     ChainConfig config;
