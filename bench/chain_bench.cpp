@@ -60,7 +60,7 @@ void run_chain(benchmark::State& state, int n, int num_candidates, double rev_ra
 // Issue 15 targets: local moves alone >= 25e6 / s at n = 30 and >= 8e6 / s at n = 200 with 20
 // candidates; with REV at the default rate 1/15, >= 2e6 / s at n = 30 (n = 200: for information,
 // against the local-move target). The *_Unscreened variants decide every local move on the exact
-// double scores (the float screen off): the "before" of the screen, measured in the same run.
+// double scores (the screen off): the "before" of the screen, measured in the same run.
 void BM_LocalMoves_n30_d3(benchmark::State& state) {
   run_chain(state, 30, 29, 0.0, 25e6);
 }

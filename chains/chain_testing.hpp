@@ -17,7 +17,7 @@ struct ChainFaults {
   // wrong distribution.
   unsigned drop_hastings = 0;
   BlockFault block = BlockFault::kNone;
-  // Local moves decided on the exact scores alone, without the float screen (which gives the
+  // Local moves decided on the exact scores alone, without the screen (which gives the
   // same trajectory; the tests and the benchmark compare the two). Not a fault of the target.
   bool exact_local_moves = false;
   // Rejection skipping with events that take a uniform local-move slot instead of one drawn by

@@ -75,45 +75,80 @@ class RevTables {
   std::vector<double> rescaled_[kSlots];
 };
 
-// Float copies of the log scores that screen local moves (docs/chains.md, "Screening local
-// moves"): per node, s_v(S) - max_v as float in a dense array indexed by the combinatorial rank of
-// S among the subsets of size <= d of v's candidates (-inf for sets not in the table), a sixth of
-// the table's bytes, so the lookups stay in cache; and the exact scores in the same layout, read
-// only for the proposals the screen lets through (no hash probe). A screened log ratio differs from
-// the exact one by at most margin(v) per node; a proposal is rejected on the float values only when
-// its uniform draw lies above exp(screened ratio + margins), where the exact ratio would reject
-// it too, and otherwise decided on the exact double scores as before. The chain's trajectory is
-// the same draw for draw.
+// Number of set bits, branch-free and without a library call (the build targets x86-64 without
+// a popcount instruction, where std::popcount calls libgcc).
+inline int count_bits(std::uint64_t x) {
+  x -= (x >> 1) & 0x5555555555555555ULL;
+  x = (x & 0x3333333333333333ULL) + ((x >> 2) & 0x3333333333333333ULL);
+  x = (x + (x >> 4)) & 0x0f0f0f0f0f0f0f0fULL;
+  return static_cast<int>((x * 0x0101010101010101ULL) >> 56);
+}
+
+// Where the sets one toggle away from a node's parent set S lie in the dense arrays of
+// ScreenScores (docs/chains.md, "Screening local moves"), by the number j of elements of S below
+// the toggled candidate b: S + {b} at add[j] + C(b, j + 1), S - {b} at remove[j]. One cache
+// line per node, refilled when the node's set changes, so that a proposal needs no rank loop.
+struct alignas(64) ToggleBase {
+  static constexpr std::uint32_t kNoAdd = ~std::uint32_t{0};  // add[0]: S has the largest size
+  ParentMask set = ~ParentMask{0};  // S (all ones: not filled; never a set of a dense table)
+  std::uint32_t add[7] = {};
+  std::uint32_t remove[6] = {};
+};
+
+// Quantised copies of the log scores that screen local moves (docs/chains.md, "Screening local
+// moves"): per node, s_v(S) - max_v as a 16-bit level (multiples of step_v = range_v / 32767) in
+// a dense array indexed by the combinatorial rank of S among the subsets of size <= d of v's
+// candidates (kMissing for sets not in the table), a twelfth of the table's bytes, so the lookups
+// stay in cache; and the exact scores in the same layout, read only for the proposals the screen
+// lets through (no hash probe). A screened log ratio (the proposed sets' levels against the
+// current sets' exact scores) differs from the exact one by at most margin(v) per node; a
+// proposal is rejected on the levels only when its uniform draw lies above exp(screened ratio +
+// margins), where the exact ratio would reject it too, and otherwise decided on the exact double
+// scores as before. The chain's trajectory is the same draw for draw.
 class ScreenScores {
  public:
   static constexpr int kMaxSize = 6;  // largest parent-set size with a dense layout
+  static constexpr std::size_t kNone = ~std::size_t{0};
 
   // Used only when every node's dense array is at most kMaxBlowup times its number of sets
   // (all sets of size <= d of its candidates, or most of them); usable() says whether it is.
   explicit ScreenScores(const ScoreTable& table);
   bool usable() const { return usable_; }
 
-  // s_v(S) - max_v as float; -inf when S is not in the table.
-  float value(int v, ParentMask local) const {
-    const std::size_t at = index(v, local);
-    return at == kNone ? -INFINITY : screen_[at];
-  }
-  // s_v(S) exactly (S in the table), from a dense double array read only for proposals that the
-  // screen lets through.
-  double exact(int v, ParentMask local) const { return exact_[index(v, local)]; }
   // s_v(S) exactly into `score` when S is in the table (one index computation for both).
   bool find_exact(int v, ParentMask local, double& score) const {
     const std::size_t at = index(v, local);
-    if (at == kNone || screen_[at] == -INFINITY) return false;
+    if (at == kNone || exact_[at] == -INFINITY) return false;
     score = exact_[at];
     return true;
   }
-  // Bound on |screened - exact| of one node's term s_v(S') - s_v(S) in a log ratio.
-  double margin(int v) const { return margin_[v]; }
+  // The screened term of a proposal that gives node v the set at position `at` (from
+  // toggled_position) instead of its current set, whose exact score is `current`:
+  // level(S') step_v - (current - max_v), within margin(v) of the exact s_v(S') - current.
+  // False when S' is not in the table.
+  bool screened_term(int v, std::size_t at, double current, double& term) const {
+    const std::int16_t level = at == kNone ? kMissing : screen_[at];
+    if (level == kMissing) return false;
+    const NodeScale& scale = scale_[v];
+    term = double(level) * scale.step - (current - scale.top);
+    return true;
+  }
+  double margin(int v) const { return scale_[v].margin; }
+
+  // The positions of the sets one toggle away from v's parent set `set` (in the table).
+  void toggle_base(int v, ParentMask set, ToggleBase& out) const;
+  // Position of S xor {b} (`toggled` = {b}) for S = base.set, or kNone when larger than any set.
+  std::size_t toggled_position(const ToggleBase& base, ParentMask toggled) const {
+    const int j = count_bits(base.set & (toggled - 1));
+    if (base.set & toggled) return base.remove[j];
+    if (base.add[0] == ToggleBase::kNoAdd) return kNone;
+    return base.add[j] + binomial_[std::countr_zero(toggled)][j + 1];
+  }
+  // s_v(S) exactly at a position of a set in the table.
+  double exact_at(std::size_t at) const { return exact_[at]; }
 
  private:
-  static constexpr std::size_t kMaxBlowup = 2;  // 12 bytes a slot: at most the table's bytes
-  static constexpr std::size_t kNone = ~std::size_t{0};
+  static constexpr std::size_t kMaxBlowup = 2;  // 10 bytes a slot: at most the table's bytes
   // Position of S in the dense arrays (combinatorial rank among v's subsets of its size), or
   // kNone when S is larger than any set of the table.
   std::size_t index(int v, ParentMask local) const {
@@ -129,9 +164,16 @@ class ScreenScores {
   int max_size_ = 0;
   std::uint64_t binomial_[kMaxCandidates + 1][kMaxSize + 1] = {};  // C(b, t)
   std::vector<std::size_t> offset_;  // per node and size s: start of the s-subsets' ranks
-  std::vector<float> screen_;        // s - max_v, -inf for sets not in the table
-  std::vector<double> exact_;        // s
-  std::vector<double> margin_;
+  static constexpr std::int16_t kMissing = -32768;  // level of a set not in the table
+  static constexpr int kLevels = 32767;             // levels 0 down to -kLevels
+  struct NodeScale {
+    double step = 1;    // s - max_v is about level * step
+    double top = 0;     // max_v
+    double margin = 0;  // bound on |screened term - exact term|
+  };
+  std::vector<std::int16_t> screen_;  // round((s - max_v) / step_v), kMissing when not in the table
+  std::vector<double> exact_;         // s
+  std::vector<NodeScale> scale_;
 };
 
 // Used by the moves in both chains/structure_chain.cpp and chains/rev_move.cpp.

@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <bit>
 #include <cmath>
+#include <cstring>
 #include <limits>
 #include <numbers>
 
@@ -24,6 +25,98 @@ std::uint64_t probability_threshold(double p) {
   if (p <= 0) return 0;
   if (p >= 1) return ~std::uint64_t{0};
   return static_cast<std::uint64_t>(std::ldexp(p, 64));
+}
+
+// Ancestor rows (docs/chains.md, "Ancestor sets"): W words a row when W > 0, known at compile
+// time so that a row is built in registers and written once (a row written word by word and then
+// read as wider vectors stalls store forwarding); W = 0 reads the word count `words` at run time.
+template <int W>
+int row_words(int words) {
+  return W > 0 ? W : words;
+}
+
+// Two words of a row (GCC and Clang vector extension).
+using Word2 = std::uint64_t __attribute__((vector_size(16)));
+
+// row = the union over the parents p of a node (local mask `parents` over its candidates `cands`)
+// of {p} and p's ancestor row.
+template <int W>
+void set_row_from_parents(std::uint64_t* row, const std::uint64_t* anc, int words,
+                          const std::int32_t* cands, ParentMask parents) {
+  if constexpr (W == 0) {
+    std::fill(row, row + words, 0);
+    for (ParentMask m = parents; m; m &= m - 1) {
+      const int p = cands[std::countr_zero(m)];
+      const std::uint64_t* ap = anc + std::size_t(p) * words;
+      for (int k = 0; k < words; ++k) row[k] |= ap[k];
+      row[p >> 6] |= std::uint64_t{1} << (p & 63);
+    }
+  } else if constexpr (W == 1) {
+    std::uint64_t acc = 0;
+    for (ParentMask m = parents; m; m &= m - 1) {
+      const int p = cands[std::countr_zero(m)];
+      acc |= anc[p] | (std::uint64_t{1} << p);
+    }
+    row[0] = acc;
+  } else {
+    // Pairs of words as vectors, loaded and stored whole (rows stored as words and read back
+    // as vectors stall store forwarding); p's own bit is selected by a compare, not a branch.
+    constexpr int kPairs = (W + 1) / 2;
+    Word2 acc[kPairs] = {};
+    for (ParentMask m = parents; m; m &= m - 1) {
+      const int p = cands[std::countr_zero(m)];
+      const std::uint64_t* ap = anc + std::size_t(p) * W;
+      const Word2 own = Word2{} + (std::uint64_t{1} << (p & 63));
+      const Word2 word = Word2{} + std::uint64_t(p >> 6);
+      for (int k = 0; k < kPairs; ++k) {
+        const Word2 index = Word2{std::uint64_t(2 * k), std::uint64_t(2 * k + 1)};
+        Word2 bits;
+        if (2 * k + 1 < W)
+          std::memcpy(&bits, ap + 2 * k, sizeof bits);
+        else
+          bits = Word2{ap[2 * k], 0};
+        acc[k] |= bits | (own & Word2(index == word));
+      }
+    }
+    for (int k = 0; k < kPairs; ++k) {
+      if (2 * k + 1 < W)
+        std::memcpy(row + 2 * k, &acc[k], sizeof acc[k]);
+      else
+        row[2 * k] = acc[k][0];
+    }
+  }
+}
+
+// row |= add (one row of W words, or `words` when W = 0).
+template <int W>
+void or_row(std::uint64_t* row, const std::uint64_t* add, int words) {
+  for (int k = 0; k < row_words<W>(words); ++k) row[k] |= add[k];
+}
+
+// Whether every bit of `sub` is in `row`.
+template <int W>
+bool row_contains(const std::uint64_t* row, const std::uint64_t* sub, int words) {
+  std::uint64_t missing = 0;
+  for (int k = 0; k < row_words<W>(words); ++k) missing |= sub[k] & ~row[k];
+  return missing == 0;
+}
+
+// Calls f.template operator()<W>() with W the compile-time word count for 1 to 4 words (up to
+// 256 variables), 0 beyond.
+template <class F>
+decltype(auto) with_row_words(int words, F&& f) {
+  switch (words) {
+    case 1:
+      return f.template operator()<1>();
+    case 2:
+      return f.template operator()<2>();
+    case 3:
+      return f.template operator()<3>();
+    case 4:
+      return f.template operator()<4>();
+    default:
+      return f.template operator()<0>();
+  }
 }
 
 }  // namespace
@@ -108,6 +201,7 @@ StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& confi
                         static_cast<std::int8_t>(table.candidate_position(u, v))});
     }
   }
+  if (screen_) toggle_base_.assign(n_, ToggleBase{});
   local_.assign(n_, 0);
   score_.assign(n_, 0);
   anc_.assign(std::size_t(n_) * words_, 0);
@@ -252,41 +346,89 @@ void StructureChain::rebuild_ancestors() {
   });
 }
 
-int StructureChain::mark_descendants(int root, bool include_root) {
+int StructureChain::list_descendants(int root, bool include_root) {
+  // Branch-free: whether w is listed is a coin flip to the branch predictor.
+  const std::uint64_t* word = anc_.data() + (root >> 6);
+  const int shift = root & 63;
   int count = 0;
-  for (int w = 0; w < n_; ++w) {
-    if ((w == root && include_root) || test(anc(w), root)) {
-      mark_[w] = 1;
-      list_[count++] = w;
-    }
+  for (int w = 0; w < n_; ++w, word += words_) {
+    list_[count] = w;
+    count += int((*word >> shift) & 1U) | int(include_root && w == root);
   }
+  return count;
+}
+
+int StructureChain::mark_descendants(int root, bool include_root) {
+  const int count = list_descendants(root, include_root);
+  for (int i = 0; i < count; ++i) mark_[list_[i]] = 1;
   return count;
 }
 
 void StructureChain::recompute_ancestors_below(int root) {
   // Only root and its descendants can have ancestor sets that depend on root's parents; their
   // ancestor sets are rebuilt parents-first, the others are unchanged.
+  if (words_ == 1 && track_dag_) return rebuild_rows_one_word(root);
   const int count = mark_descendants(root, true);
-  visit_marked_parents_first(count, [&](int x) {
-    std::uint64_t* a = anc(x);
-    std::fill(a, a + words_, 0);
-    for (ParentMask m = local_[x]; m; m &= m - 1) {
-      const int p = candidate(x, std::countr_zero(m));
-      a[p >> 6] |= std::uint64_t{1} << (p & 63);
-      const std::uint64_t* ap = anc(p);
-      for (int w = 0; w < words_; ++w) a[w] |= ap[w];
+  with_row_words(words_, [&]<int W>() {
+    visit_marked_parents_first(count, [&](int x) {
+      set_row_from_parents<W>(anc(x), anc_.data(), words_, &cand_[std::size_t(x) * kMaxCandidates],
+                              local_[x]);
+    });
+  });
+}
+
+void StructureChain::rebuild_rows_one_word(int root) {
+  // n <= 64: the rows to rebuild and the nodes on the depth-first stack as masks, and the parents
+  // from the DAG's global masks (dag_, kept in step), so the parents-first order needs no marks
+  // and no branch per parent.
+  std::uint64_t pending = std::uint64_t{1} << root;
+  for (int w = 0; w < n_; ++w) pending |= ((anc_[w] >> root) & 1U) << w;
+  std::uint64_t on_stack = 0;
+  int stack[kMaxExactVariables];
+  int top = 0;
+  while (pending) {
+    if (top == 0) {
+      stack[top++] = std::countr_zero(pending);
+      on_stack = std::uint64_t{1} << stack[0];
     }
+    const int x = stack[top - 1];
+    const std::uint64_t parents = dag_.parents[x];
+    if (const std::uint64_t waiting = parents & pending & ~on_stack) {
+      const int p = std::countr_zero(waiting);
+      stack[top++] = p;
+      on_stack |= std::uint64_t{1} << p;
+      continue;
+    }
+    std::uint64_t row = 0;
+    for (std::uint64_t m = parents; m; m &= m - 1) {
+      const int p = std::countr_zero(m);
+      row |= anc_[p] | (std::uint64_t{1} << p);
+    }
+    anc_[x] = row;
+    pending &= ~(std::uint64_t{1} << x);
+    on_stack &= ~(std::uint64_t{1} << x);
+    --top;
+  }
+}
+
+void StructureChain::add_ancestors_below(int u, int v) {
+  // v's new ancestors are u and anc(u), and so are those of every descendant of v. When v had
+  // them all already (u was an ancestor of v), no ancestor set changes.
+  std::uint64_t* au = bits_d_.data();
+  std::copy(anc(u), anc(u) + words_, au);
+  au[u >> 6] |= std::uint64_t{1} << (u & 63);
+  with_row_words(words_, [&]<int W>() {
+    if (row_contains<W>(anc(v), au, words_)) return;
+    const int count = list_descendants(v, true);
+    for (int i = 0; i < count; ++i) or_row<W>(anc(list_[i]), au, words_);
   });
 }
 
 bool StructureChain::ancestors_of_parents_equal(int v) {
-  std::fill(bits_d_.begin(), bits_d_.end(), 0);
-  for (ParentMask m = local_[v]; m; m &= m - 1) {
-    const int p = candidate(v, std::countr_zero(m));
-    bits_d_[p >> 6] |= std::uint64_t{1} << (p & 63);
-    const std::uint64_t* ap = anc(p);
-    for (int w = 0; w < words_; ++w) bits_d_[w] |= ap[w];
-  }
+  with_row_words(words_, [&]<int W>() {
+    set_row_from_parents<W>(bits_d_.data(), anc_.data(), words_,
+                            &cand_[std::size_t(v) * kMaxCandidates], local_[v]);
+  });
   return std::equal(bits_d_.begin(), bits_d_.end(), anc(v));
 }
 
@@ -394,13 +536,14 @@ void StructureChain::local_move_on_slot(Rng& rng, std::uint64_t pick, bool bound
 
 // Metropolis-Hastings decision for new parent sets of one or two nodes, with log Hastings factor
 // `log_hastings`; fills in their exact scores. A set not in the table is a rejection without a
-// draw. With the screening scores, most rejections are decided on floats (move_kernels.hpp).
+// draw. With the screening scores, most rejections are decided on their quantised levels
+// (move_kernels.hpp).
 template <std::size_t N>
 bool StructureChain::accept_change(Rng& rng, NodeChange (&change)[N], double log_hastings) {
   const auto exact_ratio = [&] {
     double log_ratio = log_hastings;
     for (NodeChange& c : change) {
-      if (screen_) c.score = screen_->exact(c.v, c.next);
+      if (screen_) c.score = screen_->exact_at(c.at);
       log_ratio += c.score - score_[c.v];
     }
     return log_ratio;
@@ -414,10 +557,13 @@ bool StructureChain::accept_change(Rng& rng, NodeChange (&change)[N], double log
     return accept(rng, exact_ratio());
   }
   double screened = log_hastings, margin = 0;
-  for (const NodeChange& c : change) {
-    const float next = screen_->value(c.v, c.next);
-    if (next == -INFINITY) return false;
-    screened += double(next) - double(screen_->value(c.v, local_[c.v]));
+  for (NodeChange& c : change) {
+    ToggleBase& base = toggle_base_[c.v];
+    if (base.set != local_[c.v]) screen_->toggle_base(c.v, local_[c.v], base);
+    c.at = screen_->toggled_position(base, c.next ^ local_[c.v]);
+    double term;
+    if (!screen_->screened_term(c.v, c.at, score_[c.v], term)) return false;
+    screened += term;
     margin += screen_->margin(c.v);
   }
   return screened_accept(rng, screened, margin, exact_ratio);
@@ -443,14 +589,7 @@ void StructureChain::propose_add(Rng& rng, int u, int v, ParentMask bit, bool bo
   local_[v] = next;
   score_[v] = s;
   ++num_edges_;
-  // New ancestors of v and of every descendant of v: u and u's ancestors.
-  const std::uint64_t* au = anc(u);
-  for (int w = 0; w < n_; ++w) {
-    if (w != v && !test(anc(w), v)) continue;
-    std::uint64_t* aw = anc(w);
-    for (int k = 0; k < words_; ++k) aw[k] |= au[k];
-    aw[u >> 6] |= std::uint64_t{1} << (u & 63);
-  }
+  add_ancestors_below(u, v);
 }
 
 void StructureChain::propose_delete(Rng& rng, int u, int v, ParentMask bit, bool bounded) {

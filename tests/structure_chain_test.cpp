@@ -177,16 +177,17 @@ std::string describe(const Comparison& c) {
 
 constexpr std::uint64_t kSteps = 1'000'000;
 
-TEST(StructureChain, InvariantsAlongLongRunWithManyWords) {
-  // 70 variables (two bitset words per node), 8 candidate parents each, in-degree <= 3.
+// n variables with 8 random candidate parents each, in-degree <= 3, scores that favour edges
+// mildly (dense enough for long ancestor chains).
+ScoreTable eight_candidate_table(int n) {
   std::vector<Variable> vars;
-  for (int v = 0; v < 70; ++v)
+  for (int v = 0; v < n; ++v)
     vars.push_back({"V" + std::to_string(v), VariableKind::kDiscrete, {}});
-  std::vector<NodeScores> nodes(70);
+  std::vector<NodeScores> nodes(n);
   Rng rng = make_stream(5, 0);
-  for (int v = 0; v < 70; ++v) {
+  for (int v = 0; v < n; ++v) {
     while (nodes[v].candidates.size() < 8) {
-      const int u = static_cast<int>(uniform_below(rng, 70));
+      const int u = static_cast<int>(uniform_below(rng, n));
       if (u != v && std::find(nodes[v].candidates.begin(), nodes[v].candidates.end(), u) ==
                         nodes[v].candidates.end())
         nodes[v].candidates.push_back(u);
@@ -197,7 +198,12 @@ TEST(StructureChain, InvariantsAlongLongRunWithManyWords) {
         nodes[v].log_scores.push_back(uniform01(rng) * 2 - 0.3 * std::popcount(m));
       }
   }
-  const ScoreTable table(std::move(vars), std::move(nodes));
+  return ScoreTable(std::move(vars), std::move(nodes));
+}
+
+TEST(StructureChain, InvariantsAlongLongRunWithManyWords) {
+  // 70 variables: two bitset words per node.
+  const ScoreTable table = eight_candidate_table(70);
   ChainConfig config;
   config.rev_rate = 0.2;
   StructureChain chain(table, config);
@@ -213,13 +219,40 @@ TEST(StructureChain, InvariantsAlongLongRunWithManyWords) {
   EXPECT_GT(c.accepted[int(Move::kDelete)], 0u);
 }
 
-// The float screen of the local moves (chains/move_kernels.hpp) decides exactly as the double
-// scores do and from the same draws: a chain with it and one without (the test-only switch) stay
-// in the same state, with the same move counts, along 3e5 steps of local moves and REV, on a
-// table with the usual shape and on one whose scores are large (BDeu-like magnitudes, where float
-// rounding is largest).
+// The ancestor sets kept by local moves alone (adds that skip the update when v already had
+// u's ancestors, deletions that skip it when u stays an ancestor, rows built per word count)
+// equal the ones recomputed from scratch, at every word count the chain specialises (1 to 4
+// words of 64 variables) and beyond it (5 words), checked every n steps.
+TEST(StructureChain, AncestorSetsOfLocalMovesMatchRecomputation) {
+  for (const int n : {30, 100, 150, 200, 300}) {
+    const ScoreTable table = eight_candidate_table(n);
+    StructureChain chain(table, ChainConfig{});
+    Rng rng = make_stream(11, static_cast<std::uint64_t>(n));
+    for (int round = 0; round < 300; ++round) {
+      for (int s = 0; s < n; ++s) chain.step(rng);
+      ASSERT_TRUE(chain.check_invariants()) << "n " << n << ", after " << (round + 1) * n;
+    }
+    EXPECT_GT(chain.num_edges(), std::uint64_t(n) / 2) << "n " << n;
+    const auto& c = chain.counts();
+    EXPECT_GT(c.accepted[int(Move::kReverse)], 20u) << "n " << n;
+    EXPECT_GT(c.accepted[int(Move::kDelete)], 100u) << "n " << n;
+  }
+}
+
+// The screen of the local moves (chains/move_kernels.hpp) decides exactly as the double scores
+// do and from the same draws: a chain with it and one without (the test-only switch) stay in the
+// same state, with the same move counts, along 3e5 steps of local moves and REV, on a table with
+// the usual shape, on one whose scores are large (BDeu-like magnitudes, where the roundings of the
+// exact ratio are largest), on one with sets missing from the table and on one with a score
+// range of 5000 (levels 0.15 apart, where a too small margin shows).
 TEST(StructureChain, ScreenedLocalMovesFollowTheExactChain) {
-  for (const double offset : {0.0, -25000.0}) {
+  struct Variant {
+    double offset;
+    bool sparse;  // every third set of two or three parents left out of the table
+    bool wide;    // one set per node 5000 below the others: coarse levels, a wide margin
+  };
+  for (const Variant variant : {Variant{0.0, false, false}, Variant{-25000.0, false, false},
+                                Variant{0.0, true, false}, Variant{0.0, false, true}}) {
     const ScoreTable base = testing_util::random_full_table(9, 3, 11);
     std::vector<NodeScores> nodes(9);
     for (int v = 0; v < 9; ++v) {
@@ -227,8 +260,12 @@ TEST(StructureChain, ScreenedLocalMovesFollowTheExactChain) {
       nodes[v].candidates.assign(cands.begin(), cands.end());
       const auto masks = base.parent_sets(v);
       const auto scores = base.log_scores(v);
-      nodes[v].masks.assign(masks.begin(), masks.end());
-      for (double x : scores) nodes[v].log_scores.push_back(x + offset);
+      for (std::size_t k = 0; k < masks.size(); ++k) {
+        if (variant.sparse && std::popcount(masks[k]) >= 2 && k % 3 == 0) continue;
+        nodes[v].masks.push_back(masks[k]);
+        const bool sunk = variant.wide && k + 1 == masks.size();
+        nodes[v].log_scores.push_back(scores[k] + variant.offset - (sunk ? 5000.0 : 0.0));
+      }
     }
     const ScoreTable table(base.variables(), nodes);
     ChainConfig config;

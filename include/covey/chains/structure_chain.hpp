@@ -103,6 +103,7 @@ class BlockMove;     // chains/block_move.hpp
 struct ChainFaults;  // chains/chain_testing.hpp (the tests' deliberate faults)
 class RevTables;     // chains/move_kernels.hpp
 class ScreenScores;  // chains/move_kernels.hpp
+struct ToggleBase;   // chains/move_kernels.hpp
 
 class StructureChain {
  public:
@@ -156,7 +157,8 @@ class StructureChain {
   bool has_edge(int from, int to) const;
   std::uint64_t num_edges() const { return num_edges_; }
 
-  // Whether local moves are screened on float scores (docs/chains.md, "Screening local moves").
+  // Whether local moves are screened on quantised scores (docs/chains.md, "Screening local
+  // moves").
   bool screens_local_moves() const { return screen_ != nullptr; }
 
   const MoveCounts& counts() const { return counts_; }
@@ -179,7 +181,8 @@ class StructureChain {
   struct NodeChange {
     int v;
     ParentMask next;
-    double score;  // s_v(next), set when accepted
+    double score = 0;    // s_v(next), set when accepted
+    std::size_t at = 0;  // with the screen: position of `next` in its dense arrays
   };
   template <std::size_t N>
   bool accept_change(Rng& rng, NodeChange (&change)[N], double log_hastings);
@@ -219,6 +222,12 @@ class StructureChain {
   void visit_marked_parents_first(int count, Visit&& visit);
   // Marks root and its descendants (per the ancestor sets); returns how many.
   int mark_descendants(int root, bool include_root);
+  // Lists them in list_ without marking; returns how many.
+  int list_descendants(int root, bool include_root);
+  // After adding the edge u -> v: u and anc(u) join the ancestor sets of v and its descendants.
+  void add_ancestors_below(int u, int v);
+  // recompute_ancestors_below for one word a row (n <= 64).
+  void rebuild_rows_one_word(int root);
 
   std::uint64_t* anc(int v) { return &anc_[std::size_t(v) * words_]; }
   const std::uint64_t* anc(int v) const { return &anc_[std::size_t(v) * words_]; }
@@ -236,7 +245,8 @@ class StructureChain {
   std::uint64_t block_threshold_ = 0;     // rng() below this (and above teleport's): block move
   std::unique_ptr<BlockMove> block_;      // the block move's tables and scratch, when enabled
   std::unique_ptr<RevTables> rev_;        // REV's weights, when rev_rate > 0
-  std::unique_ptr<ScreenScores> screen_;  // float scores screening local moves, when usable
+  std::unique_ptr<ScreenScores> screen_;  // scores screening local moves, when usable
+  std::vector<ToggleBase> toggle_base_;   // with screen_: per node, where its neighbours' sets lie
   bool mixed_kernels_ = false;
   std::vector<Pair> pairs_;
   std::vector<std::int32_t> cand_;  // n * 64 candidate variables
