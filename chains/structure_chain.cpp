@@ -392,7 +392,7 @@ void StructureChain::rebuild_rows_one_word(int root) {
       on_stack = std::uint64_t{1} << stack[0];
     }
     const int x = stack[top - 1];
-    const std::uint64_t parents = dag_.parents[x];
+    const std::uint64_t parents = dag_.parent_mask(x);
     if (const std::uint64_t waiting = parents & pending & ~on_stack) {
       const int p = std::countr_zero(waiting);
       stack[top++] = p;
