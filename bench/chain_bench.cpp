@@ -187,7 +187,7 @@ double process_cpu_seconds() {
 }
 
 // CPU seconds of run_chains on `table` (2 chains, `steps` each) keeping every `thin`-th state, or
-// none when keep is false (all steps are burn-in).
+// only the last one when keep is false (the rest is burn-in; a run must keep at least one draw).
 double run_chains_cpu(const covey::ScoreTable& table, std::uint64_t steps, std::uint64_t thin,
                       bool keep) {
   const std::string path = (std::filesystem::temp_directory_path() /
@@ -198,7 +198,7 @@ double run_chains_cpu(const covey::ScoreTable& table, std::uint64_t steps, std::
   o.chains = 2;
   o.thin = thin;
   o.steps = steps;
-  o.burn_in = keep ? 0 : steps;
+  o.burn_in = keep ? 0 : steps - thin;
   covey::ChainRunHooks hooks;
   hooks.progress = false;
   const double start = process_cpu_seconds();
