@@ -45,14 +45,16 @@ H5::StrType string_type() {
   return t;
 }
 
-// Chunked, compressed, checksummed property list for a dataset of `rank` dims.
-H5::DSetCreatPropList filtered_props(int rank, const hsize_t* chunk) {
+// Chunked, compressed, checksummed property list for a dataset of `rank` dims. Datasets that grow
+// while a run goes on (chain draws) use deflate level 1: it writes about 3 times faster than 4
+// for files a little larger, and a run keeping draws spends its extra time compressing them.
+H5::DSetCreatPropList filtered_props(int rank, const hsize_t* chunk, int deflate_level = 4) {
   H5::DSetCreatPropList props;
   props.setChunk(rank, chunk);
   // Fletcher32 last: the checksum covers the stored (compressed) bytes, so any damaged byte of a
   // chunk is reported as a checksum failure before decompression is attempted.
   props.setShuffle();
-  props.setDeflate(4);
+  props.setDeflate(deflate_level);
   props.setFletcher32();
   return props;
 }
@@ -99,7 +101,7 @@ void create_growing(H5::Group& group, const std::string& name, const H5::PredTyp
   const hsize_t maxdims[2] = {H5S_UNLIMITED, width};
   const hsize_t chunk[2] = {std::max<hsize_t>(chunk_rows, 1), std::max<hsize_t>(width, 1)};
   H5::DataSpace space(rank, dims, maxdims);
-  group.createDataSet(name, type, space, filtered_props(rank, chunk));
+  group.createDataSet(name, type, space, filtered_props(rank, chunk, 1));
 }
 
 template <class T>
