@@ -146,6 +146,8 @@ class ScreenScores {
   }
   // s_v(S) exactly at a position of a set in the table.
   double exact_at(std::size_t at) const { return exact_[at]; }
+  // Position of any set S of v (kNone when larger than any set of the table).
+  std::size_t position(int v, ParentMask local) const { return index(v, local); }
 
  private:
   static constexpr std::size_t kMaxBlowup = 2;  // 10 bytes a slot: at most the table's bytes

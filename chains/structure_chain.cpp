@@ -560,7 +560,11 @@ bool StructureChain::accept_change(Rng& rng, NodeChange (&change)[N], double log
   for (NodeChange& c : change) {
     ToggleBase& base = toggle_base_[c.v];
     if (base.set != local_[c.v]) screen_->toggle_base(c.v, local_[c.v], base);
-    c.at = screen_->toggled_position(base, c.next ^ local_[c.v]);
+    const ParentMask toggled = c.next ^ local_[c.v];
+    // One toggled parent in every proposal of an acyclic chain. A state with a 2-cycle (only the
+    // tests' deliberately broken block move makes one) can propose its own set: look it up.
+    c.at = std::has_single_bit(toggled) ? screen_->toggled_position(base, toggled)
+                                        : screen_->position(c.v, c.next);
     double term;
     if (!screen_->screened_term(c.v, c.at, score_[c.v], term)) return false;
     screened += term;
