@@ -24,6 +24,7 @@
 #include "covey/core/error.hpp"
 #include "covey/core/memory.hpp"
 #include "covey/core/version.hpp"
+#include "covey/graph/dag.hpp"
 
 namespace covey {
 namespace chain_file {
@@ -390,7 +391,7 @@ ChainRun ChainRun::open(const std::string& path) {
     run.variables_ = h5::read_strings(root, kVariables);
     const long long n = h5::get_attr_int(file, "num_variables");
     if (n != static_cast<long long>(run.variables_.size()) || n < 1 || run.num_chains_ < 1 ||
-        run.words_ != (n + 63) / 64)
+        run.words_ != Dag::words_for(n))
       throw InputError(path + ": inconsistent chain-run header");
     run.num_checkpoints_ = h5::num_rows(root, kCheckpoints);
     if (run.num_checkpoints_ == 0) throw InputError(path + ": the run has no checkpoint");

@@ -22,6 +22,7 @@
 #include "covey/core/random.hpp"
 #include "covey/core/version.hpp"
 #include "covey/data/edge_constraints.hpp"
+#include "covey/graph/dag.hpp"
 
 namespace covey {
 namespace {
@@ -173,7 +174,7 @@ class Runner {
     first_ = first_chain(rank_);
     local_ = first_chain(rank_ + 1) - first_;
     if (rank_ != 0 || !Progress::stderr_is_terminal()) hooks_.progress = false;
-    width_ = std::size_t(table.num_variables()) * ((table.num_variables() + 63) / 64);
+    width_ = std::size_t(table.num_variables()) * Dag::words_for(table.num_variables());
     config_.rev_rate = o_.rev_rate;
     config_.teleport_rate = o_.teleport_rate;
     config_.teleport = o_.teleport_rate > 0 ? hooks.teleport : nullptr;
@@ -228,7 +229,7 @@ class Runner {
     chain_file::Header header;
     header.variables = variable_names(table_.variables());
     header.fingerprint = table_.fingerprint();
-    header.words_per_node = (table_.num_variables() + 63) / 64;
+    header.words_per_node = Dag::words_for(table_.num_variables());
     header.num_chains = local_;
     for (int c = 0; c < local_; ++c) header.global_chains.push_back(first_ + c);
     if (ranks_ > 1) {
@@ -742,7 +743,7 @@ double parse_duration(const std::string& text, const std::string& option) {
 
 std::vector<std::uint64_t> read_start_dag(const std::string& path, const ScoreTable& table) {
   const int n = table.num_variables();
-  const int words = (n + 63) / 64;
+  const int words = Dag::words_for(n);
   std::vector<std::uint64_t> out(std::size_t(n) * words, 0);
   for (const Edge& e : read_edge_file(path, table.variables()))
     out[std::size_t(e.to) * words + (e.from >> 6)] |= std::uint64_t{1} << (e.from & 63);

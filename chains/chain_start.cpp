@@ -51,7 +51,6 @@ std::vector<std::uint64_t> greedy_start(const ScoreTable& table, Rng& rng,
           break;
         }
       }
-      if (!feasible) dag.clear_parents(v);
     }
     if (feasible) return dag.words();
   }

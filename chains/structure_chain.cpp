@@ -168,7 +168,7 @@ StructureChain::StructureChain(const ScoreTable& table, const ChainConfig& confi
       faults_(faults ? std::make_unique<const ChainFaults>(*faults) : nullptr),
       faulty_moves_(faults ? faults->drop_hastings : 0),
       n_(table.num_variables()),
-      words_((n_ + 63) / 64) {
+      words_(Dag::words_for(n_)) {
   if (config.rev_rate < 0 || config.teleport_rate < 0 || config.block_rate < 0 ||
       config.rev_rate + config.teleport_rate + config.block_rate > 1)
     throw OptionError(

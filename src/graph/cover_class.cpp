@@ -12,8 +12,9 @@ namespace covey {
 namespace {
 
 // The search below is written once over a vertex-set type: one 64-bit word for graphs of at most
-// 64 vertices (the chains' class tests run it on every proposal there) and a dynamic bitset for
-// larger graphs (the cover-bounded engines take any number of variables).
+// 64 vertices, fixed arrays of words up to 1024 (the chains' class tests run it on every accepted
+// proposal, so neither allocates), and a dynamic bitset beyond (the cover-bounded engines take
+// any number of variables).
 struct NarrowSets {
   using Set = std::uint64_t;
   int n;
@@ -75,20 +76,15 @@ struct FixedSets {
     for (int w = 0; w < W; ++w)
       for (std::uint64_t m = s[w]; m; m &= m - 1) f(64 * w + std::countr_zero(m));
   }
-  // Lexicographic order of the ascending member lists (a proper prefix is smaller): at the
-  // lowest vertex in exactly one of them, the list holding it is smaller unless the other list
-  // has ended before it.
+  // Lexicographic order of the ascending member lists (a proper prefix is smaller), as
+  // cover_list_less: at the lowest vertex t in exactly one of them, the list holding t is
+  // smaller unless the other list has no member above t (it ended before t).
   static bool list_less(const Set& a, const Set& b) {
-    for (int w = 0; w < W; ++w) {
-      const std::uint64_t diff = a[w] ^ b[w];
-      if (!diff) continue;
-      const int t = std::countr_zero(diff);
-      const Set& holder = (a[w] >> t) & 1U ? a : b;
-      const Set& other = &holder == &a ? b : a;
-      bool other_goes_on = (other[w] >> t) != 0;
-      for (int x = w + 1; x < W && !other_goes_on; ++x) other_goes_on = other[x] != 0;
-      return &holder == &a ? other_goes_on : !other_goes_on;
-    }
+    for (int w = 0; w < W; ++w)
+      if (const std::uint64_t diff = a[w] ^ b[w]) {
+        const int t = 64 * w + std::countr_zero(diff);
+        return has(a, t) ? !none(above(b, t)) : none(above(a, t));
+      }
     return false;
   }
 };
@@ -146,11 +142,7 @@ struct CoverSearch {
     CoverSearch s{Sets{n}, std::vector<Set>(std::size_t(n), Sets{n}.empty())};
     std::vector<int> pa;
     for (int v = 0; v < n; ++v) {
-      pa.clear();
-      const auto words = dag.parent_words(v);
-      for (std::size_t w = 0; w < words.size(); ++w)
-        for (std::uint64_t m = words[w]; m; m &= m - 1)
-          pa.push_back(static_cast<int>(64 * w) + std::countr_zero(m));
+      dag.parents_of(v, pa);
       for (int p : pa) {
         s.adj[v] = Sets::with(std::move(s.adj[v]), p);
         s.adj[p] = Sets::with(std::move(s.adj[p]), v);

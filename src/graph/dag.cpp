@@ -12,11 +12,16 @@ void Dag::clear_parents(int v) {
   for (int w = 0; w < words_; ++w) bits_[std::size_t(v) * words_ + w] = 0;
 }
 
-std::vector<int> Dag::parents_of(int v) const {
-  std::vector<int> out;
+void Dag::parents_of(int v, std::vector<int>& out) const {
+  out.clear();
   const auto words = parent_words(v);
   for (int w = 0; w < words_; ++w)
     for (std::uint64_t m = words[w]; m; m &= m - 1) out.push_back(64 * w + std::countr_zero(m));
+}
+
+std::vector<int> Dag::parents_of(int v) const {
+  std::vector<int> out;
+  parents_of(v, out);
   return out;
 }
 

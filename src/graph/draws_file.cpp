@@ -61,7 +61,7 @@ void write_draws(const std::string& path, const std::vector<std::string>& names,
   attrs.try_emplace("command_line", std::string());
 
   std::vector<std::uint64_t> rows;
-  const std::size_t width = std::size_t(n) * Dag(n).words_per_node();
+  const std::size_t width = std::size_t(n) * Dag::words_for(n);
   rows.reserve(dags.size() * width);
   for (const Dag& d : dags) {
     if (d.size() != n) throw Error("write_draws: a draw has the wrong number of vertices");
@@ -114,7 +114,7 @@ DrawsFile read_draws(const std::string& path) {
       throw InputError(path + ": corrupt draws (num_draws does not match the parents rows)");
     const std::vector<std::uint64_t> rows =
         h5::read_rows(group, "parents", 0, static_cast<std::size_t>(count));
-    const int words = Dag(static_cast<int>(n)).words_per_node();
+    const int words = Dag::words_for(static_cast<int>(n));
     const std::size_t width = static_cast<std::size_t>(n) * words;
     if (rows.size() != static_cast<std::size_t>(count) * width)
       throw InputError(path + ": corrupt draws (rows are not num_variables * " +

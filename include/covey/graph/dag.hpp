@@ -17,17 +17,21 @@ inline constexpr int kMaxExactVariables = 64;
 
 class Dag {
  public:
+  // 64-bit words per parent set of a graph with n vertices (also the layout of chain draws).
+  static constexpr int words_for(int n) { return (n + 63) / 64; }
+
   Dag() = default;
   explicit Dag(int n)
-      : n_(n), words_((n + 63) / 64), bits_(static_cast<std::size_t>(n) * words_, 0) {}
+      : n_(n), words_(words_for(n)), bits_(static_cast<std::size_t>(n) * words_, 0) {}
   int size() const { return n_; }
   int words_per_node() const { return words_; }
   bool has_edge(int from, int to) const { return (word(to, from) >> (from & 63)) & 1U; }
   void add_edge(int from, int to) { word(to, from) |= bit(from); }
   void remove_edge(int from, int to) { word(to, from) &= ~bit(from); }
   void clear_parents(int v);
-  // Parents of v, ascending.
+  // Parents of v, ascending; the second form refills `out` (no allocation once it has room).
   std::vector<int> parents_of(int v) const;
+  void parents_of(int v, std::vector<int>& out) const;
   std::span<const std::uint64_t> parent_words(int v) const {
     return {bits_.data() + std::size_t(v) * words_, std::size_t(words_)};
   }
